@@ -1,0 +1,349 @@
+"""Excitation spectra of the gas, in the gas's natural units.
+
+Every method works on dimensionless numpy arrays: wavenumber ``q = k xi``,
+angular frequency in units of ``c/xi = m c^2/hbar`` and speed in units of the
+sound speed ``c`` (``xi = hbar/(m c)``).  In these units the sound speed is 1.
+
+A dispersion supplies ``omega(q)``, ``structure_factor(q)`` (T = 0 static
+structure factor S(q)), ``group_velocity(q)`` and ``inverse(omega)``, and the
+polynomial ``F(q) = omega(q)^2`` through its divided differences (used to
+evaluate factors that vanish at known roots without cancellation).  The base
+class finds the crossings of ``omega(q)`` with straight lines ``v q + W`` that
+bound the golden-rule windows; a new dispersion only needs the closed forms.
+
+Both spectra here are convex with omega(0) = 0, which the window logic in the
+rate engine assumes.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+_EPS = np.finfo(float).eps
+
+
+def _bracketed_newton(f, fprime, lo, hi, iters=100):
+    """Vectorised safeguarded Newton iteration for a root of ``f`` in
+    ``[lo, hi]`` where ``f(lo) <= 0 <= f(hi)`` (f increasing on the bracket).
+
+    ``f`` and ``fprime`` take (x, mask) and return arrays for the masked
+    entries.  Returns the root to a few ulps.
+    """
+    lo = np.array(lo, dtype=float)
+    hi = np.array(hi, dtype=float)
+    x = 0.5 * (lo + hi)
+    active = np.ones(x.shape, dtype=bool)
+    for _ in range(iters):
+        idx = np.nonzero(active)[0]
+        if idx.size == 0:
+            break
+        xi = x[idx]
+        fx = f(xi, idx)
+        neg = fx < 0
+        lo[idx] = np.where(neg, xi, lo[idx])
+        hi[idx] = np.where(neg, hi[idx], xi)
+        dfx = fprime(xi, idx)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            xn = xi - fx / dfx
+        bad = ~np.isfinite(xn) | (xn <= lo[idx]) | (xn >= hi[idx])
+        xn = np.where(bad, 0.5 * (lo[idx] + hi[idx]), xn)
+        done = (np.abs(xn - xi) <= 4 * _EPS * np.abs(xn)) | (fx == 0) | (
+            hi[idx] - lo[idx] <= 4 * _EPS * np.abs(hi[idx]))
+        x[idx] = np.where(fx == 0, xi, xn)
+        active[idx[done]] = False
+    return x
+
+
+class Dispersion:
+    """Base class: crossings and thresholds from the closed forms below."""
+
+    name = "base"
+    #: True when omega(q)/q is unbounded (supersonic windows are finite)
+    bounded_windows = True
+
+    # --- to be supplied by a subclass -----------------------------------
+    def omega(self, q):
+        raise NotImplementedError
+
+    def structure_factor(self, q):
+        raise NotImplementedError
+
+    def group_velocity(self, q):
+        raise NotImplementedError
+
+    def inverse(self, w):
+        """q with omega(q) = w (w >= 0)."""
+        raise NotImplementedError
+
+    def divided_difference(self, q, r):
+        """F[q, r] = (F(q) - F(r))/(q - r) of F = omega^2, exact polynomial."""
+        raise NotImplementedError
+
+    def divided_difference2(self, q, r1, r2):
+        """Second divided difference F[q, r1, r2] of F = omega^2."""
+        raise NotImplementedError
+
+    def upper_bound(self, v, W):
+        """A q beyond which omega(q) > v q + W (v, W >= 0 arrays)."""
+        raise NotImplementedError
+
+    def inverse_group_velocity(self, v):
+        """q where the group velocity equals v (v >= 1); inf if never."""
+        raise NotImplementedError
+
+    # --- common work ----------------------------------------------------
+    def omega_divided(self, q, r):
+        """omega[q, r] = (omega(q) - omega(r))/(q - r), free of cancellation."""
+        return self.divided_difference(q, r) / (self.omega(q) + self.omega(r))
+
+    def omega_divided2(self, q, r1, r2):
+        """Second divided difference omega[q, r1, r2], free of cancellation
+        as the roots merge."""
+        w1, w2, wq = self.omega(r1), self.omega(r2), self.omega(q)
+        num = (self.divided_difference2(q, r1, r2) * (w1 + w2)
+               - self.divided_difference(r2, r1) * self.omega_divided(q, r2))
+        return num / ((wq + w1) * (w2 + w1))
+
+    def root_minus(self, v, W):
+        """q_a: omega(q) + v q = W, the low edge of the down window
+        (0 where W = 0)."""
+        v, W = np.broadcast_arrays(np.asarray(v, float), np.asarray(W, float))
+        v, W = v.ravel(), W.ravel()
+        hi = self.inverse(W)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            hi = np.where(v > 0, np.minimum(hi, W / np.where(v > 0, v, 1)), hi)
+        lo = np.zeros_like(hi)
+        root = _bracketed_newton(
+            lambda x, i: self.omega(x) + v[i] * x - W[i],
+            lambda x, i: self.group_velocity(x) + v[i], lo, hi)
+        return np.where(W == 0, 0.0, root)
+
+    def root_plus(self, v, W):
+        """q_b: omega(q) - v q = W (W > 0: the unique positive root; W = 0:
+        the nonzero root, present only for v > 1).  inf where there is none
+        because the window is unbounded; nan where the window is empty."""
+        v, W = np.broadcast_arrays(np.asarray(v, float), np.asarray(W, float))
+        v, W = v.ravel(), W.ravel()
+        out = np.full(v.shape, np.nan)
+        # W = 0: crossing of the phase velocity omega/q with v
+        zero = W == 0
+        pos = ~zero
+        if np.any(pos):
+            lo = self.inverse(W[pos])
+            hi = self.upper_bound(v[pos], W[pos])
+            ok = np.isfinite(hi)
+            vv, WW = v[pos][ok], W[pos][ok]
+            r = _bracketed_newton(
+                lambda x, i: self.omega(x) - vv[i] * x - WW[i],
+                lambda x, i: self.group_velocity(x) - vv[i], lo[ok], hi[ok])
+            tmp = np.full(lo.shape, np.inf)
+            tmp[ok] = r
+            out[pos] = tmp
+        if np.any(zero):
+            out[zero] = self.phase_velocity_crossing(v[zero])
+        return out
+
+    def phase_velocity_crossing(self, v):
+        """Nonzero q with omega(q)/q = v: nan for v <= 1, inf if unbounded."""
+        v = np.asarray(v, float)
+        out = np.full(v.shape, np.nan)
+        sup = v > 1
+        if np.any(sup):
+            hi = self.upper_bound(v[sup], np.zeros(np.count_nonzero(sup)))
+            ok = np.isfinite(hi)
+            tmp = np.full(hi.shape, np.inf)
+            if np.any(ok):
+                qs = self.inverse_group_velocity(v[sup][ok])
+                vv = v[sup][ok]
+                tmp[ok] = _bracketed_newton(
+                    lambda x, i: self.omega(x) - vv[i] * x,
+                    lambda x, i: self.group_velocity(x) - vv[i], qs, hi[ok])
+            out[sup] = tmp
+        return out
+
+    def roots_up(self, v, W):
+        """(q_c, q_d): omega(q) - v q = -W, the up-emission window (W > 0).
+        nan where empty (v below threshold); q_d = inf if unbounded."""
+        v, W = np.broadcast_arrays(np.asarray(v, float), np.asarray(W, float))
+        v, W = v.ravel(), W.ravel()
+        qc = np.full(v.shape, np.nan)
+        qd = np.full(v.shape, np.nan)
+        sup = v > 1
+        if not np.any(sup):
+            return qc, qd
+        iv = np.nonzero(sup)[0]
+        qs = self.inverse_group_velocity(v[iv])
+        fin = np.isfinite(qs)
+        gmin = np.where(fin, self.omega(np.where(fin, qs, 0)) - v[iv] * np.where(fin, qs, 0) + W[iv], -np.inf)
+        has = gmin <= 0
+        iv, qs, fin = iv[has], qs[has], fin[has]
+        if iv.size == 0:
+            return qc, qd
+        vv, WW = v[iv], W[iv]
+        # lower root on [0, q*]: g decreasing there, so solve -g = 0 increasing
+        lo_c = np.zeros(iv.size)
+        hi_c = np.where(fin, qs, np.inf)
+        rc = _bracketed_newton(
+            lambda x, i: -(self.omega(x) - vv[i] * x + WW[i]),
+            lambda x, i: -(self.group_velocity(x) - vv[i]), lo_c, hi_c)
+        rd = np.full(iv.size, np.inf)
+        if np.any(fin):
+            j = np.nonzero(fin)[0]
+            hi_d = self.upper_bound(vv[j], np.zeros(j.size))
+            v2, W2 = vv[j], WW[j]
+            rd[j] = _bracketed_newton(
+                lambda x, i: self.omega(x) - v2[i] * x + W2[i],
+                lambda x, i: self.group_velocity(x) - v2[i], qs[j], hi_d)
+        qc[iv] = rc
+        qd[iv] = rd
+        return qc, qd
+
+    def threshold(self, W):
+        """Up-transition threshold speed min_q (omega(q) + W)/q and the q at
+        which it is reached (W > 0 arrays)."""
+        W = np.asarray(W, float).ravel()
+        # h(q) = q v_g - omega - W, increasing, h(0) = -W
+        hi = np.maximum(np.cbrt(8 * W), 1e-300)
+        for _ in range(200):
+            bad = hi * self.group_velocity(hi) - self.omega(hi) - W < 0
+            if not np.any(bad):
+                break
+            hi = np.where(bad, 2 * hi, hi)
+        q = _bracketed_newton(
+            lambda x, i: x * self.group_velocity(x) - self.omega(x) - W[i],
+            lambda x, i: x * self.curvature(x), np.zeros_like(hi), hi)
+        return self.group_velocity(q), q
+
+    def curvature(self, q):
+        """d^2 omega / d q^2."""
+        raise NotImplementedError
+
+
+class Bogoliubov(Dispersion):
+    """Bogoliubov spectrum of the weakly interacting Bose gas
+    (Pitaevskii and Stringari, *Bose-Einstein Condensation and
+    Superfluidity*, 2016):
+
+        omega = q sqrt(1 + q^2/4),   S = q / sqrt(4 + q^2),
+        v_g = (1 + q^2/2) / sqrt(1 + q^2/4)
+
+    in units xi = hbar/(mc), c/xi.  Phonons (omega ~ q, S ~ q/2) at q << 1,
+    free particles (omega ~ q^2/2, S -> 1) at q >> 1.
+    """
+
+    name = "bogoliubov"
+
+    def omega(self, q):
+        q = np.asarray(q, float)
+        return q * np.sqrt(1 + 0.25 * q * q)
+
+    def structure_factor(self, q):
+        q = np.asarray(q, float)
+        return q / np.sqrt(4 + q * q)
+
+    def group_velocity(self, q):
+        q = np.asarray(q, float)
+        return (1 + 0.5 * q * q) / np.sqrt(1 + 0.25 * q * q)
+
+    def curvature(self, q):
+        q = np.asarray(q, float)
+        s = 1 + 0.25 * q * q
+        return q * (0.75 + 0.125 * q * q) / s**1.5
+
+    def inverse(self, w):
+        w = np.asarray(w, float)
+        # q^2 = 2 (sqrt(1 + w^2) - 1), written without cancellation
+        return np.sqrt(2 * w * w / (np.sqrt(1 + w * w) + 1))
+
+    def divided_difference(self, q, r):
+        # F = q^2 + q^4/4
+        return (q + r) * (1 + 0.25 * (q * q + r * r))
+
+    def divided_difference2(self, q, r1, r2):
+        # F[q,r1,r2] = 1 + (q^2 + r1^2 + r2^2 + q r1 + q r2 + r1 r2)/4
+        return 1 + 0.25 * (q * q + r1 * r1 + r2 * r2 + q * r1 + q * r2 + r1 * r2)
+
+    def upper_bound(self, v, W):
+        # omega > q^2/2 and omega > q, so omega > v q + W once q^2/2 >= v q + W
+        v = np.asarray(v, float)
+        W = np.asarray(W, float)
+        return v + np.sqrt(v * v + 2 * W) + 1e-12
+
+    def inverse_group_velocity(self, v):
+        v = np.asarray(v, float)
+        v2 = v * v
+        u = 0.5 * (v2 - 4 + np.sqrt(v2 * v2 + 8 * v2))
+        # the closed form loses accuracy near v = 1: u = 4 (v^2 - 1)/(...)
+        u = np.where(v2 < 2, 8 * (v2 - 1) / (4 - v2 + np.sqrt(v2 * v2 + 8 * v2)), u)
+        return np.sqrt(np.maximum(u, 0))
+
+
+class Phonon(Dispersion):
+    """Linear (acoustic) spectrum used for comparison with the analogue-
+    gravity picture: omega = q, S = q/2, v_g = 1 (units c, xi).
+
+    Supersonic windows are unbounded: with a point probe the d = 2, 3 rates
+    diverge, and only a finite probe width makes them finite.
+    """
+
+    name = "phonon"
+    bounded_windows = False
+
+    def omega(self, q):
+        return np.asarray(q, float) * 1.0
+
+    def structure_factor(self, q):
+        return 0.5 * np.asarray(q, float)
+
+    def group_velocity(self, q):
+        return np.ones_like(np.asarray(q, float))
+
+    def curvature(self, q):
+        return np.zeros_like(np.asarray(q, float))
+
+    def inverse(self, w):
+        return np.asarray(w, float) * 1.0
+
+    def divided_difference(self, q, r):
+        return q + r
+
+    def divided_difference2(self, q, r1, r2):
+        return np.ones_like(q + r1 + r2)
+
+    def upper_bound(self, v, W):
+        v = np.asarray(v, float)
+        W = np.asarray(W, float)
+        with np.errstate(divide="ignore"):
+            return np.where(v < 1, W / np.where(v < 1, 1 - v, 1) * (1 + 1e-12) + 1e-300, np.inf)
+
+    def root_minus(self, v, W):
+        v, W = np.broadcast_arrays(np.asarray(v, float), np.asarray(W, float))
+        return (W / (1 + v)).ravel()
+
+    def root_plus(self, v, W):
+        v, W = np.broadcast_arrays(np.asarray(v, float), np.asarray(W, float))
+        v, W = v.ravel(), W.ravel()
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = np.where(v < 1, W / (1 - v), np.inf)
+        return np.where((W == 0) & (v <= 1), np.nan, r)
+
+    def phase_velocity_crossing(self, v):
+        v = np.asarray(v, float)
+        return np.where(v > 1, np.inf, np.nan)
+
+    def inverse_group_velocity(self, v):
+        return np.full(np.shape(v), np.inf)
+
+    def roots_up(self, v, W):
+        v, W = np.broadcast_arrays(np.asarray(v, float), np.asarray(W, float))
+        v, W = v.ravel(), W.ravel()
+        with np.errstate(divide="ignore", invalid="ignore"):
+            qc = np.where(v > 1, W / (v - 1), np.nan)
+        qd = np.where(v > 1, np.inf, np.nan)
+        return qc, qd
+
+    def threshold(self, W):
+        W = np.asarray(W, float).ravel()
+        return np.ones_like(W), np.full(W.shape, np.inf)
+
+
+DISPERSIONS = {"bogoliubov": Bogoliubov, "phonon": Phonon}
