@@ -1,0 +1,565 @@
+"""Stationary golden-rule rates for inertial and circular motion.
+
+Kernels work in the gas's natural units (q = k xi, frequencies in c/xi,
+speeds in c, lengths in xi) on plain numpy arrays; ``stationary_rates`` and
+the ``*_rates`` functions convert SI inputs and outputs.
+
+With ``A = (kappa/hbar)^2 n`` the rate of a transition with frequency change
+``D`` (+Omega up, -Omega down) is
+
+    Gamma = A int d^dk/(2pi)^d S |F|^2 [(1+n_k) 2pi delta(D + w_k - k.v)
+                                       +   n_k  2pi delta(D - w_k + k.v)]
+
+for inertial motion (Birrell and Davies 1982, ch. 3; the phonon field's
+Wightman function along x = v t).  The delta functions restrict k to two
+windows: ``W1 = {|w - Omega| <= k v}`` (down emission, up absorption) and
+``W2 = {w + Omega <= k v}`` (up emission, the anomalous-Doppler process of
+Ginzburg and Frolov, Sov. Phys. Usp. 30, 1073 (1987), and down absorption).
+For a convex spectrum each window is one interval ``[a, b]``; in d = 1 the
+rate is the sum over its edges.
+
+For circular motion of radius R and angular frequency w_c the Jacobi-Anger
+expansion turns the time integral into a sum over harmonics m of
+``2 pi delta(D +- w_k - m w_c)``.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import constants as sc
+from scipy.special import jv
+
+from .errors import InputError, ModelError
+from .quadrature import integrate
+from .results import RateResult
+
+HBAR = sc.hbar
+KB = sc.k
+
+#: |F|^2 = exp(-q^2 s^2) is below exp(-_CUT) beyond q = sqrt(_CUT)/s
+_CUT = 80.0
+
+
+# ---------------------------------------------------------------------------
+# dimensionless kernels
+# ---------------------------------------------------------------------------
+class _Gas:
+    """Dimensionless description of the gas and probe shared by kernels."""
+
+    def __init__(self, dispersion, d, width, temperature):
+        self.disp = dispersion
+        self.d = d
+        self.s = np.asarray(width, float)       # s / xi
+        self.T = float(temperature)             # k_B T / (m c^2)
+
+    def form(self, q, s):
+        return np.exp(-(q * s) ** 2)
+
+    def occupation(self, q):
+        if self.T == 0:
+            return np.zeros_like(q)
+        with np.errstate(over="ignore", divide="ignore"):
+            return 1.0 / np.expm1(self.disp.omega(q) / self.T)
+
+    def qcut(self, s):
+        with np.errstate(divide="ignore"):
+            return np.where(s > 0, math.sqrt(_CUT) / np.where(s > 0, s, 1), np.inf)
+
+
+def _weights(gas, q, tag):
+    """Weight factor of the integrand: 'plain' (1), 'thermal' (n_k),
+    'energy' (w_k) or 'thermal_energy'."""
+    if tag == "plain":
+        return np.ones_like(q)
+    if tag == "thermal":
+        return gas.occupation(q)
+    if tag == "energy":
+        return gas.disp.omega(q)
+    raise ValueError(tag)
+
+
+def _window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
+    """Integrals over one window for every point.
+
+    kind 'W1': edges a (w + v q = W) and b (w - v q = W);
+    kind 'W2': edges a, b both roots of w - v q = -W.
+    Returns {tag: (value, error)} of the dimensionless rate integral
+    I_d (so that Gamma = A xi^-d / (c/xi) * I_d).
+    """
+    disp, d = gas.disp, gas.d
+    n = v.size
+    out = {t: (np.zeros(n), np.zeros(n)) for t in tags}
+    present = np.isfinite(a) & ~np.isnan(b) & (b > a)
+    if d == 1:
+        # sum over the real roots of k v = X(|k|): the window edges
+        for t in tags:
+            val = np.zeros(n)
+            for edge, sign in ((a, +1.0 if kind == "W1" else -1.0), (b, -1.0)):
+                ok = present & np.isfinite(edge) & (edge > 0)
+                if kind == "W1" and edge is a:
+                    ok = ok & (W > 0)
+                q = np.where(ok, edge, 1.0)
+                vg = disp.group_velocity(q)
+                denom = np.abs(vg + sign * v)
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    term = (disp.structure_factor(q) * gas.form(q, s)
+                            * _weights(gas, q, t) / denom)
+                if t == "energy":
+                    pass
+                val += np.where(ok, term, 0.0)
+            out[t] = (val, np.abs(val) * 1e-14)
+        return out
+
+    qc = gas.qcut(s)
+    bb = np.where(np.isinf(b), qc, b)
+    if np.any(present & np.isinf(bb)):
+        raise ModelError(
+            "condensate.dispersion",
+            "with the 'phonon' dispersion and a point probe (width 0) the "
+            "supersonic rate diverges: the window of emitted wavenumbers is "
+            "unbounded; give the probe a width or use 'bogoliubov'")
+    present = present & (bb > a)
+    idx = np.nonzero(present)[0]
+    if idx.size == 0:
+        return out
+    aa, bq, vv, WW, ss = a[idx], bb[idx], v[idx], W[idx], s[idx]
+    unbounded = np.isinf(b[idx])
+    bcut = b[idx] > bq * (1 + 1e-15)  # window cut by the form factor
+
+    if d == 3:
+        def make(t):
+            def f(x, i):
+                return (x * disp.structure_factor(x) * gas.form(x, ss[i, None])
+                        * _weights(gas, x, t)) / (2 * math.pi * vv[i, None])
+            return f
+        for t in tags:
+            val, err, _ = integrate(make(t), aa, bq, rtol=rtol * 0.1)
+            out[t][0][idx] = val
+            out[t][1][idx] = err
+        return out
+
+    # d = 2: 2/sqrt(k^2 v^2 - X^2) with inverse-square-root edges
+    def factor(x, i):
+        """sqrt((q - a)(b - q) / ((kv - X)(kv + X))) without cancellation,
+        or sqrt((q - a)/((kv - X)(kv + X))) on unbounded windows."""
+        A_, B_, V, Wd = aa[i, None], b[idx][i, None], vv[i, None], WW[i, None]
+        if kind == "W1":
+            lower = V + disp.omega_divided(x, A_)              # (kv+X)/(q-a)
+            with np.errstate(invalid="ignore"):
+                upper_fin = disp.omega_divided(x, np.where(np.isinf(B_), 0, B_)) - V
+            upper = np.where(np.isinf(B_), x * V + Wd - disp.omega(x), upper_fin)
+            fin = ~np.isinf(B_)
+            # finite: (kv - X)/(b - q); unbounded: kv - X itself
+            return 1.0 / np.sqrt(lower * upper), fin
+        # W2: kv - X = (q - a)(b - q) w[q,a,b]; kv + X = v q + W + w
+        fin = ~np.isinf(B_)
+        with np.errstate(invalid="ignore"):
+            mid = disp.omega_divided2(x, A_, np.where(fin, B_, A_ + 1))
+        plus = V * x + Wd + disp.omega(x)
+        lower_only = V - disp.omega_divided(x, A_)             # unbounded: (kv-X)/(q-a)
+        val = np.where(fin, mid * plus, lower_only * plus)
+        return 1.0 / np.sqrt(val), fin
+
+    def make2(t):
+        def f(th, i):
+            A_, Bc = aa[i, None], bq[i, None]
+            Bf = b[idx][i, None]
+            fin = ~np.isinf(Bf)
+            # finite windows: q = (a+b)/2 - (b-a)/2 cos(theta), dq/sqrt(..)=dtheta
+            # unbounded: q = a + t^2, dq/sqrt(q - a) = 2 dt
+            Bs = np.where(fin, Bf, A_ + 1.0)
+            qf = 0.5 * (A_ + Bs) - 0.5 * (Bs - A_) * np.cos(th)
+            qu = A_ + th * th
+            q = np.where(fin, qf, qu)
+            fac, _ = factor(q, i)
+            jac = np.where(fin, 1.0, 2.0)
+            g = (q * disp.structure_factor(q) * gas.form(q, ss[i, None])
+                 * _weights(gas, q, t))
+            return g * 2.0 * fac * jac / (2 * math.pi)
+        return f
+
+    # integration variable limits
+    fin = ~unbounded
+    th_hi = np.empty(idx.size)
+    with np.errstate(invalid="ignore"):
+        cosarg = np.clip((aa + b[idx] - 2 * bq) / np.where(fin, b[idx] - aa, 1), -1, 1)
+    th_hi[fin] = np.where(bcut[fin], np.arccos(cosarg[fin]), math.pi)
+    th_hi[~fin] = np.sqrt(bq[~fin] - aa[~fin])
+    for t in tags:
+        val, err, _ = integrate(make2(t), np.zeros(idx.size), th_hi, rtol=rtol * 0.1)
+        out[t][0][idx] = val
+        out[t][1][idx] = err
+    return out
+
+
+def _static_values(gas, W, s, tag):
+    """v = 0: Gamma/A' = S|F|^2 weight * {q^2/(pi v_g), q/v_g, 2/v_g} at w = W."""
+    disp, d = gas.disp, gas.d
+    q = disp.inverse(W)
+    vg = disp.group_velocity(np.where(q > 0, q, 1.0))
+    base = disp.structure_factor(q) * gas.form(q, s) * _weights(gas, q, tag)
+    geo = {3: q * q / math.pi, 2: q, 1: 2.0 * np.ones_like(q)}[d]
+    return np.where(W > 0, base * geo / vg, 0.0)
+
+
+def inertial_kernel(gas, v, W, s, rtol=1e-8, energy=False):
+    """Dimensionless inertial rates.
+
+    Returns dict with 'down', 'up' (two-level, W > 0) or 'emission',
+    'absorption', 'energy' (density probe, W = 0), each (value, error),
+    in units of A xi^-d xi/c.
+    """
+    v, W, s = (np.asarray(x, float).ravel() for x in np.broadcast_arrays(v, W, s))
+    disp = gas.disp
+    thermal = gas.T > 0
+    tags = ["plain"] + (["thermal"] if thermal else []) + (["energy"] if energy else [])
+    moving = v > 0
+    res = {}
+    nW = v.size
+    zero = np.zeros(nW)
+
+    qa = np.full(nW, np.nan)
+    qb = np.full(nW, np.nan)
+    qc = np.full(nW, np.nan)
+    qd = np.full(nW, np.nan)
+    if np.any(moving):
+        m = moving
+        qa[m] = disp.root_minus(v[m], W[m])
+        qb[m] = disp.root_plus(v[m], W[m])
+        upm = m & (W > 0)
+        if np.any(upm):
+            c_, d_ = disp.roots_up(v[upm], W[upm])
+            qc[upm], qd[upm] = c_, d_
+    I1 = _window_integrals(gas, v, W, s, qa, qb, "W1", tags, rtol)
+    I2 = _window_integrals(gas, v, W, s, qc, qd, "W2", tags, rtol)
+
+    def pick(I, t):
+        return I[t] if t in I else (zero, zero)
+
+    st = ~moving
+    static = {t: _static_values(gas, W, s, t) for t in tags}
+    p1, e1 = pick(I1, "plain")
+    p2, e2 = pick(I2, "plain")
+    t1, f1 = pick(I1, "thermal")
+    t2, f2 = pick(I2, "thermal")
+    sp = static["plain"]
+    stt = static.get("thermal", zero)
+    if np.all(W > 0):
+        down = np.where(st, sp + stt, p1 + t1 + t2)
+        up = np.where(st, stt, p2 + t2 + t1)
+        res["down"] = (down, np.where(st, 1e-15 * down, e1 + f1 + f2))
+        res["up"] = (up, np.where(st, 1e-15 * up, e2 + f2 + f1))
+    else:
+        # density probe: W = 0, both windows coincide with [0, q_b]
+        res["emission"] = (np.where(st, 0.0, p1 + t1), e1 + f1)
+        res["absorption"] = (np.where(st, 0.0, t1), f1)
+        en = pick(I1, "energy")
+        res["energy"] = (np.where(st, 0.0, en[0]), en[1])
+    res["edges"] = (qa, qb, qc, qd)
+    return res
+
+
+# --- circular --------------------------------------------------------------
+def _kapteyn(z):
+    """rho(z) with |J_m(m z)| <= rho(z)^m for 0 <= z <= 1 (Kapteyn's
+    inequality, Watson, *Theory of Bessel Functions*, sec. 8.7)."""
+    z = np.clip(z, 0, 1)
+    r = np.sqrt(1 - z * z)
+    with np.errstate(divide="ignore"):
+        return np.where(z > 0, z * np.exp(r) / (1 + r), 0.0)
+
+
+def _w3(m, x):
+    """W_m(x) = (1/2) int_{-1}^{1} J_m(x sqrt(1-u^2))^2 du
+             = (1/(2x)) int_0^{2x} J_{2m}(t) dt = (1/x) sum_{j>=0} J_{2m+2j+1}(2x).
+
+    (The spherical average of J_m^2 over the polar angle; the second form
+    uses J_m(a)^2 = (2/pi) int_0^{pi/2} J_{2m}(2a cos p) dp and the uniform
+    distribution of one Cartesian coordinate on the sphere.)"""
+    m = np.abs(np.asarray(m, float))
+    x = np.asarray(x, float)
+    out = np.zeros(m.shape)
+    small = x < 1e-8
+    out[small & (m == 0)] = 1.0
+    big = ~small
+    if not np.any(big):
+        return out
+    mm, xx = m[big], x[big]
+    z = 2 * xx
+    # number of terms: orders up to z + 40 + 8 z^(1/3) beyond 2m+1
+    nmax = np.maximum(0, np.ceil((z + 40 + 8 * np.cbrt(z) - 2 * mm - 1) / 2)).astype(int) + 8
+    acc = np.zeros(mm.shape)
+    order = np.argsort(nmax)
+    # process in groups of similar length to bound memory
+    start = 0
+    while start < order.size:
+        stop = min(order.size, start + max(1, 4_000_000 // max(1, nmax[order[min(order.size - 1, start + 255)]])))
+        sel = order[start:stop]
+        J = int(nmax[sel].max())
+        j = np.arange(J)
+        orders = 2 * mm[sel, None] + 2 * j[None, :] + 1
+        vals = jv(orders, z[sel, None])
+        vals = np.where(j[None, :] < nmax[sel, None], vals, 0.0)
+        acc[sel] = vals.sum(axis=1)
+        start = stop
+    out[big] = acc / xx
+    return out
+
+
+def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_000_000):
+    """Dimensionless circular rates for one point (scalars R, v, W, s), in
+    units of A xi^-d xi/c.  Returns dict like ``inertial_kernel`` plus the
+    number of harmonics used."""
+    disp, d = gas.disp, gas.d
+    wc = v / R
+    thermal = gas.T > 0
+
+    def sum_family(sign):
+        """sign=+1: w = W + m wc (E1); sign=-1: w = m wc - W (E2).
+        Returns plain, thermal, energy sums with remainder bounds."""
+        mlo = math.floor(-sign * W / wc) + 1
+        if W == 0:
+            mlo = max(mlo, 1)
+        tot = {"plain": 0.0, "thermal": 0.0, "energy": 0.0}
+        errs = {"plain": 0.0, "thermal": 0.0, "energy": 0.0}
+        block = 256
+        m0 = mlo
+        count = 0
+        while True:
+            m = np.arange(m0, m0 + block, dtype=float)
+            w = sign * W + m * wc
+            q = disp.inverse(w)
+            vg = disp.group_velocity(q)
+            Sq = disp.structure_factor(q)
+            F = gas.form(q, s)
+            x = q * R
+            if d == 2:
+                B = jv(m, x) ** 2
+                P0 = q * Sq / vg
+            else:
+                B = _w3(m, x)
+                P0 = q * q * Sq / (math.pi * vg)
+            base = P0 * F * B
+            n_th = gas.occupation(q) if thermal else np.zeros_like(q)
+            tot["plain"] += base.sum()
+            tot["thermal"] += (base * n_th).sum()
+            if energy:
+                tot["energy"] += (base * w).sum()
+            count += block
+            m0 += block
+            # remainder bound past the block end M
+            M = m[-1]
+            qM = q[-1]
+            zM = qM * R / M if M > 0 else np.inf
+            past_peak = True
+            if sign < 0 and W > 0:
+                qt = disp.threshold(np.array([W]))[1][0]
+                past_peak = qM >= qt
+            if M > 0 and zM < 1 and past_peak:
+                r = _kapteyn(zM) ** 2
+                g = r * math.exp(3.0 / M)
+                if g < 1:
+                    P0M = P0[-1] * (1.0 if W == 0 else 1.0)
+                    wM = w[-1]
+                    tail = P0M * r**M * g / (1 - g)
+                    # weights: energy grows like m, thermal decreases
+                    tail_e = tail * wM * math.exp(1.0) if energy else 0.0
+                    nM = n_th[-1] if thermal else 0.0
+                    bound = {"plain": tail, "thermal": tail * nM, "energy": tail_e}
+                    ok = all(bound[k] <= rtol * 0.1 * abs(tot[k]) + 1e-300
+                             for k in bound if (k != "energy" or energy)
+                             and (k != "thermal" or thermal))
+                    if ok or tail == 0:
+                        for k in bound:
+                            errs[k] = bound[k]
+                        break
+            if count > max_harmonics:
+                raise ModelError(
+                    "trajectory.radius",
+                    f"the harmonic sum did not converge within {max_harmonics} "
+                    "terms; the radius is too large for the circular engine")
+            block = min(block * 2, 8192)
+        return tot, errs, count
+
+    res = {}
+    if W > 0:
+        t1, e1, n1 = sum_family(+1)
+        t2, e2, n2 = sum_family(-1)
+        bessel_err = 1e-13
+        down = t1["plain"] + t1["thermal"] + t2["thermal"]
+        up = t2["plain"] + t2["thermal"] + t1["thermal"]
+        res["down"] = (down, e1["plain"] + e1["thermal"] + e2["thermal"] + bessel_err * down)
+        res["up"] = (up, e2["plain"] + e2["thermal"] + e1["thermal"] + bessel_err * up)
+        res["harmonics"] = n1 + n2
+    else:
+        t1, e1, n1 = sum_family(+1)
+        res["emission"] = (t1["plain"] + t1["thermal"], e1["plain"] + e1["thermal"])
+        res["absorption"] = (t1["thermal"], e1["thermal"])
+        res["energy"] = (t1["energy"], e1["energy"])
+        res["harmonics"] = n1
+    return res
+
+
+# ---------------------------------------------------------------------------
+# SI layer
+# ---------------------------------------------------------------------------
+def _prefactor(cond, probe):
+    """A xi^-d / (c/xi): converts dimensionless integrals to 1/s."""
+    A = (probe.coupling / HBAR) ** 2 * cond.density
+    return A * cond.healing_length ** (-cond.dimension) / cond.frequency_unit
+
+
+def _gas(cond, probe):
+    if cond.dimension == 1 and probe.width > 0:
+        pass
+    return _Gas(cond.dispersion, cond.dimension, probe.width / cond.healing_length,
+                KB * cond.temperature / cond.energy_unit)
+
+
+def _check_array(name, x, allow_zero=True):
+    x = np.asarray(x, float)
+    if not np.all(np.isfinite(x)):
+        raise InputError(name, f"must be finite, got {x!r}")
+    if np.any(x < 0) or (not allow_zero and np.any(x == 0)):
+        raise InputError(name, f"must be {'>= 0' if allow_zero else '> 0'}, got {x!r}")
+    return x
+
+
+def _finish_two_level(cond, gap, up, down):
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = down / up
+        teff = HBAR * gap / (KB * np.log(ratio))
+        teff = np.where(up == 0, 0.0, teff)
+        pop = np.where(up + down > 0, up / (up + down), 0.0)
+    return teff, pop
+
+
+def _shape(x, shape):
+    x = np.asarray(x, float).reshape(shape)
+    return float(x) if x.ndim == 0 else x
+
+
+def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
+    """Golden-rule rates for uniform straight motion at ``speed`` (m/s).
+
+    ``speed`` and ``gap`` (rad/s; default the probe's) broadcast together.
+    Returns a :class:`RateResult` with arrays of the broadcast shape.
+    """
+    speed = _check_array("trajectory.speed", speed)
+    c, xi, w0 = condensate.sound_speed, condensate.healing_length, condensate.frequency_unit
+    gas = _gas(condensate, probe)
+    pref = _prefactor(condensate, probe)
+    res = RateResult(kind="inertial", model=probe.name, sound_speed=c,
+                     healing_length=xi, chemical_potential=condensate.chemical_potential)
+    if probe.has_gap:
+        gap = _check_array("probe.gap", probe.gap if gap is None else gap, allow_zero=False)
+        vv, WW = np.broadcast_arrays(speed / c, gap / w0)
+        shape = vv.shape
+        out = inertial_kernel(gas, vv, WW, gas.s, rtol=rtol)
+        up, dn = out["up"][0] * pref, out["down"][0] * pref
+        res.up_rate, res.down_rate = _shape(up, shape), _shape(dn, shape)
+        res.up_rate_error = _shape(out["up"][1] * pref, shape)
+        res.down_rate_error = _shape(out["down"][1] * pref, shape)
+        teff, pop = _finish_two_level(condensate, WW.ravel() * w0, up, dn)
+        res.effective_temperature = _shape(teff, shape)
+        res.excited_population = _shape(pop, shape)
+        vt, _ = condensate.dispersion.threshold(WW.ravel())
+        res.up_threshold_speed = _shape(vt * c, shape)
+        res.speed = _shape(vv.ravel() * c, shape)
+        res.gap = _shape(WW.ravel() * w0, shape)
+    else:
+        vv = np.asarray(speed / c, float)
+        shape = vv.shape
+        out = inertial_kernel(gas, vv, np.zeros(shape), gas.s, rtol=rtol, energy=True)
+        res.emission_rate = _shape(out["emission"][0] * pref, shape)
+        res.emission_rate_error = _shape(out["emission"][1] * pref, shape)
+        res.absorption_rate = _shape(out["absorption"][0] * pref, shape)
+        # net energy per unit time: (1+n) - n = 1 weight, hbar w per quantum
+        power = out["energy"][0] * pref * HBAR * w0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            drag = np.where(vv.ravel() > 0, power / (vv.ravel() * c), 0.0)
+        res.power = _shape(power, shape)
+        res.drag_force = _shape(drag, shape)
+        res.speed = _shape(vv.ravel() * c, shape)
+    return res
+
+
+def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8):
+    """Golden-rule rates on a circle of ``radius`` (m) at ``speed`` (m/s),
+    in the plane of a 2D gas or inside a 3D gas.  Arrays broadcast."""
+    d = condensate.dimension
+    if d == 1:
+        raise InputError("trajectory.kind",
+                         "a circular path needs a 2D or 3D gas; this gas is 1D")
+    radius = _check_array("trajectory.radius", radius, allow_zero=False)
+    speed = _check_array("trajectory.speed", speed)
+    c, xi, w0 = condensate.sound_speed, condensate.healing_length, condensate.frequency_unit
+    gas = _gas(condensate, probe)
+    pref = _prefactor(condensate, probe)
+    res = RateResult(kind="circular", model=probe.name, sound_speed=c,
+                     healing_length=xi, chemical_potential=condensate.chemical_potential)
+    gapv = probe.gap if gap is None else gap
+    if probe.has_gap:
+        gapv = _check_array("probe.gap", gapv, allow_zero=False)
+    RR, vv, WW = np.broadcast_arrays(radius / xi, speed / c, np.asarray(gapv, float) / w0)
+    shape = RR.shape
+    Rf, vf, Wf = RR.ravel(), vv.ravel(), WW.ravel()
+    n = Rf.size
+    keys = ("up", "down") if probe.has_gap else ("emission", "absorption", "energy")
+    vals = {k: np.zeros(n) for k in keys}
+    errs = {k: np.zeros(n) for k in keys}
+    harmonics = np.zeros(n, dtype=int)
+    for i in range(n):
+        if vf[i] == 0:
+            o = inertial_kernel(gas, np.array([0.0]), np.array([Wf[i]]), gas.s,
+                                rtol=rtol, energy=not probe.has_gap)
+            for k in keys:
+                vals[k][i] = o[k][0][0]
+                errs[k][i] = o[k][1][0]
+            continue
+        o = circular_kernel(gas, Rf[i], vf[i], Wf[i], float(gas.s), rtol=rtol,
+                            energy=not probe.has_gap)
+        for k in keys:
+            vals[k][i], errs[k][i] = o[k]
+        harmonics[i] = o["harmonics"]
+    res.speed = _shape(vf * c, shape)
+    res.radius = _shape(Rf * xi, shape)
+    res.harmonics = harmonics.reshape(shape) if shape else int(harmonics[0])
+    if probe.has_gap:
+        up, dn = vals["up"] * pref, vals["down"] * pref
+        res.up_rate, res.down_rate = _shape(up, shape), _shape(dn, shape)
+        res.up_rate_error = _shape(errs["up"] * pref, shape)
+        res.down_rate_error = _shape(errs["down"] * pref, shape)
+        teff, pop = _finish_two_level(condensate, Wf * w0, up, dn)
+        res.effective_temperature = _shape(teff, shape)
+        res.excited_population = _shape(pop, shape)
+        res.gap = _shape(Wf * w0, shape)
+    else:
+        res.emission_rate = _shape(vals["emission"] * pref, shape)
+        res.emission_rate_error = _shape(errs["emission"] * pref, shape)
+        res.absorption_rate = _shape(vals["absorption"] * pref, shape)
+        power = vals["energy"] * pref * HBAR * w0
+        res.power = _shape(power, shape)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            res.drag_force = _shape(np.where(vf > 0, power / (vf * c), 0.0), shape)
+    return res
+
+
+def stationary_rates(condensate, probe, trajectory, rtol=1e-8):
+    """Rates for a trajectory that declares itself stationary (uniform
+    straight or uniform circular motion).  Arrays in the trajectory's
+    parameters broadcast."""
+    if not getattr(trajectory, "stationary", False):
+        raise InputError("trajectory.kind",
+                         "stationary rates need uniform straight or circular "
+                         "motion; finite paths give transition probabilities")
+    p = trajectory.stationary_parameters()
+    kind = trajectory.stationary_kind
+    if kind == "inertial":
+        res = inertial_rates(condensate, probe, p["speed"], rtol=rtol)
+    elif kind == "circular":
+        res = circular_rates(condensate, probe, p["radius"], p["speed"], rtol=rtol)
+    else:
+        raise InputError("trajectory.kind", f"no stationary engine for {kind!r}")
+    return res
