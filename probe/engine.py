@@ -310,90 +310,145 @@ def _w3(m, x):
 def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_000_000):
     """Dimensionless circular rates for one point (scalars R, v, W, s), in
     units of A xi^-d xi/c.  Returns dict like ``inertial_kernel`` plus the
-    number of harmonics used."""
+    number of harmonics used.
+
+    Each family of harmonics (``w_k = W + m w_c`` and ``w_k = m w_c - W``) is
+    summed outward from the region where ``k R ~ |m|`` until Kapteyn's
+    inequality bounds what is left below the tolerance.
+    """
     disp, d = gas.disp, gas.d
     wc = v / R
     thermal = gas.T > 0
+    if (not disp.bounded_windows) and v >= 1 and s == 0:
+        raise ModelError(
+            "condensate.dispersion",
+            "with the 'phonon' dispersion and a point probe (width 0) the "
+            "supersonic circular rate diverges: every harmonic radiates; give "
+            "the probe a width or use 'bogoliubov'")
+    qcut = math.sqrt(_CUT) / s if s > 0 else math.inf
+    keys = ("plain", "thermal", "energy")
 
-    def sum_family(sign):
-        """sign=+1: w = W + m wc (E1); sign=-1: w = m wc - W (E2).
-        Returns plain, thermal, energy sums with remainder bounds."""
-        mlo = math.floor(-sign * W / wc) + 1
-        if W == 0:
-            mlo = max(mlo, 1)
-        tot = {"plain": 0.0, "thermal": 0.0, "energy": 0.0}
-        errs = {"plain": 0.0, "thermal": 0.0, "energy": 0.0}
-        block = 256
-        m0 = mlo
+    def terms(m, sign):
+        w = sign * W + m * wc
+        q = disp.inverse(w)
+        vg = disp.group_velocity(q)
+        Sq = disp.structure_factor(q)
+        x = q * R
+        if d == 2:
+            B = jv(m, x) ** 2
+            P0 = q * Sq / vg
+        else:
+            B = _w3(m, x)
+            P0 = q * q * Sq / (math.pi * vg)
+        base = P0 * gas.form(q, s) * B
+        n_th = gas.occupation(q) if thermal else np.zeros_like(q)
+        sums = {"plain": base.sum(), "thermal": (base * n_th).sum(),
+                "energy": (base * w).sum() if energy else 0.0}
+        return sums, q, P0, w, n_th
+
+    def converged(tot, tail, n_end, w_end):
+        bound = {"plain": tail, "thermal": tail * n_end,
+                 "energy": tail * w_end * math.e if energy else 0.0}
+        ok = all(bound[k] <= rtol * 0.1 * abs(tot[k]) + 1e-300 for k in keys)
+        return ok, bound
+
+    def sweep(sign, m_first, direction, m_stop, m_edge):
+        """Sum terms m_first, m_first+direction, ... (not past m_stop) until
+        the remainder bound is met.  Returns sums, bounds, count."""
+        tot = dict.fromkeys(keys, 0.0)
+        bnd = dict.fromkeys(keys, 0.0)
         count = 0
+        m0 = m_first
+        first = True
         while True:
-            m = np.arange(m0, m0 + block, dtype=float)
-            w = sign * W + m * wc
-            q = disp.inverse(w)
-            vg = disp.group_velocity(q)
-            Sq = disp.structure_factor(q)
-            F = gas.form(q, s)
-            x = q * R
-            if d == 2:
-                B = jv(m, x) ** 2
-                P0 = q * Sq / vg
+            if direction > 0:
+                size = 256 if not first else int(min(8192, max(256, m_edge - m0 + 64)))
+                size = max(size, int(min(8192, abs(m_edge) / 8)))
+                m = np.arange(m0, m0 + size, dtype=float)
             else:
-                B = _w3(m, x)
-                P0 = q * q * Sq / (math.pi * vg)
-            base = P0 * F * B
-            n_th = gas.occupation(q) if thermal else np.zeros_like(q)
-            tot["plain"] += base.sum()
-            tot["thermal"] += (base * n_th).sum()
-            if energy:
-                tot["energy"] += (base * w).sum()
-            count += block
-            m0 += block
-            # remainder bound past the block end M
+                size = int(min(8192, max(256, (m0 - m_edge) + 64 if first else abs(m_edge) / 8 + 256)))
+                lo = max(m_stop, m0 - size + 1)
+                m = np.arange(m0, lo - 1, -1, dtype=float)
+            first = False
+            if m.size == 0:
+                break
+            sums, q, P0, w, n_th = terms(m, sign)
+            for k in keys:
+                tot[k] += sums[k]
+            count += m.size
             M = m[-1]
+            m0 = M + direction
+            if direction < 0 and M <= m_stop:
+                break
             qM = q[-1]
-            zM = qM * R / M if M > 0 else np.inf
+            if qM > qcut and direction > 0:
+                # the form factor is below exp(-80) from here on
+                break
+            zM = qM * R / abs(M) if M != 0 else math.inf
             past_peak = True
-            if sign < 0 and W > 0:
-                qt = disp.threshold(np.array([W]))[1][0]
-                past_peak = qM >= qt
-            if M > 0 and zM < 1 and past_peak:
+            if direction > 0 and sign < 0 and W > 0:
+                past_peak = M >= m_edge
+            if zM < 1 and past_peak:
                 r = _kapteyn(zM) ** 2
-                g = r * math.exp(3.0 / M)
+                g = r * math.exp(3.0 / abs(M)) if direction > 0 else r
                 if g < 1:
-                    P0M = P0[-1] * (1.0 if W == 0 else 1.0)
-                    wM = w[-1]
-                    tail = P0M * r**M * g / (1 - g)
-                    # weights: energy grows like m, thermal decreases
-                    tail_e = tail * wM * math.exp(1.0) if energy else 0.0
-                    nM = n_th[-1] if thermal else 0.0
-                    bound = {"plain": tail, "thermal": tail * nM, "energy": tail_e}
-                    ok = all(bound[k] <= rtol * 0.1 * abs(tot[k]) + 1e-300
-                             for k in bound if (k != "energy" or energy)
-                             and (k != "thermal" or thermal))
-                    if ok or tail == 0:
-                        for k in bound:
-                            errs[k] = bound[k]
+                    tail = P0[-1] * r ** abs(M) * g / (1 - g)
+                    ok, b = converged(tot, tail, n_th[-1], w[-1])
+                    if ok:
+                        bnd = b
                         break
             if count > max_harmonics:
                 raise ModelError(
                     "trajectory.radius",
                     f"the harmonic sum did not converge within {max_harmonics} "
                     "terms; the radius is too large for the circular engine")
-            block = min(block * 2, 8192)
-        return tot, errs, count
+        return tot, bnd, count
+
+    def family(sign):
+        mlo = math.floor(-sign * W / wc) + 1
+        if W == 0:
+            mlo = max(mlo, 1)
+        if sign > 0:
+            qe = float(disp.root_plus(np.array([v]), np.array([W]))[0])
+            if not np.isfinite(qe):
+                qe = qcut
+        else:
+            qc_, qd_ = disp.roots_up(np.array([v]), np.array([W]))
+            if np.isfinite(qd_[0]):
+                qe = float(qd_[0])
+            elif np.isnan(qd_[0]):
+                qe = float(disp.threshold(np.array([W]))[1][0]) if W > 0 else 0.0
+                if not np.isfinite(qe):
+                    qe = qcut
+            else:
+                qe = qcut
+        m_edge = (float(disp.omega(qe)) - sign * W) / wc if np.isfinite(qe) else 1e9
+        up_start = max(mlo, 0 if sign > 0 and W > 0 else mlo)
+        tot, bnd, cnt = sweep(sign, up_start, +1, None, m_edge)
+        if up_start > mlo:
+            # negative harmonics: w = W - |m| w_c > 0; they matter down to
+            # |m| ~ q_a R and decay beyond
+            qa = float(disp.root_minus(np.array([v]), np.array([W]))[0])
+            m_edge_neg = -(W - float(disp.omega(qa))) / wc
+            t2, b2, c2 = sweep(sign, up_start - 1, -1, mlo, m_edge_neg)
+            for k in keys:
+                tot[k] += t2[k]
+                bnd[k] += b2[k]
+            cnt += c2
+        return tot, bnd, cnt
 
     res = {}
+    bessel = 1e-13   # relative accuracy of the Bessel functions and sums
     if W > 0:
-        t1, e1, n1 = sum_family(+1)
-        t2, e2, n2 = sum_family(-1)
-        bessel_err = 1e-13
+        t1, e1, n1 = family(+1)
+        t2, e2, n2 = family(-1)
         down = t1["plain"] + t1["thermal"] + t2["thermal"]
         up = t2["plain"] + t2["thermal"] + t1["thermal"]
-        res["down"] = (down, e1["plain"] + e1["thermal"] + e2["thermal"] + bessel_err * down)
-        res["up"] = (up, e2["plain"] + e2["thermal"] + e1["thermal"] + bessel_err * up)
+        res["down"] = (down, e1["plain"] + e1["thermal"] + e2["thermal"] + bessel * down)
+        res["up"] = (up, e2["plain"] + e2["thermal"] + e1["thermal"] + bessel * up)
         res["harmonics"] = n1 + n2
     else:
-        t1, e1, n1 = sum_family(+1)
+        t1, e1, n1 = family(+1)
         res["emission"] = (t1["plain"] + t1["thermal"], e1["plain"] + e1["thermal"])
         res["absorption"] = (t1["thermal"], e1["thermal"])
         res["energy"] = (t1["energy"], e1["energy"])
