@@ -1,0 +1,311 @@
+"""Reading physical quantities written as strings with units.
+
+Every quantity in a configuration is a string such as ``"1.2e20 m^-3"``,
+``"5 um"``, ``"200 Hz"``, ``"1.5 c_s"`` or ``"50 nK"``.  ``parse_quantity``
+turns it into a plain SI float after checking its dimension against the kind
+of quantity expected; ``parse_vector`` does the same for short lists.
+
+Frequencies.  pint treats ``Hz`` and ``rad/s`` as the same unit (both are
+``1/s``), which silently loses a factor 2 pi.  Here the unit *as written*
+decides:
+
+* ``Hz``, ``kHz``, ``MHz`` ... are ordinary frequencies nu; the angular
+  frequency used everywhere in the library is ``2 pi nu``;
+* ``rad/s``, ``krad/s``, ``turn/s``, ``rpm`` ... are angular already;
+* a bare ``1/s`` (``s^-1``) is ambiguous for a ``"frequency"`` (gap or trap
+  frequency) and rejected; for an ``"angular_frequency"`` it is read as rad/s;
+* an energy (``J``, ``eV``) given for a ``"frequency"`` is ``hbar Omega``.
+
+Speeds may be given in units of the gas's own sound speed, written ``c_s``
+(``"1.5 c_s"``); plain ``c`` keeps pint's meaning, the speed of light.
+"""
+from __future__ import annotations
+
+import math
+import re
+
+import numpy as np
+import pint
+from scipy import constants as sc
+
+from .errors import InputError
+
+#: The one unit registry of the project.
+ureg = pint.UnitRegistry()
+# The sound speed of the gas under study is not a fixed unit: it gets its own
+# base dimension so that it can never be converted silently, and is replaced
+# by the numerical sound speed of the gas in ``parse_quantity``.
+ureg.define("gas_sound_speed = [gas_speed] = c_s")
+
+KINDS = ("length", "speed", "mass", "temperature", "time", "frequency",
+         "angular_frequency", "density", "coupling", "dimensionless")
+
+_EXAMPLES = {
+    "length": "'5 um'",
+    "speed": "'2 mm/s' or '1.5 c_s'",
+    "mass": "'86.909 u' or '1.44e-25 kg'",
+    "temperature": "'50 nK'",
+    "time": "'2 ms'",
+    "frequency": "'200 Hz' or '1257 rad/s'",
+    "angular_frequency": "'1000 rad/s' or '160 Hz'",
+    "density": {1: "'5e7 m^-1'", 2: "'1e14 m^-2'", 3: "'1.2e20 m^-3'"},
+    "coupling": {1: "'1e-37 J m'", 2: "'1e-43 J m^2'", 3: "'1e-50 J m^3'"},
+    "dimensionless": "'1e-8'",
+}
+
+_ALLOWED = {
+    "length": "a length (m, um, nm, a0 ...)",
+    "speed": "a speed (m/s, mm/s, um/ms ...) or a multiple of the sound speed c_s",
+    "mass": "a mass (kg, u ...)",
+    "temperature": "an absolute temperature (K, mK, uK, nK)",
+    "time": "a time (s, ms, us ...)",
+    "frequency": ("an ordinary frequency (Hz, kHz, MHz), an angular frequency "
+                  "(rad/s, krad/s) or an energy hbar*Omega (J, eV)"),
+    "angular_frequency": ("an angular frequency (rad/s, 1/s) or an ordinary "
+                          "frequency (Hz, kHz)"),
+    "dimensionless": "a pure number",
+}
+
+_OFFSET_UNITS = ("degC", "degF", "celsius", "fahrenheit", "degree_Celsius",
+                 "degree_Fahrenheit", "degRe", "reaumur")
+
+# 2 pi as a number: Hz -> rad/s
+_TWO_PI = 2.0 * math.pi
+
+_NUMBER_ONLY = re.compile(
+    r"^\s*[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?\s*$")
+
+
+def _example(kind, dimension=None):
+    ex = _EXAMPLES.get(kind, "")
+    if isinstance(ex, dict):
+        ex = ex.get(dimension, ex[3])
+    return ex
+
+
+def _allowed(kind, dimension=None):
+    if kind == "density":
+        d = dimension or 3
+        return f"a {d}D number density (1/length^{d})"
+    if kind == "coupling":
+        d = dimension or 3
+        return f"an energy times length^{d} (J m^{d}) for a {d}D gas"
+    return _ALLOWED[kind]
+
+
+def _units_text(q):
+    """Units of a parsed quantity as written, for messages."""
+    return format(q.units, "~") or "no units"
+
+
+def _unit_names(q):
+    """Canonical base names (without prefixes) of the units written in ``q``."""
+    names = []
+    for name in q._units:          # UnitsContainer: name -> exponent
+        for _prefix, base, _suffix in ureg.parse_unit_name(name):
+            names.append(base)
+            break
+        else:
+            names.append(name)
+    return names
+
+
+def _parse(value, key, kind, dimension=None):
+    """A pint Quantity from the string ``value``; InputError if impossible."""
+    if isinstance(value, bool):
+        raise InputError(key, f"expected a quantity with units, got {value!r}")
+    if isinstance(value, (int, float, np.integer, np.floating)):
+        if kind == "dimensionless":
+            return ureg.Quantity(float(value))
+        raise InputError(
+            key, f"{value!r} must carry units, e.g. {_example(kind, dimension)} "
+            "(write the value as a string with its unit)")
+    if not isinstance(value, str):
+        raise InputError(
+            key, f"expected a string with units such as "
+            f"{_example(kind, dimension)}, got {value!r}")
+    text = value.strip()
+    if not text:
+        raise InputError(key, f"is empty; give a value such as "
+                              f"{_example(kind, dimension)}")
+    if "," in text:
+        raise InputError(key, f"{value!r} looks like a list; a single value "
+                              f"such as {_example(kind, dimension)} is expected")
+    if any(re.search(rf"\b{u}\b", text) for u in _OFFSET_UNITS):
+        raise InputError(
+            key, f"{value!r}: offset temperature scales (degC, degF) are not "
+            "accepted; give an absolute temperature in K, mK, uK or nK")
+    if kind != "dimensionless" and _NUMBER_ONLY.match(text):
+        raise InputError(key, f"{value!r} must carry units, e.g. "
+                              f"{_example(kind, dimension)}")
+    try:
+        q = ureg.parse_expression(text)
+    except pint.errors.OffsetUnitCalculusError:
+        raise InputError(
+            key, f"{value!r}: offset temperature scales (degC, degF) are not "
+            "accepted; give an absolute temperature in K, mK, uK or nK") from None
+    except pint.errors.DimensionalityError as exc:
+        raise InputError(key, f"{value!r} mixes incompatible units ({exc})") from None
+    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError,
+            SyntaxError, TypeError, ValueError, AttributeError,
+            IndexError, KeyError, ZeroDivisionError) as exc:
+        raise InputError(key, f"cannot read {value!r} as a quantity ({exc}); "
+                              f"write e.g. {_example(kind, dimension)}") from None
+    if not isinstance(q, pint.Quantity):
+        q = ureg.Quantity(float(q))
+    try:
+        mag = float(q.magnitude)
+    except (TypeError, ValueError):
+        raise InputError(key, f"{value!r} is not a single number with units") from None
+    if not math.isfinite(mag):
+        raise InputError(key, f"{value!r} is not finite")
+    return q
+
+
+def _wrong_dimension(key, value, q, kind, dimension=None):
+    return InputError(
+        key, f"{value!r} has units of {_units_text(q)} "
+        f"({q.dimensionality}) but {kind} must be {_allowed(kind, dimension)}, "
+        f"e.g. {_example(kind, dimension)}")
+
+
+def _frequency(q, key, value, kind):
+    """Angular frequency (rad/s) from a quantity of dimension 1/time."""
+    names = _unit_names(q)
+    ordinary = "hertz" in names
+    root = q.to_root_units()
+    angular = "radian" in root._units
+    if ordinary and (angular or "pi" in names):
+        raise InputError(
+            key, f"{value!r} mixes an ordinary frequency (Hz) with an angle or "
+            "2 pi; write either '200 Hz' (read as Omega = 2 pi x 200 s^-1) "
+            "or the angular frequency in rad/s")
+    if ordinary:
+        return _TWO_PI * float(q.to("Hz").magnitude)
+    if angular:
+        return float(q.to("rad/s").magnitude)
+    if kind == "angular_frequency":
+        return float(q.to("1/s").magnitude)
+    raise InputError(
+        key, f"{value!r} is ambiguous: 1/s could be an ordinary or an angular "
+        "frequency; write Hz (ordinary, multiplied by 2 pi) or rad/s (angular)")
+
+
+def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
+    """Return ``value`` (a string with units) as an SI float.
+
+    Parameters
+    ----------
+    value : str (or a number, for ``kind="dimensionless"`` only)
+    key : name of the configuration entry, used in error messages
+    kind : one of ``KINDS``.  ``"frequency"`` and ``"angular_frequency"``
+        return an angular frequency in rad/s (see the module docstring);
+        ``"density"`` returns m^-d and ``"coupling"`` J m^d for
+        ``dimension`` d; ``"temperature"`` returns K.
+    dimension : 1, 2 or 3, required for ``"density"`` and ``"coupling"``
+    sound_speed : m/s; required to read a speed written in ``c_s``
+
+    Raises
+    ------
+    InputError naming ``key``, the value and what is allowed.
+    """
+    if kind not in KINDS:
+        raise ValueError(f"unknown quantity kind {kind!r}; one of {KINDS}")
+    if kind in ("density", "coupling") and dimension not in (1, 2, 3):
+        raise InputError(key, f"the gas dimension must be 1, 2 or 3 to read a "
+                              f"{kind}, got {dimension!r}")
+    q = _parse(value, key, kind, dimension)
+    dim = q.dimensionality
+
+    if kind == "dimensionless":
+        if not q.dimensionless:
+            raise _wrong_dimension(key, value, q, kind)
+        return float(q.to("dimensionless").magnitude)
+
+    if kind == "speed":
+        if dim == ureg.c_s.dimensionality:
+            if sound_speed is None:
+                raise InputError(key, f"{value!r} is given in units of the sound "
+                                      "speed c_s, which is not known here; give m/s")
+            return float(q.to("c_s").magnitude) * float(sound_speed)
+        if not q.check("[length]/[time]"):
+            raise _wrong_dimension(key, value, q, kind)
+        return float(q.to("m/s").magnitude)
+
+    if kind in ("frequency", "angular_frequency"):
+        if q.check("1/[time]"):
+            return _frequency(q, key, value, kind)
+        if kind == "frequency" and q.check("[energy]"):
+            return float(q.to("J").magnitude) / sc.hbar
+        raise _wrong_dimension(key, value, q, kind)
+
+    if kind == "density":
+        if q.check(f"1/[length]**{dimension}"):
+            return float(q.to(f"1/m**{dimension}").magnitude)
+        for k in (1, 2, 3):
+            if k != dimension and q.check(f"1/[length]**{k}"):
+                raise InputError(
+                    key, f"{value!r} is a {k}D density (1/length^{k}) but the "
+                    f"gas is {dimension}D; give 1/length^{dimension}, e.g. "
+                    f"{_example(kind, dimension)}")
+        raise _wrong_dimension(key, value, q, kind, dimension)
+
+    if kind == "coupling":
+        if q.check(f"[energy]*[length]**{dimension}"):
+            return float(q.to(f"J*m**{dimension}").magnitude)
+        for k in (1, 2, 3):
+            if k != dimension and q.check(f"[energy]*[length]**{k}"):
+                raise InputError(
+                    key, f"{value!r} is a {k}D coupling (energy x length^{k}) "
+                    f"but the gas is {dimension}D; give energy x "
+                    f"length^{dimension}, e.g. {_example(kind, dimension)}")
+        raise _wrong_dimension(key, value, q, kind, dimension)
+
+    target = {"length": ("[length]", "m"), "mass": ("[mass]", "kg"),
+              "temperature": ("[temperature]", "K"),
+              "time": ("[time]", "s")}[kind]
+    if not q.check(target[0]):
+        raise _wrong_dimension(key, value, q, kind)
+    return float(q.to(target[1]).magnitude)
+
+
+_VECTOR_STRING = re.compile(r"^\s*[\(\[]([^()\[\]]*)[\)\]]\s*(.*?)\s*$")
+
+
+def parse_vector(value, key, kind, *, dimension=None, sound_speed=None,
+                 sizes=(1, 2, 3)):
+    """Return a short list of quantities as an SI numpy array.
+
+    ``value`` is a list of strings with units (``["1 um", "0 um", "0 um"]``),
+    a string with one unit after a parenthesised tuple (``"(1, 0, 0) um"``),
+    or, for ``kind="dimensionless"`` (directions, normals), a list of plain
+    numbers (``[1, 0, 0]``).  The number of components must be in ``sizes``.
+    """
+    if isinstance(value, str):
+        m = _VECTOR_STRING.match(value)
+        if not m:
+            raise InputError(key, f"cannot read {value!r} as a vector; write "
+                                  "e.g. \"(1, 0, 0) um\" or [\"1 um\", \"0 um\", \"0 um\"]")
+        parts, unit = m.group(1), m.group(2)
+        items = [p.strip() for p in parts.split(",") if p.strip()]
+        if not items:
+            raise InputError(key, f"{value!r} has no components")
+        if unit:
+            components = [f"({p}) {unit}" if kind != "dimensionless" else
+                          f"({p}) * {unit}" for p in items]
+        else:
+            components = items
+    elif isinstance(value, (list, tuple, np.ndarray)):
+        components = list(value)
+    else:
+        raise InputError(key, f"expected a list such as [\"1 um\", \"0 um\", "
+                              f"\"0 um\"] or [1, 0, 0], got {value!r}")
+    if len(components) not in sizes:
+        allowed = " or ".join(str(s) for s in sizes)
+        raise InputError(key, f"must have {allowed} components, got "
+                              f"{len(components)}: {value!r}")
+    out = []
+    for i, comp in enumerate(components):
+        out.append(parse_quantity(comp, f"{key}[{i}]", kind,
+                                  dimension=dimension, sound_speed=sound_speed))
+    return np.array(out, dtype=float)
