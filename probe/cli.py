@@ -1,0 +1,231 @@
+"""Command-line interface: ``probe rates CONFIG [CONFIG ...]``.
+
+Bad input of any kind (unreadable file, TOML syntax, unknown key, wrong
+units, impossible request) ends with one line ``error: <key>: <message>`` on
+stderr and exit status 2.
+"""
+from __future__ import annotations
+
+import json
+import math
+import sys
+
+import click
+import numpy as np
+from scipy import constants as sc
+
+from . import __version__
+from .errors import InputError, ModelError
+
+EXIT_INPUT = 2
+
+
+class ProbeError(click.ClickException):
+    """Bad input, reported as ``error: <key>: <message>`` with status 2."""
+
+    exit_code = EXIT_INPUT
+
+    def show(self, file=None):
+        click.echo(f"error: {self.message}", err=True, file=file)
+
+
+def _input_errors():
+    from trajectories import TrajectoryError
+    return (InputError, ModelError, TrajectoryError)
+
+
+def _fail(exc):
+    key = getattr(exc, "key", None)
+    message = getattr(exc, "message", None) or str(exc)
+    if key and not message.startswith(f"{key}:"):
+        message = f"{key}: {message}"
+    raise ProbeError(message) from None
+
+
+# ---------------------------------------------------------------------------
+# Formatting
+# ---------------------------------------------------------------------------
+def _num(x, digits=6):
+    """A number with ``digits`` significant digits; arrays element-wise."""
+    if x is None:
+        return "-"
+    a = np.asarray(x)
+    if a.ndim:
+        return "[" + ", ".join(_num(v, digits) for v in a.ravel()) + "]"
+    x = float(a)
+    if math.isnan(x):
+        return "nan"
+    if math.isinf(x):
+        return "inf" if x > 0 else "-inf"
+    return f"{x:.{digits}g}"
+
+
+def _q(x, unit, scale=1.0):
+    """``x / scale`` followed by its display unit."""
+    if x is None:
+        return "-"
+    a = np.asarray(x, dtype=float)
+    return f"{_num(a / scale)} {unit}".rstrip()
+
+
+def _rate(rate, err):
+    if rate is None:
+        return "-"
+    text = _q(rate, "s^-1")
+    if err is not None:
+        text += f"  (+/- {_num(err, 2)} s^-1)"
+    return text
+
+
+def _rows_inputs(sc_, info):
+    cond = sc_.condensate
+    gas, prb, trj = info["condensate"], info["probe"], info["trajectory"]
+    d = cond.dimension
+    c = cond.sound_speed
+    rows = [("species", gas["species"] or "(mass given)"),
+            ("dimension", f"{d}D"),
+            ("boson mass", f"{_q(cond.mass, 'kg')}  ({_num(cond.mass / sc.atomic_mass)} u)"),
+            ("density", _q(cond.density, f"m^-{d}")),
+            ("scattering length", _q(cond.scattering_length, "nm", 1e-9))]
+    if cond.transverse_frequency is not None:
+        rows.append(("transverse frequency",
+                     f"{_q(cond.transverse_frequency / (2 * math.pi), 'Hz')}  "
+                     f"(w_perp = {_q(cond.transverse_frequency, 'rad/s')})"))
+    rows += [("temperature", _q(cond.temperature, "nK", 1e-9)),
+             ("dispersion", gas["dispersion"]),
+             ("probe model", prb["model"])]
+    if prb["gap"] is not None:
+        rows.append(("gap Omega/(2 pi)", f"{_q(prb['gap'] / (2 * math.pi), 'Hz')}  "
+                                         f"(Omega = {_q(prb['gap'], 'rad/s')})"))
+    rows.append(("coupling kappa", _q(prb["coupling"], "J m" if d == 1 else f"J m^{d}")))
+    if prb["mass"] is not None:
+        label = prb["species"] or f"{_num(prb['mass'] / sc.atomic_mass)} u"
+        rows.append(("probe mass", f"{_q(prb['mass'], 'kg')}  ({label})"))
+    rows.append(("probe width", _q(prb["width"], "um", 1e-6)))
+    rows.append(("trajectory", trj["kind"]))
+    rows.append(("speed", f"{_q(trj['speed'], 'm/s')}  ({_num(trj['speed'] / c)} c_s)"))
+    if "radius" in trj:
+        rows.append(("radius", f"{_q(trj['radius'], 'um', 1e-6)}  "
+                               f"({_num(trj['radius'] / cond.healing_length)} xi)"))
+        rows.append(("angular frequency", _q(trj["angular_frequency"], "rad/s")))
+    return rows
+
+
+def _rows_derived(sc_, info):
+    cond = sc_.condensate
+    der = info["derived"]
+    mu = der["chemical_potential"]
+    rows = [("chemical potential", f"{_q(mu, 'J')}  (mu/h = {_num(mu / sc.h)} Hz, "
+                                   f"mu/k_B = {_num(mu / sc.k * 1e9)} nK)"),
+            ("sound speed c_s", _q(der["sound_speed"], "m/s")),
+            ("healing length", f"{_q(der['healing_length'], 'um', 1e-6)}  "
+                               "(xi = hbar/(m c))"),
+            (f"gas parameter {der['gas_parameter_name']}", _num(der["gas_parameter"]))]
+    if der["critical_temperature"] is not None:
+        rows.append(("ideal-gas T_c", _q(der["critical_temperature"], "nK", 1e-9)))
+    if der["transverse_length"] is not None:
+        rows.append(("transverse length", _q(der["transverse_length"], "um", 1e-6)))
+    return rows
+
+
+def _rows_results(sc_, result):
+    c = result.sound_speed
+    rows = []
+    if result.model == "density":
+        rows += [("emission rate", _rate(result.emission_rate, result.emission_rate_error)),
+                 ("absorption rate", _rate(result.absorption_rate, None)),
+                 ("drag force", _q(result.drag_force, "N")),
+                 ("power to the gas", _q(result.power, "W"))]
+    else:
+        rows += [("up rate", _rate(result.up_rate, result.up_rate_error)),
+                 ("down rate", _rate(result.down_rate, result.down_rate_error))]
+        if result.up_threshold_speed is not None:
+            vt = result.up_threshold_speed
+            rows.append(("up threshold speed",
+                         f"{_q(vt, 'm/s')}  ({_num(np.asarray(vt) / c)} c_s)"))
+        rows += [("effective temperature", _q(result.effective_temperature, "nK", 1e-9)),
+                 ("excited population", _num(result.excited_population))]
+    if result.harmonics is not None:
+        rows.append(("harmonics summed", str(result.harmonics)))
+    return rows
+
+
+def format_table(scenario, result):
+    """The readable report for one scenario and its result."""
+    info = scenario.describe()
+    blocks = [("Inputs", _rows_inputs(scenario, info)),
+              ("Derived", _rows_derived(scenario, info)),
+              ("Results", _rows_results(scenario, result))]
+    width = max(len(label) for _, rows in blocks for label, _ in rows)
+    lines = []
+    if scenario.source:
+        lines.append(f"== {scenario.source} ==")
+    for title, rows in blocks:
+        lines.append(title)
+        for label, value in rows:
+            lines.append(f"  {label:<{width}}  {value}")
+    lines.append("Warnings")
+    if result.warnings:
+        lines += [f"  - {w}" for w in result.warnings]
+    else:
+        lines.append("  (none)")
+    return "\n".join(lines)
+
+
+def result_json(scenario, result):
+    """The JSON-ready dict for one scenario: every RateResult field (SI),
+    the config path, and the validated inputs and derived quantities."""
+    out = {"config": scenario.source}
+    out.update(result.to_dict())
+    info = scenario.describe()
+    out["gas_parameter"] = info["derived"]["gas_parameter"]
+    out["gas_parameter_name"] = info["derived"]["gas_parameter_name"]
+    out["healing_length_convention"] = "xi = hbar/(m c)"
+    out["inputs"] = {k: info[k] for k in ("condensate", "probe", "trajectory", "numerics")}
+    return out
+
+
+# ---------------------------------------------------------------------------
+# Commands
+# ---------------------------------------------------------------------------
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, "--version", prog_name="probe")
+def cli():
+    """Golden-rule transition rates of a probe moving through a
+    Bose-Einstein condensate."""
+
+
+@cli.command()
+@click.argument("configs", nargs=-1, required=True, metavar="CONFIG [CONFIG ...]")
+@click.option("--json", "as_json", is_flag=True,
+              help="Print JSON (an object for one config, an array for several).")
+@click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE",
+              help="Override a configuration entry, e.g. --set 'trajectory.speed=2 c_s'. "
+                   "Repeatable; applied to every CONFIG.")
+def rates(configs, as_json, overrides):
+    """Stationary up/down (or emission) rates for each scenario file CONFIG."""
+    from .config import load_config
+
+    errors = _input_errors()
+    done = []
+    try:
+        scenarios = [load_config(path, overrides) for path in configs]
+        for scenario in scenarios:
+            done.append((scenario, scenario.rates()))
+    except errors as exc:
+        _fail(exc)
+    if as_json:
+        objs = [result_json(s, r) for s, r in done]
+        payload = objs[0] if len(objs) == 1 else objs
+        click.echo(json.dumps(payload, indent=2, allow_nan=False))
+    else:
+        click.echo("\n\n".join(format_table(s, r) for s, r in done))
+
+
+def main(argv=None):
+    """Console entry point of ``probe``."""
+    return cli.main(args=argv, prog_name="probe")
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
