@@ -148,8 +148,10 @@ def _parse(value, key, kind, dimension=None):
         raise InputError(key, f"{value!r} mixes incompatible units ({exc})") from None
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError,
             SyntaxError, TypeError, ValueError, AttributeError,
-            IndexError, KeyError, ZeroDivisionError) as exc:
-        raise InputError(key, f"cannot read {value!r} as a quantity ({exc}); "
+            IndexError, KeyError, ZeroDivisionError,
+            AssertionError) as exc:  # pint asserts on some truncated input
+        why = f" ({exc})" if str(exc) else ""
+        raise InputError(key, f"cannot read {value!r} as a quantity{why}; "
                               f"write e.g. {_example(kind, dimension)}") from None
     if not isinstance(q, pint.Quantity):
         q = ureg.Quantity(float(q))
