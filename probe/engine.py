@@ -198,7 +198,8 @@ def _static_values(gas, W, s, tag):
     disp, d = gas.disp, gas.d
     q = disp.inverse(W)
     vg = disp.group_velocity(np.where(q > 0, q, 1.0))
-    base = disp.structure_factor(q) * gas.form(q, s) * _weights(gas, q, tag)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        base = disp.structure_factor(q) * gas.form(q, s) * _weights(gas, q, tag)
     geo = {3: q * q / math.pi, 2: q, 1: 2.0 * np.ones_like(q)}[d]
     return np.where(W > 0, base * geo / vg, 0.0)
 
