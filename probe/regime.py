@@ -59,7 +59,7 @@ def _max(x):
 
 
 def _g(x):
-    return f"{x:.3g}"
+    return f"{x:.4g}"
 
 
 def regime_warnings(condensate, probe, result):

@@ -1,0 +1,169 @@
+import math
+
+import numpy as np
+import pytest
+from scipy import constants as sc
+from scipy.special import zeta
+
+from probe.condensate import Condensate
+from probe.probes import DensityProbe, TwoLevelProbe
+from probe.regime import regime_warnings
+from probe.results import RateResult
+
+U = sc.atomic_mass
+M_RB = 86.909180531 * U      # 87Rb (AME2016, from memory)
+M_NA = 22.9897692820 * U     # 23Na (AME2016, from memory)
+TWO_PI = 2 * math.pi
+
+
+def rb3d(**kw):
+    args = dict(dimension=3, mass=M_RB, density=1.2e20, scattering_length=5.3e-9)
+    args.update(kw)
+    return Condensate(**args)
+
+
+def result_for(cond, probe, speed=0.0, up=1e-3, down=1e-2):
+    res = RateResult(kind="inertial", model=probe.name, sound_speed=cond.sound_speed,
+                     healing_length=cond.healing_length,
+                     chemical_potential=cond.chemical_potential, speed=speed)
+    if probe.has_gap:
+        res.gap = probe.gap
+        res.up_rate, res.down_rate = up, down
+    else:
+        res.emission_rate, res.absorption_rate = up, down
+    return res
+
+
+def two_level(gap_hz=200.0, width=0.0):
+    return TwoLevelProbe(TWO_PI * gap_hz, 1e-51, width)
+
+
+def warnings_for(cond, probe, **kw):
+    return regime_warnings(cond, probe, result_for(cond, probe, **kw))
+
+
+def matching(ws, text):
+    return [w for w in ws if text in w]
+
+
+def test_benign_case_has_no_warnings():
+    cond = rb3d()
+    assert warnings_for(cond, two_level(), speed=0.5 * cond.sound_speed) == []
+
+
+def test_rate_not_small_against_gap():
+    # first-order perturbation theory needs Gamma << Omega (golden rule
+    # validity; e.g. Cohen-Tannoudji, Quantum Mechanics, ch. XIII)
+    cond, p = rb3d(), two_level()
+    omega = TWO_PI * 200
+    ws = warnings_for(cond, p, up=0.2 * omega, down=0.05 * omega)
+    hit = matching(ws, "first-order")
+    assert len(hit) == 1 and "up rate" in hit[0] and "0.2 of the gap" in hit[0]
+    assert matching(warnings_for(cond, p, up=0.05 * omega, down=0.09 * omega),
+                    "first-order") == []
+    # arrays of rates and gaps (a parameter scan) are handled element-wise
+    res = result_for(cond, p, up=np.array([1.0, 2.0]), down=np.array([1.0, 300.0]))
+    res.gap = np.array([omega, 2 * omega])
+    hit = matching(regime_warnings(cond, p, res), "first-order")
+    assert len(hit) == 1 and "down rate 300" in hit[0]
+
+
+def test_density_model_has_no_gap_check():
+    cond = rb3d()
+    assert warnings_for(cond, DensityProbe(1e-51), up=1e9, down=1e9) == []
+
+
+def test_3d_gas_parameter():
+    # diluteness n a^3 << 1 (Bogoliubov expansion parameter; common-practice
+    # limit 1e-3)
+    ws = warnings_for(rb3d(density=1e20, scattering_length=1e-7), two_level())
+    hit = matching(ws, "n a^3")
+    assert len(hit) == 1 and "0.1 exceeds 0.001" in hit[0]
+    assert matching(warnings_for(rb3d(density=1e20, scattering_length=1e-8),
+                                 two_level()), "n a^3") == []
+
+
+def test_1d_lieb_liniger_gamma():
+    # gamma = m g_1 / (hbar^2 n) with g_1 = 2 hbar w_perp a (Olshanii 1998;
+    # Lieb and Liniger 1963); Bogoliubov needs gamma << 1
+    wperp = TWO_PI * 2e3
+    gamma = lambda n: 2 * M_RB * wperp * 5.3e-9 / (sc.hbar * n)
+    lo_n, hi_n = 1e6, 1e8
+    assert gamma(lo_n) > 0.1 > gamma(hi_n)
+    for n, expect in ((lo_n, 1), (hi_n, 0)):
+        cond = Condensate(1, M_RB, n, 5.3e-9, transverse_frequency=wperp)
+        assert len(matching(warnings_for(cond, two_level(1.0)), "Lieb-Liniger")) == expect
+
+
+def test_2d_quasi_reduction_needs_mu_below_transverse_level():
+    # quasi-2D needs mu < hbar w_perp (Petrov, Holzmann, Shlyapnikov 2000)
+    wperp = TWO_PI * 1e3
+    hot = Condensate(2, M_NA, 2e14, 2.75e-9, transverse_frequency=wperp)
+    cold = Condensate(2, M_NA, 5e13, 2.75e-9, transverse_frequency=wperp)
+    assert hot.chemical_potential > sc.hbar * wperp > cold.chemical_potential
+    hit = matching(warnings_for(hot, two_level(50.0)), "quasi-2D reduction fails")
+    assert len(hit) == 1 and "1000 Hz" in hit[0]
+    assert matching(warnings_for(cold, two_level(50.0)), "quasi-2D") == []
+
+
+def test_2d_gas_parameter():
+    # g_2 m / hbar^2 = sqrt(8 pi) a / l_z (Petrov et al. 2000); large a, tight trap
+    cond = Condensate(2, M_NA, 1e12, 5e-8, transverse_frequency=TWO_PI * 5e4)
+    assert cond.gas_parameter > 0.1
+    assert len(matching(warnings_for(cond, two_level(1.0)), "g_2 m / hbar^2")) == 1
+
+
+def test_3d_temperature_against_ideal_gas_tc():
+    # ideal-gas T_c = (2 pi hbar^2 / (m k_B)) (n / zeta(3/2))^(2/3)
+    # (Pitaevskii and Stringari, ch. 3)
+    n = 1.2e20
+    tc = 2 * math.pi * sc.hbar**2 / (M_RB * sc.k) * (n / zeta(1.5)) ** (2 / 3)
+    hot = warnings_for(rb3d(temperature=0.6 * tc), two_level())
+    cool = warnings_for(rb3d(temperature=0.4 * tc), two_level())
+    assert len(matching(hot, "T_c")) == 1 and "0.6 of the ideal-gas" in hot[0]
+    assert matching(cool, "T_c") == []
+
+
+def test_low_dimensional_temperature_against_mu():
+    # common-practice criterion k_B T < mu for a quasi-condensate
+    cond = Condensate(1, M_RB, 5e7, 5.3e-9, transverse_frequency=TWO_PI * 2e3)
+    t_mu = cond.chemical_potential / sc.k
+    for factor, expect in ((1.2, 1), (0.8, 0)):
+        c = Condensate(1, M_RB, 5e7, 5.3e-9, transverse_frequency=TWO_PI * 2e3,
+                       temperature=factor * t_mu)
+        assert len(matching(warnings_for(c, two_level(10.0)), "thermal fluctuations")) == expect
+
+
+def test_phonon_dispersion_where_curvature_matters():
+    # Bogoliubov w = c k sqrt(1 + (k xi)^2 / 4) vs phonon w = c k
+    # (Pitaevskii and Stringari, ch. 6): relevant k xi > 0.3 should warn
+    phon = rb3d(dispersion="phonon")
+    bog = rb3d()
+    w0 = phon.sound_speed / phon.healing_length          # c/xi
+    small = TwoLevelProbe(0.2 * w0, 1e-51)
+    large = TwoLevelProbe(0.5 * w0, 1e-51)
+    c = phon.sound_speed
+    assert matching(warnings_for(phon, small), "phonon dispersion") == []
+    assert len(matching(warnings_for(phon, large), "phonon dispersion")) == 1
+    assert matching(warnings_for(bog, large), "phonon dispersion") == []
+    # Doppler: resonance at k = Omega / (c - v); 0.2 / (1 - 0.5) = 0.4 > 0.3
+    assert len(matching(warnings_for(phon, small, speed=0.5 * c), "phonon")) == 1
+    # supersonic point probe: Cherenkov emission at every wavenumber
+    dens = DensityProbe(1e-51)
+    assert len(matching(warnings_for(phon, dens, speed=1.5 * c), "supersonic")) == 1
+    assert matching(warnings_for(phon, dens, speed=0.5 * c), "phonon") == []
+
+
+def test_wide_probe_is_informational():
+    cond = rb3d()
+    xi = cond.healing_length
+    assert len(matching(warnings_for(cond, two_level(width=12 * xi)), "point-like")) == 1
+    assert matching(warnings_for(cond, two_level(width=8 * xi)), "point-like") == []
+
+
+def test_very_fast_probe():
+    cond = rb3d()
+    c = cond.sound_speed
+    hit = matching(warnings_for(cond, two_level(), speed=12 * c), "sound speed")
+    assert len(hit) == 1 and "12 times" in hit[0]
+    assert matching(warnings_for(cond, two_level(), speed=8 * c), "sound speed") == []
