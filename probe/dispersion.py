@@ -46,7 +46,8 @@ def _bracketed_newton(f, fprime, lo, hi, iters=100):
             xn = xi - fx / dfx
         bad = ~np.isfinite(xn) | (xn <= lo[idx]) | (xn >= hi[idx])
         xn = np.where(bad, 0.5 * (lo[idx] + hi[idx]), xn)
-        done = (np.abs(xn - xi) <= 4 * _EPS * np.abs(xn)) | (fx == 0) | (
+        # a Newton step this small leaves an error of its square: converged
+        done = (~bad & (np.abs(xn - xi) <= 1e-12 * np.abs(xn))) | (fx == 0) | (
             hi[idx] - lo[idx] <= 4 * _EPS * np.abs(hi[idx]))
         x[idx] = np.where(fx == 0, xi, xn)
         active[idx[done]] = False

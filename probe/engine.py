@@ -28,7 +28,7 @@ import math
 
 import numpy as np
 from scipy import constants as sc
-from scipy.special import jv
+from .bessel import jv_int as jv
 
 from .errors import InputError, ModelError
 from .quadrature import integrate
