@@ -39,6 +39,8 @@ KB = sc.k
 
 #: |F|^2 = exp(-q^2 s^2) is below exp(-_CUT) beyond q = sqrt(_CUT)/s
 _CUT = 80.0
+#: relative floor of every error estimate: rounding in roots, nodes and sums
+_ROUNDING = 1e-13
 
 
 # ---------------------------------------------------------------------------
@@ -246,17 +248,22 @@ def inertial_kernel(gas, v, W, s, rtol=1e-8, energy=False):
     t2, f2 = pick(I2, "thermal")
     sp = static["plain"]
     stt = static.get("thermal", zero)
+    # floor of the error estimate: rounding in the window edges and sums
+    fl = _ROUNDING
     if np.all(W > 0):
         down = np.where(st, sp + stt, p1 + t1 + t2)
         up = np.where(st, stt, p2 + t2 + t1)
-        res["down"] = (down, np.where(st, 1e-15 * down, e1 + f1 + f2))
-        res["up"] = (up, np.where(st, 1e-15 * up, e2 + f2 + f1))
+        res["down"] = (down, np.where(st, 0.0, e1 + f1 + f2) + fl * down)
+        res["up"] = (up, np.where(st, 0.0, e2 + f2 + f1) + fl * up)
     else:
         # density probe: W = 0, both windows coincide with [0, q_b]
-        res["emission"] = (np.where(st, 0.0, p1 + t1), e1 + f1)
-        res["absorption"] = (np.where(st, 0.0, t1), f1)
+        em = np.where(st, 0.0, p1 + t1)
+        ab = np.where(st, 0.0, t1)
+        res["emission"] = (em, e1 + f1 + fl * em)
+        res["absorption"] = (ab, f1 + fl * ab)
         en = pick(I1, "energy")
-        res["energy"] = (np.where(st, 0.0, en[0]), en[1])
+        ev = np.where(st, 0.0, en[0])
+        res["energy"] = (ev, en[1] + fl * ev)
     res["edges"] = (qa, qb, qc, qd)
     return res
 
@@ -439,7 +446,7 @@ def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_00
         return tot, bnd, cnt
 
     res = {}
-    bessel = 1e-13   # relative accuracy of the Bessel functions and sums
+    bessel = 1e-10   # relative accuracy of the Bessel functions (see bessel.py)
     if W > 0:
         t1, e1, n1 = family(+1)
         t2, e2, n2 = family(-1)
@@ -450,9 +457,10 @@ def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_00
         res["harmonics"] = n1 + n2
     else:
         t1, e1, n1 = family(+1)
-        res["emission"] = (t1["plain"] + t1["thermal"], e1["plain"] + e1["thermal"])
-        res["absorption"] = (t1["thermal"], e1["thermal"])
-        res["energy"] = (t1["energy"], e1["energy"])
+        em = t1["plain"] + t1["thermal"]
+        res["emission"] = (em, e1["plain"] + e1["thermal"] + bessel * em)
+        res["absorption"] = (t1["thermal"], e1["thermal"] + bessel * t1["thermal"])
+        res["energy"] = (t1["energy"], e1["energy"] + bessel * t1["energy"])
         res["harmonics"] = n1
     return res
 
