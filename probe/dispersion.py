@@ -54,6 +54,30 @@ def _bracketed_newton(f, fprime, lo, hi, iters=100):
     return x
 
 
+def _monotone_newton(f, fprime, x0, iters=100):
+    """Newton's iteration for a convex (or concave) monotone function started
+    on the side of the root where the tangent never overshoots: the iterates
+    approach the root monotonically and then quadratically.  Vectorised;
+    each entry stops once its step is below 1e-12 relative (the next error is
+    the square of that)."""
+    x = np.array(x0, dtype=float)
+    active = np.ones(x.shape, dtype=bool)
+    idx = np.arange(x.size)
+    for _ in range(iters):
+        if idx.size == 0:
+            break
+        xi = x[idx]
+        fx = f(xi, idx)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            step = fx / fprime(xi, idx)
+        step = np.where(np.isfinite(step), step, 0.0)
+        xn = xi - step
+        x[idx] = xn
+        done = np.abs(step) <= 1e-12 * np.abs(xn)
+        idx = idx[~done]
+    return x
+
+
 class Dispersion:
     """Base class: crossings and thresholds from the closed forms below."""
 
@@ -91,6 +115,11 @@ class Dispersion:
         """q where the group velocity equals v (v >= 1); inf if never."""
         raise NotImplementedError
 
+    def qs_integral(self, a, b):
+        """int_a^b q S(q) dq in closed form, or None if the spectrum has none
+        (the engine then integrates numerically)."""
+        return None
+
     # --- common work ----------------------------------------------------
     def omega_divided(self, q, r):
         """omega[q, r] = (omega(q) - omega(r))/(q - r), free of cancellation."""
@@ -109,13 +138,12 @@ class Dispersion:
         (0 where W = 0)."""
         v, W = np.broadcast_arrays(np.asarray(v, float), np.asarray(W, float))
         v, W = v.ravel(), W.ravel()
-        hi = self.inverse(W)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            hi = np.where(v > 0, np.minimum(hi, W / np.where(v > 0, v, 1)), hi)
-        lo = np.zeros_like(hi)
-        root = _bracketed_newton(
+        # omega(q) + v q is convex and increasing, and omega >= q: start at the
+        # phonon estimate W/(1 + v), to the right of the root
+        root = _monotone_newton(
             lambda x, i: self.omega(x) + v[i] * x - W[i],
-            lambda x, i: self.group_velocity(x) + v[i], lo, hi)
+            lambda x, i: self.group_velocity(x) + v[i],
+            np.minimum(W / (1 + v), self.inverse(W)))
         return np.where(W == 0, 0.0, root)
 
     def root_plus(self, v, W):
@@ -133,9 +161,10 @@ class Dispersion:
             hi = self.upper_bound(v[pos], W[pos])
             ok = np.isfinite(hi)
             vv, WW = v[pos][ok], W[pos][ok]
-            r = _bracketed_newton(
+            # convex, increasing through the root: from the upper bound down
+            r = _monotone_newton(
                 lambda x, i: self.omega(x) - vv[i] * x - WW[i],
-                lambda x, i: self.group_velocity(x) - vv[i], lo[ok], hi[ok])
+                lambda x, i: self.group_velocity(x) - vv[i], hi[ok])
             tmp = np.full(lo.shape, np.inf)
             tmp[ok] = r
             out[pos] = tmp
@@ -183,17 +212,20 @@ class Dispersion:
         # lower root on [0, q*]: g decreasing there, so solve -g = 0 increasing
         lo_c = np.zeros(iv.size)
         hi_c = np.where(fin, qs, np.inf)
-        rc = _bracketed_newton(
-            lambda x, i: -(self.omega(x) - vv[i] * x + WW[i]),
-            lambda x, i: -(self.group_velocity(x) - vv[i]), lo_c, hi_c)
+        # convex g = omega - v q + W: the lower root from q = 0 rightwards,
+        # the upper one from the upper bound leftwards (no overshoot)
+        rc = _monotone_newton(
+            lambda x, i: self.omega(x) - vv[i] * x + WW[i],
+            lambda x, i: self.group_velocity(x) - vv[i], lo_c)
+        rc = np.minimum(rc, hi_c)
         rd = np.full(iv.size, np.inf)
         if np.any(fin):
             j = np.nonzero(fin)[0]
             hi_d = self.upper_bound(vv[j], np.zeros(j.size))
             v2, W2 = vv[j], WW[j]
-            rd[j] = _bracketed_newton(
+            rd[j] = _monotone_newton(
                 lambda x, i: self.omega(x) - v2[i] * x + W2[i],
-                lambda x, i: self.group_velocity(x) - v2[i], qs[j], hi_d)
+                lambda x, i: self.group_velocity(x) - v2[i], hi_d)
         qc[iv] = rc
         qd[iv] = rd
         return qc, qd
@@ -203,15 +235,17 @@ class Dispersion:
         which it is reached (W > 0 arrays)."""
         W = np.asarray(W, float).ravel()
         # h(q) = q v_g - omega - W, increasing, h(0) = -W
-        hi = np.maximum(np.cbrt(8 * W), 1e-300)
+        hi = np.maximum(np.minimum(np.cbrt(8 * W), np.sqrt(4 * W)), 1e-300)
         for _ in range(200):
             bad = hi * self.group_velocity(hi) - self.omega(hi) - W < 0
             if not np.any(bad):
                 break
             hi = np.where(bad, 2 * hi, hi)
-        q = _bracketed_newton(
+        # h is convex (h' = q omega'' grows) for the spectra here: Newton
+        # from the right converges monotonically
+        q = _monotone_newton(
             lambda x, i: x * self.group_velocity(x) - self.omega(x) - W[i],
-            lambda x, i: x * self.curvature(x), np.zeros_like(hi), hi)
+            lambda x, i: x * self.curvature(x), hi)
         return self.group_velocity(q), q
 
     def curvature(self, q):
@@ -268,6 +302,28 @@ class Bogoliubov(Dispersion):
         v = np.asarray(v, float)
         W = np.asarray(W, float)
         return v + np.sqrt(v * v + 2 * W) + 1e-12
+
+    def qs_integral(self, a, b):
+        """int_a^b q^2/sqrt(q^2 + 4) dq.  With q = 2 sinh(u) it is
+        [sinh(2u) - 2u], written as 2[(cosh(s) - 1) sinh(d) + (sinh(d) - d)]
+        with s = u_a + u_b, d = u_b - u_a, free of cancellation for close
+        edges and small q."""
+        a = np.asarray(a, float)
+        b = np.asarray(b, float)
+        x, y = 0.5 * b, 0.5 * a
+        # asinh(x) - asinh(y) = asinh((x^2 - y^2)/(x sqrt(1+y^2) + y sqrt(1+x^2)))
+        with np.errstate(invalid="ignore", divide="ignore"):
+            den = x * np.sqrt(1 + y * y) + y * np.sqrt(1 + x * x)
+            d = np.arcsinh(np.where(den > 0, (x - y) * (x + y) / np.where(den > 0, den, 1), 0.0))
+        sg = np.arcsinh(x) + np.arcsinh(y)
+        cosh_m1 = 2 * np.sinh(0.5 * sg) ** 2
+        small = np.abs(d) < 0.5
+        d2 = d * d
+        # sinh(d) - d = sum_{k>=1} d^(2k+1)/(2k+1)!, to d^15 below 0.5
+        series = d * d2 / 6 * (1 + d2 / 20 * (1 + d2 / 42 * (1 + d2 / 72 * (
+            1 + d2 / 110 * (1 + d2 / 156 * (1 + d2 / 210))))))
+        shd_m_d = np.where(small, series, np.sinh(d) - d)
+        return 2 * (cosh_m1 * np.sinh(d) + shd_m_d)
 
     def inverse_group_velocity(self, v):
         v = np.asarray(v, float)
@@ -330,6 +386,12 @@ class Phonon(Dispersion):
     def phase_velocity_crossing(self, v):
         v = np.asarray(v, float)
         return np.where(v > 1, np.inf, np.nan)
+
+    def qs_integral(self, a, b):
+        """int_a^b q^2/2 dq = (b - a)(a^2 + a b + b^2)/6."""
+        a = np.asarray(a, float)
+        b = np.asarray(b, float)
+        return (b - a) * (a * a + a * b + b * b) / 6
 
     def inverse_group_velocity(self, v):
         return np.full(np.shape(v), np.inf)

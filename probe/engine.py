@@ -30,6 +30,7 @@ import numpy as np
 from scipy import constants as sc
 from .bessel import jv_int as jv
 
+from .dispersion import Bogoliubov, Phonon
 from .errors import InputError, ModelError
 from .quadrature import integrate
 from .results import RateResult
@@ -130,6 +131,24 @@ def _window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
     bcut = b[idx] > bq * (1 + 1e-15)  # window cut by the form factor
 
     if d == 3:
+        closed = None
+        if np.all(ss == 0) and not np.any(unbounded):
+            closed = disp.qs_integral(aa, bq)
+        if closed is not None:
+            # point probe: int q S dq (and int q S w dq = int q^3/2 dq, since
+            # S w = q^2/2 for both spectra) in closed form
+            for t in tags:
+                if t == "plain":
+                    val = closed / (2 * math.pi * vv)
+                elif t == "energy" and isinstance(disp, (Bogoliubov, Phonon)):
+                    val = (bq - aa) * (bq + aa) * (bq * bq + aa * aa) / (16 * math.pi * vv)
+                else:
+                    continue
+                out[t][0][idx] = val
+                out[t][1][idx] = 0.0
+            tags = [t for t in tags if t == "thermal" or (
+                t == "energy" and not isinstance(disp, (Bogoliubov, Phonon)))]
+
         def make(t):
             def f(x, i):
                 return (x * disp.structure_factor(x) * gas.form(x, ss[i, None])
