@@ -565,7 +565,7 @@ def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
         res.power = _shape(power, shape)
         res.drag_force = _shape(drag, shape)
         res.speed = _shape(vv.ravel() * c, shape)
-    return res
+    return _with_regime(condensate, probe, res)
 
 
 def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8):
@@ -626,7 +626,7 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8):
         res.power = _shape(power, shape)
         with np.errstate(divide="ignore", invalid="ignore"):
             res.drag_force = _shape(np.where(vf > 0, power / (vf * c), 0.0), shape)
-    return res
+    return _with_regime(condensate, probe, res)
 
 
 def stationary_rates(condensate, probe, trajectory, rtol=1e-8):
@@ -645,4 +645,13 @@ def stationary_rates(condensate, probe, trajectory, rtol=1e-8):
         res = circular_rates(condensate, probe, p["radius"], p["speed"], rtol=rtol)
     else:
         raise InputError("trajectory.kind", f"no stationary engine for {kind!r}")
+    return res
+
+
+def _with_regime(condensate, probe, res):
+    """Attach the regime-of-validity warnings to a result (no duplicates)."""
+    from .regime import regime_warnings
+    for w in regime_warnings(condensate, probe, res):
+        if w not in res.warnings:
+            res.warnings.append(w)
     return res
