@@ -1,0 +1,435 @@
+"""Side-by-side comparison of detector-response models on one grid.
+
+``compare(config, vary)`` evaluates the sweep grid for the configured model
+and for variants that change one modelling choice each:
+
+* ``probe``: two-level probe versus the structureless density probe (a
+  density configuration needs ``gap`` for its two-level variant);
+* ``dispersion``: Bogoliubov versus linear phonon dispersion;
+* ``width``: point probe versus finite width (a point-probe configuration
+  needs ``width`` for its finite-width variant);
+* ``temperature``: T = 0 versus the configured temperature (a T = 0
+  configuration needs ``temperature``).
+
+Points where a model has no finite answer (the engine's ``ModelError``, e.g.
+the supersonic point probe with the phonon dispersion, whose emitted
+wavenumbers are unbounded) are kept as NaN with status ``diverges``.  The
+``statements`` list says, in words, where each variant differs from the
+configured model.
+
+Python use::
+
+    from probe.compare import compare
+    cmp = compare("examples/box3d_supersonic.toml",
+                  vary=[("trajectory.speed", "0.5 c_s", "3 c_s", 51)])
+    cmp.columns, cmp.units, cmp.data      # the side-by-side table (SI)
+    print("\\n".join(cmp.statements))
+"""
+from __future__ import annotations
+
+import copy
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .errors import InputError
+from .sweep import _fmt, _raw_config, axis_value_text, plan_sweep, sweep, write_csv
+
+COMPARISONS = ("probe", "dispersion", "width", "temperature")
+#: relative difference above which two models are said to differ
+TOLERANCE = 0.1
+
+
+@dataclass
+class Variant:
+    """One model: ``name`` (used in column names), ``label`` (in plots and
+    text), the comparison it belongs to ('' for the configured model), its
+    configuration dict and its :class:`probe.sweep.SweepResult`."""
+
+    name: str
+    label: str
+    comparison: str
+    raw: dict
+    result: object = None
+    plan: object = None
+
+    @property
+    def quantities(self):
+        cols = self.result.columns
+        if "up_rate" in cols:
+            return ["up_rate", "down_rate"]
+        return ["emission_rate"]
+
+    @property
+    def main(self):
+        return self.quantities[0]
+
+    def status(self):
+        """'ok', 'diverges' or 'no result' per point."""
+        out = []
+        for w in self.result.warnings:
+            if w.startswith("no result"):
+                out.append("diverges" if "diverges" in w.split(" | ")[0] else "no result")
+            else:
+                out.append("ok")
+        return out
+
+    def reason(self):
+        """The engine's message at the first point without a result."""
+        for w in self.result.warnings:
+            if w.startswith("no result"):
+                return w.split(" | ")[0][len("no result: "):]
+        return None
+
+
+@dataclass
+class Comparison:
+    """The models evaluated on one grid, the side-by-side table and the
+    stated differences."""
+
+    variants: list
+    axes: list
+    shape: tuple
+    tolerance: float
+    notes: list = field(default_factory=list)
+    statements: list = field(default_factory=list)
+
+    @property
+    def base(self):
+        return self.variants[0]
+
+    @property
+    def columns(self):
+        return [c for c, _ in self._spec()]
+
+    @property
+    def units(self):
+        return [u for _, u in self._spec()]
+
+    def _spec(self):
+        base = self.base.result
+        spec = [("point", "1")] + [(a.key, base.unit(a.key)) for a in self.axes]
+        spec += [("sound_speed", "m/s")]
+        for v in self.variants:
+            spec += [(f"{q}:{v.name}", v.result.unit(q)) for q in v.quantities]
+        spec += [(f"status:{v.name}", "text") for v in self.variants]
+        return spec
+
+    @property
+    def data(self):
+        """Numeric part of the table (points, numeric columns), SI."""
+        base = self.base.result
+        cols = [base.column("point")] + [base.column(a.key) for a in self.axes]
+        cols.append(base.column("sound_speed"))
+        for v in self.variants:
+            cols += [v.result.column(q) for q in v.quantities]
+        return np.column_stack(cols)
+
+    def column(self, name):
+        spec = self.columns
+        if name not in spec:
+            raise KeyError(f"no column {name!r}; columns: {', '.join(spec)}")
+        if name.startswith("status:"):
+            v = next(v for v in self.variants if f"status:{v.name}" == name)
+            return np.array(v.status(), dtype=object)
+        return self.data[:, spec.index(name)]
+
+    def to_csv(self, path):
+        """Write the side-by-side table (atomically)."""
+        header = [f"{c} [{u}]" for c, u in self._spec()]
+        data = self.data
+        names = self.columns
+        status = [v.status() for v in self.variants]
+        rows = []
+        for i in range(data.shape[0]):
+            cells = [_fmt(x, integer=(names[j] == "point")) for j, x in enumerate(data[i])]
+            cells += [s[i] for s in status]
+            rows.append(cells)
+        write_csv(path, header, rows)
+
+    def summary(self, max_rows=11):
+        """Printed summary: the models, the differences and a short table."""
+        lines = []
+        grid = ", ".join(f"{a.key} = {a.start} .. {a.stop} ({a.size} points"
+                         f"{', log' if a.log else ''})" for a in self.axes)
+        lines.append(f"Model comparison over {grid}")
+        lines.append(f"  configured: {self.base.label}")
+        for v in self.variants[1:]:
+            lines.append(f"  {v.comparison:<11} {v.label}")
+        lines.append(f"Differences (tolerance {self.tolerance:.0%} relative)")
+        lines += [f"  - {s}" for s in self.statements] or ["  (none)"]
+        if self.notes:
+            lines.append("Not compared")
+            lines += [f"  - {n}" for n in self.notes]
+        if len(self.axes) == 1:
+            lines.append("Table (selected rows; the full table with --out)")
+            lines += self._short_table(max_rows)
+        return "\n".join(lines)
+
+    def _short_table(self, max_rows):
+        base = self.base.result
+        n = base.data.shape[0]
+        pick = np.unique(np.linspace(0, n - 1, min(n, max_rows)).round().astype(int))
+        ax = self.axes[0]
+        c = base.column("sound_speed")
+        heads = [ax.key] + [f"{v.main}:{v.name}" for v in self.variants]
+        cells = []
+        for i in pick:
+            row = [axis_value_text(ax, base.column(ax.key)[i], c[i])]
+            for v in self.variants:
+                st = v.status()[i]
+                row.append(st if st != "ok" else f"{v.result.column(v.main)[i]:.4g}")
+            cells.append(row)
+        widths = [max(len(h), *(len(r[k]) for r in cells)) for k, h in enumerate(heads)]
+        out = ["  " + "  ".join(h.rjust(w) for h, w in zip(heads, widths))]
+        out += ["  " + "  ".join(x.rjust(w) for x, w in zip(r, widths)) for r in cells]
+        unit = "1/s" if all(v.result.unit(v.main) == "1/s" for v in self.variants) else ""
+        if unit:
+            out.append(f"  (rates in {unit})")
+        return out
+
+
+# ---------------------------------------------------------------------------
+# building the variants
+# ---------------------------------------------------------------------------
+def _describe(raw, scenario):
+    from .sweep import format_value
+
+    p, cond = scenario.probe, scenario.condensate
+    parts = [f"{p.name} probe"]
+    if p.has_gap:
+        parts[0] += f" (gap {format_value('frequency', 'rad/s', p.gap)})"
+    parts.append(f"{cond.dispersion.name} dispersion")
+    parts.append("point probe" if p.width == 0 else
+                 f"width {format_value('length', 'm', p.width)}")
+    parts.append(f"T = {format_value('temperature', 'K', cond.temperature)}"
+                 if cond.temperature > 0 else "T = 0")
+    return ", ".join(parts)
+
+
+def _variants(raw, base, varied, wanted, gap, width, temperature):
+    """[(comparison, name, label, raw)] and notes for those skipped."""
+    out, notes = [], []
+    explicit = wanted is not None
+    wanted = list(COMPARISONS) if wanted is None else wanted
+
+    def skip(comp, why):
+        if explicit:
+            raise InputError("--models", f"{comp}: {why}")
+        notes.append(f"{comp}: {why}")
+
+    for comp in wanted:
+        r = copy.deepcopy(raw)
+        if comp == "probe":
+            if base.probe.has_gap:
+                if "probe.gap" in varied:
+                    skip(comp, "probe.gap is varied and the density probe has no gap")
+                    continue
+                r["probe"]["model"] = "density"
+                r["probe"].pop("gap", None)
+                out.append((comp, "density", "density probe (structureless)", r))
+            else:
+                if gap is None:
+                    skip(comp, "the configured probe is a density probe; give "
+                               "--gap for its two-level variant")
+                    continue
+                r["probe"]["model"] = "two-level"
+                r["probe"]["gap"] = gap
+                out.append((comp, "two_level", f"two-level probe (gap {gap})", r))
+        elif comp == "dispersion":
+            other = "phonon" if base.condensate.dispersion.name == "bogoliubov" else "bogoliubov"
+            r["condensate"]["dispersion"] = other
+            out.append((comp, other, f"{other} dispersion", r))
+        elif comp == "width":
+            if "probe.width" in varied:
+                skip(comp, "probe.width is varied")
+                continue
+            if base.probe.width > 0:
+                r["probe"]["width"] = "0 um"
+                out.append((comp, "point", "point probe (width 0)", r))
+            elif width is None:
+                skip(comp, "the configured probe is point-like; give --width "
+                           "for a finite-width variant")
+                continue
+            else:
+                r["probe"]["width"] = width
+                out.append((comp, "wide", f"finite width {width}", r))
+        elif comp == "temperature":
+            if "condensate.temperature" in varied:
+                skip(comp, "condensate.temperature is varied")
+                continue
+            if base.condensate.temperature > 0:
+                r["condensate"]["temperature"] = "0 K"
+                out.append((comp, "T0", "T = 0", r))
+            elif temperature is None:
+                skip(comp, "the configured gas is at T = 0; give --temperature "
+                           "for a thermal variant")
+                continue
+            else:
+                r["condensate"]["temperature"] = temperature
+                out.append((comp, "thermal", f"T = {temperature}", r))
+        else:
+            raise InputError("--models", f"unknown comparison {comp!r}; allowed: "
+                                         f"{', '.join(COMPARISONS)}")
+    return out, notes
+
+
+def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=None,
+            temperature=None, workers=1, scheduler=None, tolerance=TOLERANCE):
+    """Evaluate the grid for the configured model and its variants.
+
+    ``models``: a list from ``COMPARISONS`` (default: all that apply; those
+    that cannot apply are listed in ``notes``).  ``gap``, ``width`` and
+    ``temperature`` (strings with units) supply the parameter of a variant
+    that the configuration does not have.  Returns a :class:`Comparison`.
+    """
+    from .config import scenario_from_dict
+
+    raw, source = _raw_config(config, overrides)
+    plan = plan_sweep(raw, vary, log)
+    base = plan.scenario
+    varied = {a.key for a in plan.axes}
+    if models is not None:
+        if not models:
+            raise InputError("--models", f"give at least one of {', '.join(COMPARISONS)}")
+        for m in models:
+            if m not in COMPARISONS:
+                raise InputError("--models", f"unknown comparison {m!r}; allowed: "
+                                             f"{', '.join(COMPARISONS)}")
+    specs, notes = _variants(raw, base, varied, models, gap, width, temperature)
+    variants = [Variant("configured", _describe(raw, base), "", raw)]
+    for comp, name, label, r in specs:
+        try:
+            scenario_from_dict(r)
+            plan_v = plan_sweep(r, vary, log)
+        except InputError as exc:
+            raise InputError(exc.key, f"{label}: {exc.message}") from None
+        variants.append(Variant(name, label, comp, r))
+        variants[-1].plan = plan_v
+    variants[0].plan = plan
+    for v in variants:
+        v.plan.source = source
+    for v in variants:
+        v.result = sweep(v.plan, (), workers=workers, scheduler=scheduler)
+    cmp = Comparison(variants=variants, axes=plan.axes, shape=plan.shape,
+                     tolerance=float(tolerance), notes=notes)
+    cmp.statements = _statements(cmp)
+    return cmp
+
+
+# ---------------------------------------------------------------------------
+# stating the differences
+# ---------------------------------------------------------------------------
+def _extent(cmp, mask):
+    """Where ``mask`` holds, as 'key a .. b' for each axis."""
+    base = cmp.base.result
+    c = base.column("sound_speed")
+    parts = []
+    for ax in cmp.axes:
+        vals = base.column(ax.key)[mask]
+        cs = c[mask]
+        lo, hi = int(np.argmin(vals)), int(np.argmax(vals))
+        a = axis_value_text(ax, vals[lo], cs[lo])
+        b = axis_value_text(ax, vals[hi], cs[hi])
+        parts.append(f"{ax.key} = {a}" if lo == hi else f"{ax.key} {a} .. {b}")
+    return ", ".join(parts)
+
+
+def _at(cmp, i):
+    base = cmp.base.result
+    c = base.column("sound_speed")[i]
+    return ", ".join(f"{ax.key} = {axis_value_text(ax, base.column(ax.key)[i], c)}"
+                     for ax in cmp.axes)
+
+
+def _onset(cmp, v, q):
+    """1D grids: the first grid value where ``q`` is > 0 (None if never)."""
+    vals = v.result.column(q)
+    pos = np.nonzero(np.isfinite(vals) & (vals > 0))[0]
+    if pos.size == 0:
+        return None
+    return _at(cmp, int(pos[0])) if pos[0] > 0 else "from the start of the grid"
+
+
+def _statements(cmp):
+    out = []
+    base = cmp.base
+    n = base.result.data.shape[0]
+    tol = cmp.tolerance
+    for v in cmp.variants[1:]:
+        st = np.array(v.status())
+        bad = st != "ok"
+        if bad.any():
+            word = "diverges" if (st == "diverges").any() else "has no result"
+            out.append(f"{v.label}: {v.main} {word} at {int(bad.sum())} of {n} points "
+                       f"({_extent(cmp, bad)}): {v.reason()}")
+        bst = np.array(base.status())
+        if (bst != "ok").any() and not bad.all():
+            out.append(f"configured model has no result at {int((bst != 'ok').sum())} "
+                       f"points where the {v.label} has one")
+        shared = [q for q in v.quantities if q in base.quantities]
+        for q in shared:
+            a, b = base.result.column(q), v.result.column(q)
+            ok = np.isfinite(a) & np.isfinite(b)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                scale = np.maximum(np.abs(a), np.abs(b))
+                rel = np.where(scale > 0, np.abs(a - b) / np.where(scale > 0, scale, 1), 0.0)
+            rel = np.where(ok, rel, 0.0)
+            only_base = ok & (a > 0) & (b == 0)
+            only_var = ok & (b > 0) & (a == 0)
+            if only_base.any():
+                out.append(f"{v.label}: {q} vanishes at {int(only_base.sum())} points "
+                           f"where the configured model's is nonzero ({_extent(cmp, only_base)})")
+            if only_var.any():
+                out.append(f"{v.label}: {q} is nonzero at {int(only_var.sum())} points "
+                           f"where the configured model's vanishes ({_extent(cmp, only_var)})")
+            big = rel > tol
+            both = int(ok.sum())
+            where = "every point" if both == n else f"the {both} points where both are finite"
+            if big.any():
+                i = int(np.argmax(rel))
+                ratio = (f"{v.name}/configured = {b[i] / a[i]:.3g}" if a[i] != 0 else
+                         f"{v.name} {b[i]:.3g} {v.result.unit(q)}, configured 0")
+                out.append(f"{v.label}: {q} differs by more than {tol:.0%} at "
+                           f"{int(big.sum())} of {both} points with both finite "
+                           f"({_extent(cmp, big)}); largest at {_at(cmp, i)}: {ratio}")
+            elif ok.any() and np.all((a[ok] == 0) & (b[ok] == 0)):
+                out.append(f"{v.label}: {q} vanishes in both models at {where}")
+            elif ok.any():
+                out.append(f"{v.label}: {q} agrees within {tol:.0%} at {where} "
+                           f"(largest difference {float(rel.max()):.2%})")
+        if v.comparison == "width":
+            out.append(_width_note(cmp, v))
+        if not shared or v.comparison == "probe":
+            for q_var in v.quantities[:1]:
+                out.append(_support_statement(cmp, base, base.main, v, q_var))
+    return [s for s in out if s]
+
+
+def _support_statement(cmp, base, qb, v, qv):
+    a, b = base.result.column(qb), v.result.column(qv)
+    na = int(np.sum(np.isfinite(a) & (a > 0)))
+    nb = int(np.sum(np.isfinite(b) & (b > 0)))
+    text = (f"{v.label}: {qv} is nonzero at {nb} points, the configured "
+            f"{qb} at {na} points")
+    if len(cmp.axes) == 1:
+        oa, ob = _onset(cmp, base, qb), _onset(cmp, v, qv)
+        text += (f"; onset of {qb}: {oa or 'none on the grid'}, of {qv}: "
+                 f"{ob or 'none on the grid'}")
+    return text
+
+
+def _width_note(cmp, v):
+    """Where the form factor cuts the spectrum: wavenumbers above 1/s."""
+    def width_of(var):
+        return float(var.result.meta["scenario"]["probe"]["width"])
+    s = max(width_of(v), width_of(cmp.base))
+    xi = float(cmp.base.result.column("healing_length")[0])
+    if s <= 0:
+        return ""
+    return (f"the form factor exp(-k^2 s^2) of the {s * 1e6:.3g} um wide probe cuts "
+            f"the spectrum above k ~ 1/s = {xi / s:.3g}/xi "
+            f"(k xi ~ 1 is where the Bogoliubov spectrum turns from phonons to particles)")
+
+
+__all__ = ["compare", "Comparison", "Variant", "COMPARISONS", "TOLERANCE"]

@@ -1,0 +1,405 @@
+"""Design targets: the up-transition threshold versus gap, and solving for
+the value of a key at which a result reaches a target.
+
+Python use::
+
+    from probe.design import threshold_table, solve
+    tab = threshold_table("examples/box3d_supersonic.toml")
+    tab.column("up_threshold_speed")      # m/s, one per gap in tab.column("probe.gap")
+    sol = solve("examples/box3d_supersonic.toml", "trajectory.speed", "up_rate=50")
+    sol.value, sol.unit                   # SI value of trajectory.speed, "m/s"
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .errors import InputError
+from .sweep import (NUMERIC_KEYS, _fmt, _raw_config, check_numeric_key,
+                    column_kind, evaluate_point, format_value, plan_sweep, si_unit,
+                    sweep, write_csv)
+
+# ---------------------------------------------------------------------------
+# threshold versus gap
+# ---------------------------------------------------------------------------
+#: default gap grid: this factor either side of the configured gap
+GAP_SPAN = 10.0
+GAP_POINTS = 41
+
+
+@dataclass
+class ThresholdTable:
+    """Up-transition threshold of straight motion versus the gap.
+
+    ``columns``/``units``/``data`` (SI): ``probe.gap`` (rad/s), the ordinary
+    frequency ``gap_frequency`` = Omega/(2 pi) (Hz), ``up_threshold_speed``
+    (m/s), ``threshold_mach`` (v_th/c_s), ``threshold_wavenumber`` (1/m, the
+    wavenumber emitted at threshold; inf for the phonon dispersion),
+    ``sound_speed`` (m/s) and ``healing_length`` (m).  ``configured`` holds
+    the configured gap (rad/s), its threshold (m/s) and the configured speed
+    (m/s) of straight motion (None on a circle).
+    """
+
+    columns: list
+    units: list
+    data: np.ndarray
+    configured: dict
+    axis: object
+    dispersion: str
+    temperature: float
+    notes: list = field(default_factory=list)
+
+    def column(self, name):
+        try:
+            return self.data[:, self.columns.index(name)]
+        except ValueError:
+            raise KeyError(f"no column {name!r}; columns: {', '.join(self.columns)}") from None
+
+    def unit(self, name):
+        return self.units[self.columns.index(name)]
+
+    @property
+    def sound_speed(self):
+        return float(self.column("sound_speed")[0])
+
+    @property
+    def healing_length(self):
+        return float(self.column("healing_length")[0])
+
+    def to_csv(self, path):
+        header = [f"{c} [{u}]" for c, u in zip(self.columns, self.units)]
+        rows = [[_fmt(x, integer=(self.columns[j] == "point")) for j, x in enumerate(r)]
+                for r in self.data]
+        write_csv(path, header, rows)
+
+    def summary(self, rows=True):
+        c, xi = self.sound_speed, self.healing_length
+        conf = self.configured
+        mach = self.column("threshold_mach")
+        f = self.column("gap_frequency")
+        lines = ["Up-transition threshold of straight motion (spontaneous excitation "
+                 "with phonon emission, T = 0)",
+                 f"  sound speed c_s = {format_value('speed', 'm/s', c)}, healing length "
+                 f"xi = {format_value('length', 'm', xi)}, {self.dispersion} dispersion"]
+        vt = conf["threshold_speed"]
+        lines.append(f"  configured gap {format_value('frequency', 'rad/s', conf['gap'])}: "
+                     f"threshold {format_value('speed', 'm/s', vt)} = {vt / c:.4g} c_s")
+        if conf.get("speed") is not None:
+            v = conf["speed"]
+            side = "above" if v > vt else "below"
+            lines.append(f"  configured speed {format_value('speed', 'm/s', v)} = "
+                         f"{v / c:.4g} c_s is {side} it"
+                         + (" (up transitions at T = 0)" if v > vt else
+                            " (no up transitions at T = 0)"))
+        lines.append(f"  over gaps {f.min():.4g} .. {f.max():.4g} Hz the threshold runs "
+                     f"from {np.nanmin(mach):.4g} to {np.nanmax(mach):.4g} c_s")
+        lines += [f"  note: {n}" for n in self.notes]
+        if rows:
+            k = self.column("threshold_wavenumber") * xi
+            speed = self.column("up_threshold_speed")
+            fs, us = _speed_display(speed)
+            heads = ["gap/2pi [Hz]", f"v_th [{us}]", "v_th/c_s", "k_th xi"]
+            body = [[f"{a:.5g}", f"{b * fs:.5g}", f"{m:.5g}", f"{q:.4g}"]
+                    for a, b, m, q in zip(f, speed, mach, k)]
+            widths = [max(len(h), *(len(r[j]) for r in body)) for j, h in enumerate(heads)]
+            lines.append("  " + "  ".join(h.rjust(w) for h, w in zip(heads, widths)))
+            lines += ["  " + "  ".join(x.rjust(w) for x, w in zip(r, widths)) for r in body]
+        return "\n".join(lines)
+
+
+def _speed_display(values):
+    from .sweep import display_unit
+    return display_unit("speed", "m/s", values)
+
+
+def threshold_table(config, vary=(), log=(), overrides=()):
+    """The threshold table for the gaps of ``vary`` (a ``probe.gap`` entry
+    as for :func:`probe.sweep.sweep`), by default a decade either side of
+    the configured gap (41 points, logarithmic)."""
+    from .config import scenario_from_dict
+
+    raw, source = _raw_config(config, overrides)
+    base = scenario_from_dict(raw, source=source)
+    if not base.probe.has_gap:
+        raise InputError("probe.model", "the density probe has no gap and no "
+                                        "threshold; use model = \"two-level\"")
+    gap = float(base.probe.gap)
+    vary = list(vary)
+    if not vary:
+        vary = [("probe.gap", f"{gap / GAP_SPAN!r} rad/s", f"{gap * GAP_SPAN!r} rad/s",
+                 GAP_POINTS)]
+        log = ("probe.gap",)
+    plan = plan_sweep(raw, vary, log)
+    keys = [a.key for a in plan.axes]
+    if keys != ["probe.gap"]:
+        raise InputError("--vary", f"threshold tabulates versus probe.gap only, got "
+                                   f"{', '.join(keys)}")
+    axis = plan.axes[0]
+    cond = base.condensate
+    c, xi, w0 = cond.sound_speed, cond.healing_length, cond.frequency_unit
+    gaps = axis.values
+    vt, q = cond.dispersion.threshold(gaps / w0)
+    vt0, _ = cond.dispersion.threshold(np.array([gap / w0]))
+    n = gaps.size
+    cols = [("point", "1"), ("probe.gap", "rad/s"), ("gap_frequency", "Hz"),
+            ("up_threshold_speed", "m/s"), ("threshold_mach", "1"),
+            ("threshold_wavenumber", "1/m"), ("sound_speed", "m/s"),
+            ("healing_length", "m")]
+    data = np.column_stack([np.arange(n, dtype=float), gaps, gaps / (2 * math.pi),
+                            vt * c, vt, q / xi, np.full(n, c), np.full(n, xi)])
+    traj = base.trajectory
+    speed = None
+    if traj.stationary_kind == "inertial":
+        speed = float(traj.stationary_parameters()["speed"])
+    notes = []
+    if cond.dispersion.name == "phonon":
+        notes.append("with the phonon dispersion w = c k the threshold is the sound "
+                     "speed at every gap")
+    if cond.temperature > 0:
+        notes.append("at T > 0 thermal phonons also excite the probe below the "
+                     "threshold; the threshold is that of spontaneous excitation")
+    if traj.stationary_kind == "circular":
+        notes.append("the configured path is a circle, on which up transitions occur "
+                     "at any speed; the table is for straight motion through the same gas")
+    return ThresholdTable(columns=[c_ for c_, _ in cols], units=[u for _, u in cols],
+                          data=data,
+                          configured={"gap": gap, "threshold_speed": float(vt0[0] * c),
+                                      "speed": speed},
+                          axis=axis, dispersion=cond.dispersion.name,
+                          temperature=cond.temperature, notes=notes)
+
+
+# ---------------------------------------------------------------------------
+# solve
+# ---------------------------------------------------------------------------
+#: results that may be targeted (column of the sweep)
+TARGETS = ("up_rate", "down_rate", "effective_temperature", "excited_population",
+           "emission_rate", "absorption_rate", "drag_force", "power")
+#: quantities of finite transits (not available from scenario files yet)
+TRANSIT_TARGETS = ("up_probability", "down_probability")
+
+SCAN_POINTS = 101
+SPEED_RANGE = ("0 c_s", "5 c_s")
+#: default range of other keys: this factor either side of the configured value
+VALUE_SPAN = 10.0
+
+
+@dataclass
+class Solution:
+    """``key`` = ``value`` (SI, ``unit``) gives ``quantity`` = ``achieved``
+    (target ``target``, SI unit ``quantity_unit``).  ``others`` lists the
+    other values in the range that reach the target; ``bracket`` the scan
+    interval; ``sound_speed`` (m/s) at the solution."""
+
+    key: str
+    value: float
+    unit: str
+    quantity: str
+    quantity_unit: str
+    target: float
+    achieved: float
+    others: list
+    bracket: tuple
+    scan: tuple
+    sound_speed: float
+    warnings: str = ""
+
+    def _text(self, value):
+        extra = format_value(column_kind(self.key), self.unit, value)
+        if self.key == "trajectory.speed":
+            extra = f"{value / self.sound_speed:.6g} c_s"
+        return f"{value:.10g} {self.unit}".rstrip() + f"  ({extra})"
+
+    def summary(self):
+        lines = [f"{self.key} = {self._text(self.value)}",
+                 f"  gives {self.quantity} = {self.achieved:.8g} {self.quantity_unit} "
+                 f"(target {self.target:.8g} {self.quantity_unit})",
+                 f"  searched {self.scan[0]} .. {self.scan[1]} ({self.scan[2]} scan "
+                 f"points, then Brent's method)"]
+        for v in self.others:
+            lines.append(f"  the target is also reached at {self.key} = {self._text(v)}")
+        if self.warnings:
+            for w in self.warnings.split(" | "):
+                lines.append(f"  warning: {w}")
+        return "\n".join(lines)
+
+
+def parse_target(text, columns, units):
+    """``"NAME=VALUE [unit]"`` -> (name, SI value) for a result column."""
+    from .units import ureg
+
+    if not isinstance(text, str) or "=" not in text:
+        raise InputError("--target", f"expected QUANTITY=VALUE such as 'up_rate=50' "
+                                     f"or 'up_rate=50 1/s', got {text!r}")
+    name, value = (t.strip() for t in text.split("=", 1))
+    if name in TRANSIT_TARGETS:
+        raise InputError("--target", f"{name} is a probability of a finite transit; "
+                                     "scenario files describe stationary motion, "
+                                     "whose result is a rate (e.g. up_rate)")
+    allowed = [t for t in TARGETS if t in columns]
+    if name not in allowed:
+        raise InputError("--target", f"{name!r} is not a result of this scenario; "
+                                     f"allowed: {', '.join(allowed)}")
+    unit = units[columns.index(name)]
+    try:
+        q = ureg.parse_expression(value)
+    except Exception as exc:
+        raise InputError("--target", f"cannot read {value!r} as a value ({exc})") from None
+    si_name = unit if unit != "1" else "dimensionless"
+    if not hasattr(q, "to"):                       # a bare number: the SI unit
+        q = ureg.Quantity(float(q), si_name)
+    elif q.unitless:
+        q = ureg.Quantity(float(q.magnitude), si_name)
+    try:
+        si = float(q.to(si_name).magnitude)
+    except Exception:
+        raise InputError("--target", f"{value!r} has units of {q.units:~} but "
+                                     f"{name} is in {unit}") from None
+    if not math.isfinite(si):
+        raise InputError("--target", f"{value!r} is not finite")
+    return name, si
+
+
+def _configured_value(raw, key, scenario):
+    from .sweep import NUMERIC_KEYS
+    from .units import parse_quantity
+
+    section, name = key.split(".")
+    body = raw.get(section, {})
+    if name not in body:
+        return None
+    cond = scenario.condensate
+    try:
+        return parse_quantity(body[name], key, NUMERIC_KEYS[key],
+                              dimension=cond.dimension, sound_speed=cond.sound_speed)
+    except InputError:
+        return None
+
+
+def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINTS):
+    """The value of ``key`` (within ``bounds`` ``"LO:HI"`` with units) at
+    which ``target`` (``"up_rate=50"``, ``"up_rate=50 1/s"``) is reached.
+
+    The range is scanned on a grid (vectorised where the engine allows);
+    the first sign change of ``result - target`` is refined with
+    :func:`scipy.optimize.brentq`.  Raises InputError when no value in the
+    range reaches the target."""
+    from scipy.optimize import brentq
+
+    from .config import scenario_from_dict
+
+    raw, source = _raw_config(config, overrides)
+    base = scenario_from_dict(raw, source=source)
+    key = check_numeric_key(key, "--for")
+    if bounds is not None:
+        parts = bounds.split(":") if isinstance(bounds, str) else list(bounds)
+        if len(parts) != 2 or not all(str(p).strip() for p in parts):
+            raise InputError("--range", f"expected LO:HI with units, e.g. "
+                                        f"'0.5c_s:3c_s', got {bounds!r}")
+        lo, hi = (str(p).strip() for p in parts)
+    elif key == "trajectory.speed":
+        lo, hi = SPEED_RANGE
+    else:
+        v0 = _configured_value(raw, key, base)
+        if v0 is None or not v0 > 0:
+            raise InputError("--range", f"give --range LO:HI for {key} (the "
+                                        "configuration has no positive value of it "
+                                        "to search around)")
+        unit = si_unit(NUMERIC_KEYS[key], base.condensate.dimension)
+        lo, hi = f"{v0 / VALUE_SPAN!r} {unit}", f"{v0 * VALUE_SPAN!r} {unit}"
+    plan = plan_sweep(raw, [(key, lo, hi, 2)], ())
+    ax = plan.axes[0]
+    a, b = float(ax.values[0]), float(ax.values[-1])
+    if a == b:
+        raise InputError("--range", f"LO and HI must differ, got {bounds!r}")
+    if a > b:
+        lo, hi, a, b = hi, lo, b, a
+    use_log = a > 0 and b / a >= 100
+    scan = sweep(raw, [(key, lo, hi, int(scan_points))],
+                 log=(key,) if use_log else ())
+    qname, goal = parse_target(target, scan.columns, scan.units)
+    qunit = scan.unit(qname)
+    x = scan.axes[0].values
+    f = scan.column(qname) - goal
+    unit_text = ax.unit
+
+    def text(v):
+        return float(v) if ax.kind == "dimensionless" else f"{float(v)!r} {unit_text}"
+
+    def g(v):
+        cols, _, row, _ = evaluate_point(raw, {key: text(v)})
+        val = row[cols.index(qname)]
+        if not math.isfinite(val):
+            raise InputError(key, f"{qname} has no finite value at {text(v)}")
+        return val - goal
+
+    roots = []
+    finite = np.isfinite(f)
+    for i in range(len(x)):
+        if finite[i] and f[i] == 0:
+            roots.append(("exact", i))
+        elif i + 1 < len(x) and finite[i] and finite[i + 1] and f[i] * f[i + 1] < 0:
+            roots.append(("bracket", i))
+    if not roots:
+        vals = scan.column(qname)[finite]
+        if vals.size == 0:
+            raise InputError("--target", f"{qname} has no finite value for {key} in "
+                                         f"[{lo}, {hi}]")
+        raise InputError("--target", f"no {key} in [{_shown(ax, a)}, {_shown(ax, b)}] "
+                                     f"gives {qname} = "
+                                     f"{goal:.6g} {qunit}: there {qname} runs from "
+                                     f"{vals.min():.6g} to {vals.max():.6g} {qunit}"
+                                     + _missed_hint(key))
+    values = []
+    for kind, i in roots:
+        if kind == "exact":
+            values.append(float(x[i]))
+            continue
+        x0, x1 = float(x[i]), float(x[i + 1])
+        r = brentq(g, x0, x1, xtol=1e-13 * max(abs(x0), abs(x1)), rtol=1e-12, maxiter=200)
+        miss = abs(g(r))
+        if miss > 1e-6 * max(abs(goal), 1e-300):
+            left, right = f[i] + goal, f[i + 1] + goal
+            if len(roots) == 1:
+                raise InputError("--target", f"{qname} jumps across {goal:.6g} {qunit} "
+                                             f"near {key} = {text(r)} (from {left:.6g} to "
+                                             f"{right:.6g} {qunit}); no value in "
+                                             f"[{lo}, {hi}] gives the target exactly")
+            continue
+        values.append(float(r))
+    if not values:
+        raise InputError("--target", f"{qname} only jumps across {goal:.6g} {qunit} "
+                                     f"in [{lo}, {hi}]; no value gives it exactly")
+    best = values[0]
+    cols, units, row, warns = evaluate_point(raw, {key: text(best)})
+    c = row[cols.index("sound_speed")]
+    si_val = best * c if ax.relative else best
+    others = [v * c if ax.relative else v for v in values[1:]]
+
+    def shown(v):
+        if ax.relative:
+            return f"{v:.4g} c_s"
+        return format_value(ax.kind, ax.unit, v)
+
+    return Solution(key=key, value=si_val, unit=si_unit(ax.kind, base.condensate.dimension),
+                    quantity=qname, quantity_unit=qunit, target=goal,
+                    achieved=float(row[cols.index(qname)]), others=others,
+                    bracket=(a, b), scan=(shown(a), shown(b), int(scan_points)),
+                    sound_speed=c,
+                    warnings=" | ".join(warns))
+
+
+def _shown(ax, v):
+    return f"{v:.4g} c_s" if ax.relative else format_value(ax.kind, ax.unit, v)
+
+
+def _missed_hint(key):
+    if key == "trajectory.speed":
+        return "; widen the search with --range LO:HI (e.g. 0c_s:8c_s)"
+    return "; widen the search with --range LO:HI"
+
+
+__all__ = ["threshold_table", "ThresholdTable", "solve", "Solution",
+           "parse_target", "TARGETS"]
