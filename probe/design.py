@@ -374,7 +374,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
                                      f"in [{lo}, {hi}]; no value gives it exactly")
     best = values[0]
     cols, units, row, warns = evaluate_point(raw, {key: text(best)})
-    c = row[cols.index("sound_speed")]
+    c = float(row[cols.index("sound_speed")])
     si_val = best * c if ax.relative else best
     others = [v * c if ax.relative else v for v in values[1:]]
 
