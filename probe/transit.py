@@ -37,6 +37,9 @@ Numerical method (natural units of the gas: q = k xi, t in xi/c)
   plus the switching bandwidth, the error is spectrally small.  The step is
   chosen so that even the every-other-point sub-rule (step 2 dt) satisfies
   this; the difference of the two sums is the time-step error estimate.
+  The fine step thus has 2 (1 + bandwidth/f) >= 2 points per period of the
+  highest frequency f, and acceleration adds a margin 5 sqrt(q |a|) to f
+  (curved paths spread the spectrum beyond the instantaneous frequency).
   Positions are evaluated once on the grid and reused for every k.
 * |k|: a uniform grid q_i = i h on [0, q_max] with fourth-order end
   weights at q = 0 (3/8, 7/6, 23/24, 1, ...).  |a|^2 depends on q through
@@ -629,7 +632,7 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
     amax = float(np.sqrt((A0 ** 2).sum(axis=1)).max()) * tu / c
 
     # --- wavenumber cutoff ------------------------------------------------
-    q_form = math.sqrt(math.log(1.0 / (1e-2 * rtol))) / s if s > 0 else math.inf
+    q_form = math.sqrt(math.log(1.0 / (1e-1 * rtol))) / s if s > 0 else math.inf
     if bw is not None:
         W = abs(Om) + bw
         if disp.bounded_windows or vmax < 1:
