@@ -77,7 +77,7 @@ QUANTITY_LABELS = {
     "down_probability": r"down probability $P_\downarrow$",
 }
 _PRETTY = {"um": "µm", "um/s": "µm/s", "uK": "µK", "us": "µs", "1/s": "s$^{-1}$",
-           "1/m": "m$^{-1}$"}
+           "1/m": "m$^{-1}$", "1/um": "µm$^{-1}$"}
 
 
 def pretty_unit(unit):
@@ -405,6 +405,18 @@ def _levels(z, log):
     return list(mticker.MaxNLocator(7).tick_values(pos.min(), pos.max())[1:-1])
 
 
+def _declutter(fig, texts):
+    """Remove contour labels that overlap an earlier one."""
+    renderer = fig.canvas.get_renderer()
+    kept = []
+    for t in texts:
+        box = t.get_window_extent(renderer).expanded(1.1, 1.2)
+        if any(box.overlaps(k) for k in kept):
+            t.remove()
+        else:
+            kept.append(box)
+
+
 def _contour_fmt(v):
     if v == 0:
         return "0"
@@ -413,6 +425,40 @@ def _contour_fmt(v):
     if abs(m - 1) < 1e-9:
         return f"1e{e}" if abs(e) > 2 else f"{v:g}"
     return f"{v:.3g}"
+
+
+def _cell_edges(values, log):
+    """Edges of the cells around grid values (geometric midpoints on log
+    axes), for maps drawn cell by cell."""
+    v = np.asarray(values, float)
+    if v.size == 1:
+        return np.array([v[0] * 0.9, v[0] * 1.1]) if v[0] else np.array([-0.5, 0.5])
+    t = np.log(v) if log else v
+    mid = 0.5 * (t[1:] + t[:-1])
+    e = np.concatenate([[t[0] - (mid[0] - t[0])], mid, [t[-1] + (t[-1] - mid[-1])]])
+    return np.exp(e) if log else e
+
+
+def _hatch_cells(ax, xe, ye, bad, hatch):
+    """Hatch the cells flagged in ``bad`` (shape (len(xe)-1, len(ye)-1)),
+    merged into runs along x for each row of y."""
+    from matplotlib.collections import PatchCollection
+    from matplotlib.patches import Rectangle
+
+    patches = []
+    for j in range(bad.shape[1]):
+        i = 0
+        while i < bad.shape[0]:
+            if not bad[i, j]:
+                i += 1
+                continue
+            k = i
+            while k + 1 < bad.shape[0] and bad[k + 1, j]:
+                k += 1
+            patches.append(Rectangle((xe[i], ye[j]), xe[k + 1] - xe[i], ye[j + 1] - ye[j]))
+            i = k + 1
+    ax.add_collection(PatchCollection(patches, facecolor="white", edgecolor="0.2",
+                                      hatch=hatch, linewidth=0, zorder=2))
 
 
 def plot_map(result, path=None, quantity=None):
@@ -434,9 +480,7 @@ def plot_map(result, path=None, quantity=None):
     log = _spans_decades(z)
     fig = _figure((6.4, 5.0))
     ax = fig.add_subplot()
-    cmap = mpl.colormaps["viridis"].copy()
-    cmap.set_bad("white")
-    cmap.set_under("white")
+    cmap = mpl.colormaps["viridis"].with_extremes(bad="white", under="white")
     zm = np.ma.masked_invalid(z)
     clipped = False
     if log:
@@ -448,17 +492,31 @@ def plot_map(result, path=None, quantity=None):
         zm = np.ma.masked_where(~np.isfinite(z) | (z <= 0), z)
     else:
         norm = None
-    mesh = ax.pcolormesh(x, y, zm.T, shading="nearest", cmap=cmap, norm=norm,
-                         rasterized=True)
+    xe, ye = _cell_edges(x, a0.log), _cell_edges(y, a1.log)
+    finite = z[np.isfinite(z)]
+    flat = finite.size > 0 and finite.min() == finite.max()
+    if flat:
+        # one value everywhere: a colour scale would be meaningless
+        v0 = float(finite[0])
+        norm = mcolors.Normalize(vmin=v0 - 1 if v0 == 0 else 0.5 * v0,
+                                 vmax=v0 + 1 if v0 == 0 else 1.5 * v0)
+    mesh = ax.pcolormesh(xe, ye, zm.T, cmap=cmap, norm=norm, rasterized=True)
     cbar = fig.colorbar(mesh, ax=ax, extend="min" if clipped else "neither")
     cbar.set_label(axis_label(quantity, zunit) + (
         f"   (white: 0 or below {LOG_FLOOR:.0e} of the largest)" if clipped else ""))
+    if flat:
+        cbar.set_ticks([float(finite[0])])
+        ax.annotate(f"{QUANTITY_LABELS.get(quantity, quantity)} = {finite[0]:.4g} "
+                    f"{pretty_unit(zunit)} wherever it is finite", xy=(0.01, 0.97),
+                    xycoords="axes fraction", va="top", fontsize=8,
+                    bbox=dict(boxstyle="square,pad=0.2", facecolor="white",
+                              edgecolor="none"))
     levels = _levels(z, log)
     if len(levels) and min(x.size, y.size) > 2:
         zc = np.where(np.isfinite(z) & ((z > 0) | (not log)), z,
                       (min(levels) / 10) if log else np.nan)
         cs = ax.contour(x, y, zc.T, levels=levels, colors="black", linewidths=0.9)
-        ax.clabel(cs, fmt=_contour_fmt, fontsize=8, inline=True)
+        _declutter(fig, ax.clabel(cs, fmt=_contour_fmt, fontsize=8, inline=True))
     if a0.log:
         ax.set_xscale("log")
     if a1.log:
@@ -469,10 +527,11 @@ def plot_map(result, path=None, quantity=None):
     # no-result points: hatched
     bad = np.array([w.startswith("no result") for w in result.warnings]).reshape(result.shape)
     if bad.any():
-        ax.contourf(x, y, bad.T.astype(float), levels=[0.5, 1.5], colors="none",
-                    hatches=[HATCHES[0]])
+        _hatch_cells(ax, xe, ye, bad, HATCHES[0])
         ax.annotate("hatched: no result (model diverges)", xy=(0.01, 0.01),
-                    xycoords="axes fraction", fontsize=7)
+                    xycoords="axes fraction", fontsize=7, zorder=6,
+                    bbox=dict(boxstyle="square,pad=0.2", facecolor="white",
+                              edgecolor="none"))
     # sound speed and threshold on a speed axis
     c = _constant(result.column("sound_speed"))
     for k, (axis, fac) in enumerate(((a0, fx), (a1, fy))):
@@ -566,6 +625,7 @@ def plot_comparison(cmp, path=None):
 
 def _compare_map(cmp, path):
     from matplotlib.lines import Line2D
+    from matplotlib.patches import Rectangle
 
     base = cmp.base.result
     a0, a1 = cmp.axes
@@ -585,11 +645,14 @@ def _compare_map(cmp, path):
             cs = ax.contour(x, y, zc.T, levels=levels, colors=[st["color"]],
                             linestyles=[st["linestyle"]], linewidths=1.3)
             if k == 0:
-                ax.clabel(cs, fmt=_contour_fmt, fontsize=7, inline=True)
+                _declutter(fig, ax.clabel(cs, fmt=_contour_fmt, fontsize=7, inline=True))
         bad = np.array(v.status()).reshape(cmp.shape) != "ok"
         if bad.any():
-            ax.contourf(x, y, bad.T.astype(float), levels=[0.5, 1.5], colors="none",
-                        hatches=[HATCHES[k % len(HATCHES)]])
+            _hatch_cells(ax, _cell_edges(x, a0.log), _cell_edges(y, a1.log), bad,
+                         HATCHES[k % len(HATCHES)])
+            handles.append(Rectangle((0, 0), 1, 1, facecolor="white", edgecolor="0.2",
+                                     hatch=HATCHES[k % len(HATCHES)],
+                                     label=f"{v.label}: no result"))
         handles.append(Line2D([], [], color=st["color"], linestyle=st["linestyle"],
                               label=f"{v.label}: {v.main}"))
     if a0.log:
@@ -652,5 +715,147 @@ def plot_threshold(table, path=None):
     return fig
 
 
+# ---------------------------------------------------------------------------
+# emitted phonons of a finite transit (probe.transit spectrum output)
+# ---------------------------------------------------------------------------
+def _spectrum_of(result):
+    sp = getattr(result, "spectrum", None)
+    if not sp:
+        raise InputError("spectrum", "the transit result has no spectrum; call "
+                                     "transit_probabilities(..., spectrum=True)")
+    return sp
+
+
+def _start_labels(result):
+    if result.model == "two-level":
+        return ("probe starts in the ground state", "probe starts excited")
+    return ("emitted phonons", None)
+
+
+def plot_emission_pattern(result, path=None, speed=None):
+    """Directions of the emitted phonons of a transit
+    (:class:`probe.transit.TransitResult` with a spectrum).
+
+    3D: polar plot of dN/dOmega (per steradian, azimuth-averaged) against the
+    angle theta from the spectrum axis (the mean velocity), mirrored about
+    the axis; 2D: dN/dphi (per radian) against phi; 1D: forward and
+    backward counts.  ``speed`` (m/s) marks the Mach cone cos(theta) = c/v
+    when supersonic."""
+    sp = _spectrum_of(result)
+    d = result.dimension
+    main, second = _start_labels(result)
+    if d == 1:
+        fig = _figure((5.2, 4.2))
+        ax = fig.add_subplot()
+        keys = [("dN_backward", "dN_forward", main)]
+        if second and "dN_forward_excited" in sp:
+            keys.append(("dN_backward_excited", "dN_forward_excited", second))
+        width = 0.8 / len(keys)
+        for k, (b, f, lab) in enumerate(keys):
+            xs = np.array([0, 1]) + (k - (len(keys) - 1) / 2) * width
+            ax.bar(xs, [sp[b], sp[f]], width=width, facecolor="white" if k else "0.35",
+                   edgecolor="black", hatch=HATCHES[k] if k else None, label=lab)
+        ax.set_xticks([0, 1], ["backward (-x)", "forward (+x)"])
+        ax.set_ylabel("emitted phonons")
+        ax.legend(fontsize=8)
+        fig.suptitle("Emitted phonons of the transit, 1D", fontsize=10)
+        if path is not None:
+            save(fig, path)
+        return fig
+    fig = _figure((5.6, 5.6))
+    ax = fig.add_subplot(projection="polar")
+    ax.set_theta_zero_location("E")
+    if d == 3:
+        u = np.asarray(sp["cos_theta"], float)
+        theta = np.arccos(np.clip(u, -1, 1))
+        series = [("dN_dcos_theta", main), ("dN_dcos_theta_excited", second)]
+        scale = 1 / (2 * math.pi)            # dN/dcos(theta) -> dN/dOmega
+        unit = "1/sr"
+        angles = np.concatenate([theta[::-1], -theta])
+        def values(v):
+            return np.concatenate([v[::-1], v])
+        axis_text = r"$\theta$ from the mean velocity"
+    else:
+        phi = np.asarray(sp["phi"], float)
+        series = [("dN_dphi", main), ("dN_dphi_excited", second)]
+        scale = 1.0
+        unit = "1/rad"
+        angles = np.concatenate([phi, phi[:1]])
+        def values(v):
+            return np.concatenate([v, v[:1]])
+        axis_text = r"$\phi$ from the mean velocity"
+    k = 0
+    for key, lab in series:
+        if lab is None or key not in sp:
+            continue
+        r = np.asarray(sp[key], float) * scale
+        st = _style(k)
+        ax.plot(angles, values(r), label=lab, markevery=max(1, angles.size // 24), **st)
+        k += 1
+    c = result.sound_speed
+    if speed is not None and speed > c:
+        cone = math.acos(c / speed)
+        for a in (cone, -cone):
+            ax.plot([a, a], [0, ax.get_rmax()], color="0.3", linestyle=(0, (4, 2)),
+                    linewidth=1.1)
+        ax.plot([], [], color="0.3", linestyle=(0, (4, 2)),
+                label=f"Mach cone, cos = $c_s/v$ = {c / speed:.3g}")
+    import matplotlib.ticker as mticker
+    ax.set_rlabel_position(157.5)
+    ax.yaxis.set_major_locator(mticker.MaxNLocator(4))
+    ax.tick_params(labelsize=8)
+    ax.set_title(f"dN/d{'Ω' if d == 3 else 'φ'} [{unit}], {axis_text}; motion to the right",
+                 fontsize=9, pad=14)
+    fig.legend(loc="outside lower center", fontsize=8, frameon=False)
+    fig.suptitle(f"Emitted phonons of the transit, {d}D", fontsize=10)
+    if path is not None:
+        save(fig, path)
+    return fig
+
+
+def plot_emission_spectrum(result, path=None):
+    """Wavenumber spectrum of the emitted phonons of a transit: dN/d(k xi)
+    against k xi (top axis: k in 1/um), with k xi = 1 marked (phonons below,
+    particle-like excitations above)."""
+    sp = _spectrum_of(result)
+    xi = result.healing_length
+    q = np.asarray(sp["k"], float) * xi
+    main, second = _start_labels(result)
+    fig = _figure()
+    ax = fig.add_subplot()
+    curves = [(np.asarray(sp["dN_dk"], float) / xi, main)]
+    if second and "dN_dk_excited" in sp:
+        curves.append((np.asarray(sp["dN_dk_excited"], float) / xi, second))
+    for k, (y, lab) in enumerate(curves):
+        ax.plot(q, y, label=lab, markevery=max(1, q.size // 14), **_style(k))
+    ys = [y for y, _ in curves]
+    if _spans_decades(*ys):
+        ax.set_yscale("log")
+        pos = np.concatenate([y[y > 0] for y in ys])
+        top = pos.max()
+        ax.set_ylim(max(pos.min(), top * 1e-8) / 2, top * 3)
+    else:
+        ax.set_ylim(bottom=0)
+    ax.set_xlim(0, q.max())
+    ax.axvline(1.0, color="0.3", linestyle=(0, (1, 1.5)), linewidth=1.2)
+    ax.annotate(r"$k\xi = 1$", xy=(1.0, 1.0), xycoords=("data", "axes fraction"),
+                xytext=(3, -12), textcoords="offset points", fontsize=9)
+    ax.set_xlabel(r"wavenumber $k\xi$")
+    ax.set_ylabel(r"$dN/d(k\xi)$ [phonons per unit $k\xi$]")
+    f = 1e-6 / xi
+    sec = ax.secondary_xaxis("top", functions=(lambda x: x * f, lambda k_: k_ / f))
+    sec.set_xlabel(f"k [{pretty_unit('1/um')}]")
+    ax.grid(True, which="major", color="0.85", linewidth=0.6)
+    ax.legend(fontsize=8)
+    total = getattr(result, "emitted_phonons", None)
+    start = " from the ground state" if result.model == "two-level" else ""
+    fig.suptitle("Spectrum of the emitted phonons" +
+                 (f" (N = {total:.3g}{start})" if total is not None else ""), fontsize=10)
+    if path is not None:
+        save(fig, path)
+    return fig
+
+
 __all__ = ["plot_sweep", "plot_lines", "plot_map", "plot_comparison",
-           "plot_threshold", "save", "check_plot_path", "SUFFIXES"]
+           "plot_threshold", "plot_emission_pattern", "plot_emission_spectrum",
+           "save", "check_plot_path", "SUFFIXES"]
