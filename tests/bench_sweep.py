@@ -1,0 +1,58 @@
+"""Benchmark of the sweep machinery (run by hand, not collected by pytest):
+
+    python tests/bench_sweep.py [N]
+
+A N x N (default 200 x 200) map of the circular engine over speed (0.2 to
+2 c_s) and radius (2 to 50 um, log-spaced) for the quasi-2D 23Na gas of
+examples/ring2d_circular.toml (healing length 1.14 um), written to a CSV
+exactly as `probe sweep ... --out` does, once with one worker and once with
+`--workers 2`.  Prints both wall times, the time per point, the ratio, and
+checks that the two files are byte-identical.  Single-threaded numerics:
+OMP_NUM_THREADS etc. are set to 1 before numpy loads.
+"""
+import os
+
+for _v in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_v, "1")
+
+import sys  # noqa: E402
+import tempfile  # noqa: E402
+import time  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+from probe.sweep import sweep  # noqa: E402
+
+RING = str(Path(__file__).resolve().parent.parent / "examples" / "ring2d_circular.toml")
+
+
+def run(n, workers, out):
+    vary = [("trajectory.speed", "0.2 c_s", "2 c_s", n),
+            ("trajectory.radius", "2 um", "50 um", n)]
+    t0 = time.perf_counter()
+    res = sweep(RING, vary, log=("trajectory.radius",), out=out, workers=workers)
+    return time.perf_counter() - t0, res
+
+
+def main():
+    n = int(sys.argv[1]) if len(sys.argv) > 1 else 200
+    print(f"load average before: {os.getloadavg()[0]:.2f} (other processes on the "
+          "machine slow the 2-worker run most)")
+    print(f"{n} x {n} = {n * n} points, circular engine, 2D gas "
+          f"(ring2d_circular.toml), speed 0.2..2 c_s, radius 2..50 um (log); "
+          f"{os.cpu_count()} CPUs")
+    with tempfile.TemporaryDirectory() as tmp:
+        one, res1 = run(n, 1, Path(tmp) / "one.csv")
+        print(f"  1 worker : {one:7.2f} s  ({one / n**2 * 1e3:.3f} ms per point)")
+        two, res2 = run(n, 2, Path(tmp) / "two.csv")
+        print(f"  2 workers: {two:7.2f} s  ({two / n**2 * 1e3:.3f} ms per point)")
+        same = (Path(tmp) / "one.csv").read_bytes() == (Path(tmp) / "two.csv").read_bytes()
+    print(f"  load average after: {os.getloadavg()[0]:.2f}")
+    harm = res1.column("harmonics")
+    print(f"  speed-up {one / two:.2f}x; files identical: {same}; harmonics per point "
+          f"{harm.mean():.0f} mean, {harm.max():.0f} max")
+    if not same:
+        raise SystemExit("the two runs differ")
+
+
+if __name__ == "__main__":
+    main()
