@@ -38,15 +38,19 @@ Numerical method (natural units of the gas: q = k xi, t in xi/c)
   chosen so that even the every-other-point sub-rule (step 2 dt) satisfies
   this; the difference of the two sums is the time-step error estimate.
   The fine step thus has 2 (1 + bandwidth/f) >= 2 points per period of the
-  highest frequency f, and acceleration adds a margin 5 sqrt(q |a|) to f
-  (curved paths spread the spectrum beyond the instantaneous frequency).
+  highest frequency f, and acceleration adds a margin z sqrt(q |a|) to f
+  (curved paths spread the spectrum beyond the instantaneous frequency, with
+  an Airy-like tail; z is the depth of that tail at 0.1 rtol, 3.6 at
+  rtol = 1e-3, 4.8 at 1e-6).
   Positions are evaluated once on the grid and reused for every k.
 * |k|: a uniform grid q_i = i h on [0, q_max] with fourth-order end
   weights at q = 0 (3/8, 7/6, 23/24, 1, ...).  |a|^2 depends on q through
   e^{i(w(q) s - q n.dx)} with |w'(q) s - n.dx| below the conjugate length
   ``L = v_g(q_max) T_c + D`` (T_c the correlation length of chi, D the path
-  diameter), so h is chosen such that the every-other-point sub-rule (2h)
-  still samples that band; the difference is the radial error estimate.
+  diameter).  That bound weights every lag of the switching fully, a worst
+  case, so the first pass puts the full rule (not its sub-rule) at it,
+  h = 2 pi/L; the difference with the every-other-point sub-rule (2h) is
+  the radial error estimate, and h is halved when it exceeds its share.
   ``q_max`` is where the form factor or the detuning (off-resonance beyond
   the switching bandwidth) makes the integrand negligible; the share of the
   last 5 % of the grid is checked.
@@ -56,14 +60,20 @@ Numerical method (natural units of the gas: q = k xi, t in xi/c)
   or when the direction spectrum is asked for, a Gauss-Legendre (cos theta)
   x trapezoid (phi) product rule about the path's principal axis (or the
   spectrum axis).  The angular degree needed at q is about q D (the
-  harmonic content of e^{-i q n.dx}); it is chosen per band of q and
-  checked against a rule of 3/4 the degree on every fourth q node.
+  harmonic content of e^{-i q n.dx}): the Bessel tail past l = qD falls
+  like an Airy function, so the degree is qD + z (qD/2)^(1/3) + 4 with z
+  the depth at the node's own tolerance -- 0.1 rtol scaled by the node's
+  weight q^(d-1) S |F|^2 against the largest one (|a|^2 <= (int chi)^2
+  everywhere, so a node of small weight needs less relative accuracy).
+  It is chosen per band of q and checked against a rule of 3/4 the degree
+  on every fourth q node.
 * Amplitudes: for each band of q sharing a rule, e^{-i q n.x(t)} is advanced
-  from one q node to the next by one complex multiplication (starting from
-  a power of e^{-i h n.x}: one cos/sin pair per direction and time) and
-  contracted with
-  chi w_t e^{i(D + w_q)t} by a matrix product; work is split into chunks
-  of directions and q that fit in ``max_memory`` and run on threads.
+  from one q node to the next by one complex multiplication (two cos/sin
+  pairs per direction and time: the start and the step) and contracted with
+  chi w_t e^{i(D + w_q)t} by a real matrix product on the interleaved
+  (re, im) storage; directions are swept in cache-sized blocks over runs of
+  16 q nodes.  Work is split into chunks of directions and q that fit in
+  ``max_memory`` and run on threads.
 * If an error estimate exceeds its share of ``rtol`` that part is refined
   (h or dt halved, angular degree x 1.4, q_max x 1.5) and the whole sum
   recomputed, up to ``max_refinements`` times.  ``achieved_rtol`` is the
@@ -99,7 +109,8 @@ _QCHUNK = 64         # smallest q sub-range handed to one thread
 _ANGLE_SAMPLE = 4     # 3D angular check on every 4th q node
 _BREAKDOWN = 0.1      # probability above which first order is suspect
 _FLOOR = 1e-9         # relative floor for exponentially small channels
-_CHIRP = 5.0          # frequency margin in units of sqrt(q |a|)
+_BLOCK_BYTES = 1.0e6  # e^{-i q n.x} and its step factor per direction block
+_QBLOCK = 16          # q nodes per pass over the direction blocks
 
 
 @dataclass
@@ -263,10 +274,19 @@ def _ladder(n):
     return int(math.ceil(8 * 1.15 ** k))
 
 
-def _degree(x, factor):
-    """Angular degree for harmonic content x = q D: the Bessel functions
-    j_l(x) are negligible for l beyond x + a few x^(1/3)."""
-    return int(math.ceil(factor * (1.1 * x + 3.0 * np.cbrt(x)) + 6))
+def _airy_depth(eps):
+    """z with exp(-(4/3) z^(3/2)) = eps: how far (in units of the Airy scale)
+    past a turning point the squared Bessel tail |J_{x + z (x/2)^(1/3)}(x)|^2
+    (and the squared spectrum of a chirped phase past its band edge) has
+    fallen to eps."""
+    return (0.75 * math.log(1.0 / min(max(eps, 1e-300), 0.5))) ** (2.0 / 3.0)
+
+
+def _degree(x, factor, eps):
+    """Angular degree for harmonic content x = q D at relative accuracy eps:
+    the Bessel functions j_l(x) fall like an Airy tail past l = x, so
+    degrees beyond x + z(eps) (x/2)^(1/3) carry less than eps."""
+    return int(math.ceil(factor * (x + _airy_depth(eps) * np.cbrt(0.5 * x)) + 4))
 
 
 class _Geometry:
@@ -280,14 +300,14 @@ class _Geometry:
         self.spec_axis = spec_axis
 
 
-def _rule_spec(geom, q, factor, spectrum):
+def _rule_spec(geom, q, factor, spectrum, eps):
     """Hashable description of the angular rule needed up to wavenumber q.
     With a direction spectrum of nbins bins the rule also resolves the bins
     (cells no wider than a bin)."""
     d = geom.d
     if d == 1:
         return ("1d",)
-    L = _degree(q * geom.D, factor)
+    L = _degree(q * geom.D, factor, eps)
     nbins = spectrum if spectrum else 0
     if d == 2:
         n = _ladder(max(L + 1, 2 * nbins))
@@ -296,7 +316,7 @@ def _rule_spec(geom, q, factor, spectrum):
     nu = _ladder(max((L + 2) // 2 + 1, int(math.ceil(1.6 * nbins))))
     dperp = geom.Dperp_spec if spectrum else geom.Dperp
     xp = q * dperp
-    nphi = 1 if xp < 1e-9 else _ladder(_degree(xp, factor) - 2)
+    nphi = 1 if xp < 1e-9 else _ladder(_degree(xp, factor, eps) - 2)
     if spectrum:
         return ("prod", nu, nphi, True)
     order = next((o for o in _LEBEDEV_ORDERS if o >= L), None)
@@ -335,44 +355,54 @@ def _cis(x):
     return out
 
 
-def _power(z, n):
-    """z**n elementwise for an integer n >= 0 by repeated squaring (phase
-    error ~ n * 1e-16 for |z| = 1)."""
-    result = None
-    base = z.copy()
-    while n:
-        if n & 1:
-            result = base.copy() if result is None else result * base
-        n >>= 1
-        if n:
-            base *= base
-    return np.ones_like(z) if result is None else result
-
-
-def _amplitude_work(dirs, red, X, t, cols, q, h, omega, unit):
+def _amplitude_work(dirs, red, X, t, cols, q, h, omega):
     """Reductions R[i, r, c] = sum_j red[j, r] |a_c(q_i, n_j)|^2 with
     a_c(q, n) = sum_m cols[m, c] e^{i w(q) t_m} e^{-i q n.x_m}.
 
-    The nodes are q_i = (i0 + i s) unit (integers i0, s; h = s unit): with
-    E1 = e^{-i unit n.x} the start is E1^i0 and each step multiplies by
-    E1^s, so only one cos/sin pair per (direction, time) is evaluated."""
+    The nodes are q_i = q_0 + i h: e^{-i q_0 n.x} and the step factor
+    e^{-i h n.x} are evaluated once and each node multiplies by the step
+    (phase error ~ i * 1e-16).  The directions are swept in blocks small enough that a block's
+    e^{-i q n.x} and step factor stay in cache over a run of q nodes, and
+    the contraction over time is a real matrix product on the interleaved
+    (re, im) storage of e^{-i q n.x} (OpenBLAS's complex product with a
+    handful of columns runs at a fraction of its real one)."""
+    nJ, nt, nc = dirs.shape[0], t.size, cols.shape[1]
     P = dirs @ X.T                       # (nJ, Nt)
-    E1 = _cis(unit * P)
-    i0 = int(round(q[0] / unit))
-    step = int(round(h / unit))
-    Z = _power(E1, i0)
-    Eh = _power(E1, step) if step != 1 else E1
+    Z = _cis(q[0] * P)
+    Eh = _cis(h * P)
     del P
-    out = np.empty((q.size, red.shape[1], cols.shape[1]))
-    phase = np.empty(t.size, complex)
-    for i in range(q.size):
-        if i:
-            Z *= Eh
-        np.cos(omega[i] * t, out=phase.real)
-        np.sin(omega[i] * t, out=phase.imag)
-        A = Z @ (cols * phase[:, None])
-        E = A.real ** 2 + A.imag ** 2
-        out[i] = red.T @ E
+    Zv = Z.view(float)                   # (nJ, 2 Nt): re, im interleaved
+    out = np.empty((q.size, red.shape[1], nc))
+    blk = int(min(nJ, max(8, _BLOCK_BYTES // (32 * nt))))
+    redT = np.ascontiguousarray(red.T)
+    for q0 in range(0, q.size, _QBLOCK):
+        q1 = min(q.size, q0 + _QBLOCK)
+        nb = q1 - q0
+        ph = omega[q0:q1, None] * t[None, :]
+        C = np.empty(ph.shape, complex)
+        np.cos(ph, out=C.real)
+        np.sin(ph, out=C.imag)
+        C = C[:, :, None] * cols[None, :, :]            # (nb, Nt, nc)
+        # (zr + i zi)(cr + i ci): rows (zr, zi) against columns (re, im)
+        M = np.empty((nb, nt, 2, nc, 2))
+        M[:, :, 0, :, 0] = C.real
+        M[:, :, 0, :, 1] = C.imag
+        M[:, :, 1, :, 0] = -C.imag
+        M[:, :, 1, :, 1] = C.real
+        M = M.reshape(nb, 2 * nt, 2 * nc)
+        del C
+        A = np.empty((nb, nJ, 2 * nc))
+        for b0 in range(0, nJ, blk):
+            b1 = min(nJ, b0 + blk)
+            zb = Z[b0:b1]
+            zv = Zv[b0:b1]
+            eb = Eh[b0:b1]
+            for k in range(nb):
+                if q0 + k:
+                    zb *= eb
+                np.matmul(zv, M[k], out=A[k, b0:b1])
+        E = A[:, :, 0::2] ** 2 + A[:, :, 1::2] ** 2
+        np.matmul(redT[None, :, :], E, out=out[q0:q1])
     return out
 
 
@@ -396,7 +426,7 @@ def _run_bands(tasks, X, t, pool, workers, max_memory):
     omega) on the thread pool; returns one array R[i, r, c] per task."""
     items = []
     outs = []
-    for k, (rule, red, cols, q, h, omega, unit) in enumerate(tasks):
+    for k, (rule, red, cols, q, h, omega) in enumerate(tasks):
         outs.append(np.zeros((q.size, red.shape[1], cols.shape[1])))
         for dc, qi in _split_band(rule, red, cols, q, omega, t.size, workers, max_memory):
             items.append((k, dc, qi))
@@ -405,9 +435,9 @@ def _run_bands(tasks, X, t, pool, workers, max_memory):
 
     def job(item):
         k, dc, qi = item
-        rule, red, cols, q, h, omega, unit = tasks[k]
+        rule, red, cols, q, h, omega = tasks[k]
         return k, qi, _amplitude_work(rule.dirs[dc], red[dc], X, t, cols, q[qi], h,
-                                      omega[qi], unit)
+                                      omega[qi])
 
     results = pool.map(job, items) if (pool is not None and len(items) > 1) \
         else map(job, items)
@@ -627,9 +657,11 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
     _, V0 = _positions(trajectory, t_probe * tu, d, xi, c)
     vmax = float(np.sqrt((V0 ** 2).sum(axis=1)).max()) * 1.01
     # acceleration broadens the local frequency by ~ sqrt(q |a|) (a chirp of
-    # rate q a over its coherence time); included in the detuning cutoff
+    # rate q a over its coherence time); included in the detuning cutoff and
+    # the time step with the depth of its Airy-like tail at the tolerance
     A0 = np.asarray(trajectory.acceleration(t_probe * tu), float).reshape(t_probe.size, -1)
     amax = float(np.sqrt((A0 ** 2).sum(axis=1)).max()) * tu / c
+    chirp = _airy_depth(0.1 * rtol)
 
     # --- wavenumber cutoff ------------------------------------------------
     q_form = math.sqrt(math.log(1.0 / (1e-1 * rtol))) / s if s > 0 else math.inf
@@ -637,7 +669,7 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
         W = abs(Om) + bw
         if disp.bounded_windows or vmax < 1:
             q_res = _largest_root(lambda q: float(disp.omega(q)) - vmax * q - W
-                                  - _CHIRP * math.sqrt(q * amax), start=max(1.0, W))
+                                  - chirp * math.sqrt(q * amax), start=max(1.0, W))
         else:
             q_res = math.inf
     else:
@@ -652,15 +684,19 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
     if bw is None:
         bw = float(disp.omega(q_max)) + q_max * vmax
 
-    fac_t = fac_q = 1.0
-    ang_fac = 1.0
+    # starting resolution: the time step puts the sub-rule (2 dt) at the
+    # sampling bound of the frequencies that matter at rtol; the q step puts
+    # the full rule (not its 2h sub-rule) at the conjugate-length bound, which
+    # is a worst case (every lag of the switching window weighted fully), so
+    # the sub-rule check usually accepts it and refines h only when needed
+    fac_t, fac_q, ang_fac = 1.0, 0.5, 1.0
     history = []
     pool = ThreadPoolExecutor(max_workers=workers) if workers > 1 else None
     blas = _single_threaded_blas().__enter__()
     try:
         for attempt in range(max_refinements + 1):
             out = _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu,
-                            s, Tdl, Om, Ds, t_lo, t_hi, bw, corr, vmax, amax, q_max,
+                            s, Tdl, Om, Ds, t_lo, t_hi, bw, corr, vmax, amax, chirp, q_max,
                             fac_t, fac_q, ang_fac, rtol, spectrum, spectrum_bins,
                             pool, workers, max_memory)
             history.append(out["errors"])
@@ -769,13 +805,13 @@ def _spectrum_si(out, pref, xi, c, w0, d, has_gap, disp):
 
 
 def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, Tdl,
-              Om, Ds, t_lo, t_hi, bw, corr, vmax, amax, q_max, fac_t, fac_q, ang_fac,
+              Om, Ds, t_lo, t_hi, bw, corr, vmax, amax, chirp, q_max, fac_t, fac_q, ang_fac,
               rtol, spectrum, spectrum_bins, pool, workers, max_memory):
     """One pass at fixed resolution; returns values (dimensionless, units of
     A xi^-d (xi/c)^2), error estimates per part and channel, grids."""
     # --- time grid: 2 dt must clear the highest frequency plus bandwidth ---
     F = max(abs(Om) + float(disp.omega(q_max)) + q_max * vmax + bw
-            + _CHIRP * math.sqrt(q_max * amax), 1e-12)
+            + chirp * math.sqrt(q_max * amax), 1e-12)
     dt_target = math.pi / F / fac_t
     nt = max(8, int(math.ceil((t_hi - t_lo) / dt_target)))
     nt += nt % 2
@@ -829,7 +865,13 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
     # each node's rule is sized at its own q on a ladder of sizes, so a run
     # of equal specs (a band) is served by the rule of its largest node
     nbins_req = (edges.size - 1) if (spectrum and edges is not None) else 0
-    specs = [_rule_spec(geom, float(q), ang_fac, nbins_req if spectrum else 0) for q in qn]
+    # relative accuracy each node's angular integral needs, from the weight
+    # q^(d-1) S |F|^2 of the node against the largest one (|a|^2 is bounded
+    # by (int chi)^2 at every node); the angular check confirms it
+    wnode = (qeval ** (d - 1) * disp.structure_factor(qeval) * np.exp(-(qeval * s) ** 2))
+    eps_node = np.clip(0.1 * rtol * wnode.max() / np.maximum(wnode, 1e-300), 1e-16, 0.3)
+    specs = [_rule_spec(geom, float(q), ang_fac, nbins_req if spectrum else 0, float(e))
+             for q, e in zip(qn, eps_node)]
     starts = [0] + [i for i in range(1, nq + 1) if specs[i] != specs[i - 1]]
     bands = [np.arange(a, b) for a, b in zip(starts, starts[1:] + [nq + 1])]
     built = {}
@@ -859,17 +901,18 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
         if spectrum:
             reds.append(rule.bins)
         red = np.ascontiguousarray(np.concatenate(reds, axis=1))
-        tasks.append((rule, red, cols, qn[idx], h, omega[idx], h))
+        tasks.append((rule, red, cols, qn[idx], h, omega[idx]))
         meta.append(("main", idx))
         if d == 3:
             # angular check: a rule of 3/4 the degree on every 4th node
             sel = idx[::_ANGLE_SAMPLE]
-            cspec = _rule_spec(geom, float(qn[idx[-1]]), 0.75 * ang_fac, False)
+            cspec = _rule_spec(geom, float(qn[idx[-1]]), 0.75 * ang_fac, False,
+                               float(eps_node[idx].min()))
             if sel.size and cspec != spec:
                 crule = rule_of(cspec, False)
                 tasks.append((crule, np.ascontiguousarray(crule.weights[:, None]),
                               np.ascontiguousarray(cols[:, :nD]), qn[sel],
-                              _ANGLE_SAMPLE * h, omega[sel], h))
+                              _ANGLE_SAMPLE * h, omega[sel]))
                 meta.append(("check", sel))
     results = _run_bands(tasks, X, t, pool, workers, max_memory)
     checks = []
