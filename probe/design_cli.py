@@ -112,8 +112,9 @@ def sweep(config, vary, log, out, overrides, resume, workers, scheduler, plot, q
     n = result.data.shape[0]
     flagged = sum(1 for w in result.warnings if w)
     missing = sum(1 for w in result.warnings if w.startswith("no result"))
-    shape = " x ".join(str(s) for s in result.shape)
-    click.echo(f"wrote {out} ({shape} = {n} points, {len(result.columns)} columns) "
+    grid = f"{' x '.join(str(s) for s in result.shape)} = {n}" if len(result.shape) > 1 \
+        else f"{n}"
+    click.echo(f"wrote {out} ({grid} points, {len(result.columns)} columns) "
                f"and {sidecar_path(out)}")
     resumed = result.meta["evaluation"]["points_resumed"]
     if resumed:

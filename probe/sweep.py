@@ -54,7 +54,6 @@ import math
 import os
 import platform
 import re
-import sys
 import threading
 import time
 from dataclasses import dataclass, field
@@ -360,14 +359,14 @@ class Plan:
 
 def _vector_keys(raw, scenario):
     """Varied keys that may be passed to the engine as arrays here."""
-    keys = {"trajectory.speed": "speed"}
+    keys = ["trajectory.speed"]
     traj = raw.get("trajectory", {})
     if scenario.trajectory.stationary_kind == "circular" and "speed" in traj:
         # with angular_frequency given, the radius also sets the speed
-        keys["trajectory.radius"] = "radius"
+        keys.append("trajectory.radius")
     if scenario.probe.has_gap:
-        keys["probe.gap"] = "gap"
-    return keys
+        keys.append("probe.gap")
+    return {k: VECTOR_KEYS[k] for k in keys}
 
 
 def plan_sweep(config, vary, log=(), overrides=()):
@@ -647,11 +646,16 @@ def _worker_init():
 
 
 def _pool(workers):
+    """Worker processes: forked when this process runs a single thread (no
+    start-up imports), else from a fork server that has imported the engine
+    (forking a multi-threaded process is unsafe)."""
     import multiprocessing as mp
     from concurrent.futures import ProcessPoolExecutor
 
     methods = mp.get_all_start_methods()
-    if "forkserver" in methods:
+    if "fork" in methods and threading.active_count() == 1:
+        ctx = mp.get_context("fork")
+    elif "forkserver" in methods:
         ctx = mp.get_context("forkserver")
         ctx.set_forkserver_preload(["probe.sweep", "probe.engine", "probe.config"])
     else:
@@ -1009,7 +1013,9 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
     overrides : ``"section.key=value"`` strings applied first (as ``--set``)
     out : CSV path; rows are kept in ``out + ".partial"`` until the end
     resume : continue the partial file of an interrupted run of the same sweep
-    workers : local processes (1: in this process)
+    workers : local processes (1: in this process); a script that uses
+        several must start from an ``if __name__ == "__main__":`` block, as
+        usual for :mod:`multiprocessing`
     scheduler : address of a Dask scheduler (or a ``distributed.Client``)
     progress : callable receiving the number of points finished by each chunk
     chunk_size : points per task (default by trajectory kind)

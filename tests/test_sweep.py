@@ -272,7 +272,12 @@ def test_resume_after_the_process_is_killed(tmp_path):
 # ---------------------------------------------------------------------------
 # local worker processes
 # ---------------------------------------------------------------------------
-def test_workers_give_the_same_numbers(tmp_path):
+@pytest.mark.parametrize("threads", [None, 2], ids=["as-is", "threaded-parent"])
+def test_workers_give_the_same_numbers(tmp_path, monkeypatch, threads):
+    # a parent running other threads starts its workers from a fork server
+    if threads is not None:
+        import threading
+        monkeypatch.setattr(threading, "active_count", lambda: threads)
     one = sweep(RING, VARY_RING, out=tmp_path / "one.csv")
     two = sweep(RING, VARY_RING, out=tmp_path / "two.csv", workers=2, chunk_size=3)
     assert _same(one.data, two.data) and one.warnings == two.warnings
@@ -288,7 +293,7 @@ def test_cli_sweep_writes_the_table(tmp_path):
     r = CliRunner().invoke(cli, ["sweep", BOX, "--vary", "trajectory.speed=0.5c_s:3c_s:11",
                                  "--out", str(out), "--set", "probe.gap=200 Hz"])
     assert r.exit_code == 0, r.output
-    assert f"wrote {out} (11 = 11 points" in r.output
+    assert f"wrote {out} (11 points, 17 columns)" in r.output
     res = read_sweep(out)
     assert res.data.shape[0] == 11
     assert res.column("gap")[0] == pytest.approx(2 * math.pi * 200, rel=1e-15)
