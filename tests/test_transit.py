@@ -419,3 +419,36 @@ def test_input_checks_and_json():
     text = json.dumps(d)
     assert "up_probability" in text and d["spectrum"]["dN_dk"]
     assert d["achieved_rtol"] < 1e-3
+
+
+@pytest.mark.parametrize("kind", ["spline", "circular"])
+def test_loose_tolerance_is_met_and_its_error_estimate_bounds_the_error(kind):
+    """Curved paths at rtol = 1e-3 against the same transit at rtol = 1e-6:
+    the coarse grids must still land within 1e-3, and the reported error
+    must cover the actual deviation (the reference's own error aside)."""
+    cond = gas(3, 0.2 if kind == "circular" else 0.0)
+    w0, c, xi = cond.frequency_unit, cond.sound_speed, cond.healing_length
+    probe = two_level(cond, 0.5, 0.7)
+    if kind == "spline":
+        # a wobbling loop given as waypoints, switched over its span
+        s = np.linspace(0.0, 40.0, 400)
+        pos = np.stack([2 * np.cos(0.4 * s), 2 * np.sin(0.4 * s),
+                        0.3 * np.sin(1.2 * s)], axis=1) * xi
+        path = Spline(s / w0, pos)
+        sw = PathSpan(path)
+    else:
+        path = Circular(1.5 * xi, speed=0.9 * c)
+        sw = Gaussian(6.0 / w0)
+    loose = transit_probabilities(cond, probe, path, sw, rtol=1e-3)
+    tight = transit_probabilities(cond, probe, path, sw, rtol=1e-6)
+    assert tight.achieved_rtol < 1e-6
+    assert loose.achieved_rtol < 1e-3
+    for name in ("up_probability", "down_probability"):
+        ref, got = getattr(tight, name), getattr(loose, name)
+        dev = abs(got - ref)
+        assert dev <= 1e-3 * ref, (name, dev / ref)
+        assert getattr(loose, name + "_error") >= dev - getattr(tight, name + "_error"), name
+    # the loose run really is coarser (the grids follow the tolerance)
+    g, G = loose.grid, tight.grid
+    assert g["n_wavenumbers"] * g["n_times"] * g["max_directions"] < \
+        0.5 * G["n_wavenumbers"] * G["n_times"] * G["max_directions"]
