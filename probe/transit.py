@@ -408,11 +408,16 @@ def _amplitude_work(dirs, red, X, t, cols, q, h, omega):
 
 def _split_band(rule, red, cols, q, omega, nt, workers, max_memory):
     """Work items (directions slice, q indices) for one band: chunks of
-    directions that fit in max_memory per thread, and q sub-ranges when the
-    band has few direction chunks."""
+    directions that fit in max_memory per thread -- at least one per thread
+    when the rule is large enough (each chunk evaluates its own start and
+    step factors, so splitting the directions shares that cost out while
+    splitting q would repeat it) -- and q sub-ranges when the band still
+    has fewer direction chunks than threads."""
     N = rule.size
     per_dir = nt * 64.0                  # P, Eh, Z and temporaries, bytes
     nJ = int(max(1, min(N, max_memory / max(1, workers) / per_dir)))
+    if workers > 1 and N >= 16 * workers:
+        nJ = min(nJ, -(-N // workers))
     dir_chunks = [slice(a, min(N, a + nJ)) for a in range(0, N, nJ)]
     nq_chunks = 1
     if len(dir_chunks) < workers and q.size >= 2 * _QCHUNK:
