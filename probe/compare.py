@@ -56,9 +56,11 @@ class Variant:
     @property
     def quantities(self):
         cols = self.result.columns
-        if "up_rate" in cols:
-            return ["up_rate", "down_rate"]
-        return ["emission_rate"]
+        for names in (["up_rate", "down_rate"], ["up_probability", "down_probability"],
+                      ["emission_rate"], ["emitted_phonons"]):
+            if names[0] in cols:
+                return names
+        raise KeyError("no rate or probability column")
 
     @property
     def main(self):

@@ -176,7 +176,8 @@ def threshold_table(config, vary=(), log=(), overrides=()):
 # ---------------------------------------------------------------------------
 #: results that may be targeted (column of the sweep)
 TARGETS = ("up_rate", "down_rate", "effective_temperature", "excited_population",
-           "emission_rate", "absorption_rate", "drag_force", "power")
+           "emission_rate", "absorption_rate", "drag_force", "power",
+           "up_probability", "down_probability", "emitted_phonons")
 #: quantities of finite transits (not available from scenario files yet)
 TRANSIT_TARGETS = ("up_probability", "down_probability")
 
@@ -213,9 +214,10 @@ class Solution:
         return f"{value:.10g} {self.unit}".rstrip() + f"  ({extra})"
 
     def summary(self):
+        qu = "" if self.quantity_unit == "1" else f" {self.quantity_unit}"
         lines = [f"{self.key} = {self._text(self.value)}",
-                 f"  gives {self.quantity} = {self.achieved:.8g} {self.quantity_unit} "
-                 f"(target {self.target:.8g} {self.quantity_unit})",
+                 f"  gives {self.quantity} = {self.achieved:.8g}{qu} "
+                 f"(target {self.target:.8g}{qu})",
                  f"  searched {self.scan[0]} .. {self.scan[1]} ({self.scan[2]} scan "
                  f"points, then Brent's method)"]
         for v in self.others:
@@ -234,10 +236,10 @@ def parse_target(text, columns, units):
         raise InputError("--target", f"expected QUANTITY=VALUE such as 'up_rate=50' "
                                      f"or 'up_rate=50 1/s', got {text!r}")
     name, value = (t.strip() for t in text.split("=", 1))
-    if name in TRANSIT_TARGETS:
+    if name in TRANSIT_TARGETS and name not in columns:
         raise InputError("--target", f"{name} is a probability of a finite transit; "
-                                     "scenario files describe stationary motion, "
-                                     "whose result is a rate (e.g. up_rate)")
+                                     "this scenario is stationary motion, whose "
+                                     "result is a rate (e.g. up_rate)")
     allowed = [t for t in TARGETS if t in columns]
     if name not in allowed:
         raise InputError("--target", f"{name!r} is not a result of this scenario; "

@@ -73,6 +73,7 @@ QUANTITY_LABELS = {
     "up_threshold_speed": r"threshold speed $v_\mathrm{th}$",
     "harmonics": "harmonics summed",
     "mach": "$v/c_s$",
+    "emitted_phonons": "emitted phonons",
     "up_probability": r"up probability $P_\uparrow$",
     "down_probability": r"down probability $P_\downarrow$",
 }
@@ -181,7 +182,8 @@ def _coords(result, axis):
     """(values to plot for every point, label, factor, is_speed_in_cs) of a
     grid axis."""
     if axis.relative:
-        return result.column("mach"), "speed $v/c_s$", 1.0, True
+        return (result.column(axis.key) / result.column("sound_speed"),
+                "speed $v/c_s$", 1.0, True)
     si = result.column(axis.key)
     unit = result.unit(axis.key)
     f, shown = display_unit(axis.kind, unit, si)
@@ -209,6 +211,8 @@ def _default_quantities(columns):
         return ["up_rate", "down_rate"]
     if "up_probability" in columns:
         return ["up_probability", "down_probability"]
+    if "emitted_phonons" in columns:
+        return ["emitted_phonons"]
     return ["emission_rate", "absorption_rate"]
 
 
@@ -364,7 +368,8 @@ def plot_lines(result, path=None, quantities=None):
         ax.set_ylabel(axis_label(quantities[0], shown_unit))
     else:
         ax.set_ylabel(f"rate [{pretty_unit(shown_unit)}]" if unit == "1/s" else
-                      (f"[{pretty_unit(shown_unit)}]" if shown_unit else "value"))
+                      "probability" if unit == "1" and quantities[0].endswith("probability")
+                      else (f"[{pretty_unit(shown_unit)}]" if shown_unit else "value"))
     bad = np.array([w.startswith("no result") for w in result.warnings])
     _no_result_strip(ax, x, bad, "no result", HATCHES[0], 0)
     if ax_.kind == "speed":
@@ -608,7 +613,8 @@ def plot_comparison(cmp, path=None):
             _mark_speed(ax, x_cs, factor, c, vt)
             _second_speed_axis(ax, x_cs, factor, c)
     ax.set_xlabel(xlabel)
-    ax.set_ylabel(f"rate [{pretty_unit(unit)}]" if unit == "1/s" else f"[{pretty_unit(unit)}]")
+    ax.set_ylabel(f"rate [{pretty_unit(unit)}]" if unit == "1/s" else
+                  "probability or phonon number" if unit == "1" else f"[{pretty_unit(unit)}]")
     ax.grid(True, which="major", color="0.85", linewidth=0.6)
     _nice_log_ticks(ax)
     handles, labels = ax.get_legend_handles_labels()

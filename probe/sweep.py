@@ -37,9 +37,11 @@ appears at ``OUT`` in one rename, and a JSON sidecar (``OUT`` with suffix
 ``.json``) records the configuration, the grid, the columns with units and
 the versions of the tool and its libraries.
 
-Finite transits (probabilities rather than rates) plug in through
-:func:`evaluator_for`; scenario files describe stationary motion only, so
-sweeps compute rates.
+Finite transits.  When the scenario is a switched transit
+(``Scenario.is_transit``) every point is one transit and the columns are
+probabilities (``up_probability``, ``down_probability`` or
+``emitted_phonons``) instead of rates; evaluators are chosen by
+:func:`evaluator_for`.
 """
 from __future__ import annotations
 
@@ -83,6 +85,13 @@ NUMERIC_KEYS = {
     "trajectory.radius": "length",
     "trajectory.angular_frequency": "angular_frequency",
     "numerics.rtol": "dimensionless",
+    # finite transits (keys known once scenario files describe switching)
+    "trajectory.switching_width": "time",
+    "trajectory.switching_centre": "time",
+    "trajectory.ramp": "time",
+    "trajectory.stop": "time",
+    "trajectory.max_speed": "speed",
+    "numerics.transit_rtol": "dimensionless",
 }
 
 #: keys whose values the engine takes as arrays (name of the engine argument)
@@ -359,6 +368,8 @@ class Plan:
 
 def _vector_keys(raw, scenario):
     """Varied keys that may be passed to the engine as arrays here."""
+    if not evaluator_for(scenario).vectorised:
+        return {}
     keys = ["trajectory.speed"]
     traj = raw.get("trajectory", {})
     if scenario.trajectory.stationary_kind == "circular" and "speed" in traj:
@@ -421,10 +432,12 @@ class RatesEvaluator:
     or circular motion; the engine takes speeds, radii and gaps as arrays."""
 
     name = "rates"
+    vectorised = True
 
     @staticmethod
     def applies(scenario):
-        return bool(getattr(scenario.trajectory, "stationary", False))
+        return (bool(getattr(scenario.trajectory, "stationary", False))
+                and not getattr(scenario, "is_transit", False))
 
     @staticmethod
     def columns(scenario):
@@ -535,9 +548,61 @@ def _point_result(res, i):
     return point
 
 
-#: evaluators tried in order; a finite-transit evaluator (probabilities) is
-#: registered here once scenario files can describe a transit
-EVALUATORS = [RatesEvaluator()]
+class TransitEvaluator:
+    """First-order probabilities of a finite transit (a scenario whose
+    coupling is switched: ``Scenario.is_transit``), one transit per point
+    through ``Scenario.transit()`` (:mod:`probe.transit`)."""
+
+    name = "transit"
+    vectorised = False
+
+    @staticmethod
+    def applies(scenario):
+        return bool(getattr(scenario, "is_transit", False)) and hasattr(scenario, "transit")
+
+    @staticmethod
+    def columns(scenario):
+        d = scenario.condensate.dimension
+        cols = [("sound_speed", "m/s"), ("healing_length", "m"),
+                ("density", si_unit("density", d)), ("temperature", "K")]
+        if scenario.probe.has_gap:
+            cols += [("gap", "rad/s"), ("up_probability", "1"),
+                     ("up_probability_error", "1"), ("down_probability", "1"),
+                     ("down_probability_error", "1"), ("emitted_phonons", "1"),
+                     ("emitted_phonons_excited", "1")]
+        else:
+            cols += [("emitted_phonons", "1"), ("emitted_phonons_error", "1"),
+                     ("absorbed_phonons", "1")]
+        cols += [("emitted_energy", "J"), ("achieved_rtol", "1")]
+        return cols
+
+    def evaluate(self, scenario, arrays, n):
+        cond = scenario.condensate
+        cols = [c for c, _ in self.columns(scenario)]
+        out = np.full((n, len(cols)), np.nan)
+        warns = [[] for _ in range(n)]
+        for i in range(n):
+            row = out[i]
+            row[0:4] = (cond.sound_speed, cond.healing_length, cond.density,
+                        cond.temperature)
+            if "gap" in cols:
+                row[cols.index("gap")] = float(scenario.probe.gap)
+            try:
+                res = scenario.transit()
+            except ModelError as exc:
+                warns[i].append(f"no result: {exc.key}: {exc.message}")
+                continue
+            for j, c in enumerate(cols[4:], start=4):
+                if c == "gap":
+                    continue
+                v = getattr(res, c, None)
+                row[j] = np.nan if v is None else float(v)
+            warns[i] = list(res.warnings or [])
+        return out, warns
+
+
+#: evaluators tried in order: the first whose ``applies(scenario)`` holds
+EVALUATORS = [TransitEvaluator(), RatesEvaluator()]
 
 
 def evaluator_for(scenario):
@@ -546,8 +611,9 @@ def evaluator_for(scenario):
         if ev.applies(scenario):
             return ev
     raise InputError("trajectory.kind",
-                     "sweeps compute stationary rates for uniform straight or "
-                     "circular motion; this trajectory is not stationary")
+                     "sweeps compute stationary rates of uniform straight or "
+                     "circular motion, or probabilities of a switched transit; "
+                     "this trajectory is neither")
 
 
 # ---------------------------------------------------------------------------
@@ -1193,6 +1259,7 @@ COLUMN_KINDS = {
     "emission_rate": "rate", "emission_rate_error": "rate", "absorption_rate": "rate",
     "drag_force": "force", "power": "power", "harmonics": "dimensionless",
     "up_probability": "dimensionless", "down_probability": "dimensionless",
+    "emitted_phonons": "dimensionless", "emitted_energy": "energy",
 }
 
 
@@ -1244,5 +1311,6 @@ def axis_value_text(axis, value_si, sound_speed=None):
 __all__ = ["sweep", "plan_sweep", "SweepResult", "Axis", "read_sweep",
            "parse_vary", "make_axis", "evaluate_point", "NUMERIC_KEYS",
            "VECTOR_KEYS", "EVALUATORS", "evaluator_for", "RatesEvaluator",
+           "TransitEvaluator",
            "library_versions", "sidecar_path", "write_csv", "si_unit",
            "display_unit", "format_value", "column_kind", "assign", "value_text"]

@@ -372,3 +372,37 @@ def test_partial_header_checked_on_resume(tmp_path):
     with pytest.raises(InputError, match="header"):
         p.open()
     assert os.path.exists(partial)
+
+
+# ---------------------------------------------------------------------------
+# finite transits: probabilities instead of rates
+# ---------------------------------------------------------------------------
+CROSS = EXAMPLES / "cross3d_gaussian.toml"
+
+
+def _transit_scenarios():
+    from probe.config import Scenario
+    if not hasattr(Scenario, "is_transit") or not CROSS.exists():
+        pytest.skip("scenario files do not describe switched transits here")
+
+
+def test_a_transit_sweep_gives_the_probabilities_of_each_transit(tmp_path):
+    _transit_scenarios()
+    out = tmp_path / "transit.csv"
+    res = sweep(str(CROSS), ["trajectory.switching_width=1ms:2ms:2",
+                             "trajectory.speed=1.2c_s:1.8c_s:2"], out=out)
+    assert "up_probability" in res.columns and "up_rate" not in res.columns
+    assert res.unit("trajectory.switching_width") == "s"
+    for i in range(4):
+        tau = float(res.column("trajectory.switching_width")[i])
+        mach = float(res.column("trajectory.speed")[i] / res.column("sound_speed")[i])
+        ref = load_config(str(CROSS), [f"trajectory.switching_width={tau!r} s",
+                                       f"trajectory.speed={mach!r} c_s"]).transit()
+        assert res.column("up_probability")[i] == ref.up_probability
+        assert res.column("down_probability")[i] == ref.down_probability
+        assert _warnings(res.warnings[i]) == ref.warnings
+    # a longer pulse gives the probe more time: larger probabilities
+    p = res.grid("down_probability")
+    assert np.all(p[1] > p[0])
+    header = next(csv.reader(out.open()))
+    assert "up_probability [1]" in header and "trajectory.switching_width [s]" in header
