@@ -269,6 +269,28 @@ def test_resume_after_the_process_is_killed(tmp_path):
     assert out.read_bytes() == ref.read_bytes()
 
 
+def test_ctrl_c_keeps_the_rows_and_says_how_to_resume(tmp_path):
+    vary = ["--vary", "trajectory.speed=0.3c_s:1.2c_s:30",
+            "--vary", "trajectory.radius=2um:6um:24"]
+    out = tmp_path / "int.csv"
+    partial = Path(str(out) + ".partial")
+    exe = [sys.executable, "-c", "import sys; from probe.cli import main; sys.exit(main())"]
+    proc = subprocess.Popen(exe + ["sweep", RING, *vary, "--out", str(out)],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline and proc.poll() is None:
+        if partial.exists() and partial.read_bytes().count(b"\n") > 40:
+            break
+        time.sleep(0.005)
+    assert proc.poll() is None, "the sweep ended before it could be interrupted"
+    proc.send_signal(signal.SIGINT)
+    stdout, stderr = proc.communicate(timeout=60)
+    assert proc.returncode == 130
+    assert "interrupted: finished rows are kept in" in stderr and "--resume" in stderr
+    assert "Traceback" not in stderr
+    assert not out.exists() and partial.read_bytes().count(b"\n") > 40
+
+
 # ---------------------------------------------------------------------------
 # local worker processes
 # ---------------------------------------------------------------------------
