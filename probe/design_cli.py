@@ -82,10 +82,12 @@ def _interrupted(out):
 @click.option("--plot", "plot", metavar="FILE", default=None,
               help="Also draw the result (PNG, PDF or SVG by extension).")
 @click.option("--quantity", metavar="NAME", default=None,
-              help="Column to plot (default: up/down rates or emission rate).")
+              help="Column to plot (default: up/down rates or probabilities, or "
+                   "the emission rate).")
 def sweep(config, vary, log, out, overrides, resume, workers, scheduler, plot, quantity):
-    """Rates on a 1D or 2D grid over numeric configuration keys, written to
-    a CSV whose header names every column with its unit."""
+    """Rates (probabilities for a switched transit) on a 1D or 2D grid over
+    numeric configuration keys, written to a CSV whose header names every
+    column with its unit."""
     from .sweep import plan_sweep, sidecar_path, sweep as run
 
     errors = _errors()
