@@ -288,7 +288,7 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
     from .config import scenario_from_dict
 
     raw, source = _raw_config(config, overrides)
-    plan = plan_sweep(raw, vary, log)
+    plan = plan_sweep(raw, vary, log, source=source)
     base = plan.scenario
     varied = {a.key for a in plan.axes}
     if models is not None:
@@ -302,15 +302,13 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
     variants = [Variant("configured", _describe(raw, base), "", raw)]
     for comp, name, label, r in specs:
         try:
-            scenario_from_dict(r)
-            plan_v = plan_sweep(r, vary, log)
+            scenario_from_dict(r, source=source)
+            plan_v = plan_sweep(r, vary, log, source=source)
         except InputError as exc:
             raise InputError(exc.key, f"{label}: {exc.message}") from None
         variants.append(Variant(name, label, comp, r))
         variants[-1].plan = plan_v
     variants[0].plan = plan
-    for v in variants:
-        v.plan.source = source
     for v in variants:
         v.result = sweep(v.plan, (), workers=workers, scheduler=scheduler)
     cmp = Comparison(variants=variants, axes=plan.axes, shape=plan.shape,

@@ -131,7 +131,7 @@ def threshold_table(config, vary=(), log=(), overrides=()):
         vary = [("probe.gap", f"{gap / GAP_SPAN!r} rad/s", f"{gap * GAP_SPAN!r} rad/s",
                  GAP_POINTS)]
         log = ("probe.gap",)
-    plan = plan_sweep(raw, vary, log)
+    plan = plan_sweep(raw, vary, log, source=source)
     keys = [a.key for a in plan.axes]
     if keys != ["probe.gap"]:
         raise InputError("--vary", f"threshold tabulates versus probe.gap only, got "
@@ -311,7 +311,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
                                         "to search around)")
         unit = si_unit(NUMERIC_KEYS[key], base.condensate.dimension)
         lo, hi = f"{v0 / VALUE_SPAN!r} {unit}", f"{v0 * VALUE_SPAN!r} {unit}"
-    plan = plan_sweep(raw, [(key, lo, hi, 2)], ())
+    plan = plan_sweep(raw, [(key, lo, hi, 2)], (), source=source)
     ax = plan.axes[0]
     a, b = float(ax.values[0]), float(ax.values[-1])
     if a == b:
@@ -320,7 +320,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
         lo, hi, a, b = hi, lo, b, a
     use_log = a > 0 and b / a >= 100
     scan = sweep(raw, [(key, lo, hi, int(scan_points))],
-                 log=(key,) if use_log else ())
+                 log=(key,) if use_log else (), source=source)
     qname, goal = parse_target(target, scan.columns, scan.units)
     qunit = scan.unit(qname)
     x = scan.axes[0].values
@@ -331,7 +331,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
         return float(v) if ax.kind == "dimensionless" else f"{float(v)!r} {unit_text}"
 
     def g(v):
-        cols, _, row, _ = evaluate_point(raw, {key: text(v)})
+        cols, _, row, _ = evaluate_point(raw, {key: text(v)}, source=source)
         val = row[cols.index(qname)]
         if not math.isfinite(val):
             raise InputError(key, f"{qname} has no finite value at {text(v)}")
@@ -375,7 +375,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
         raise InputError("--target", f"{qname} only jumps across {goal:.6g} {qunit} "
                                      f"in [{lo}, {hi}]; no value gives it exactly")
     best = values[0]
-    cols, units, row, warns = evaluate_point(raw, {key: text(best)})
+    cols, units, row, warns = evaluate_point(raw, {key: text(best)}, source=source)
     c = float(row[cols.index("sound_speed")])
     si_val = best * c if ax.relative else best
     others = [v * c if ax.relative else v for v in values[1:]]

@@ -322,12 +322,13 @@ def _vary_entries(vary):
 # ---------------------------------------------------------------------------
 # Planning
 # ---------------------------------------------------------------------------
-def _raw_config(config, overrides=()):
-    """(raw dict after overrides, source) for a path or a dict."""
+def _raw_config(config, overrides=(), source=None):
+    """(raw dict after overrides, source) for a path or a dict (whose
+    ``source``, the file it came from, locates relative paths in it)."""
     from .config import override, read_toml
 
     if isinstance(config, dict):
-        raw, source = copy.deepcopy(config), None
+        raw = copy.deepcopy(config)
     else:
         raw, source = read_toml(config), os.fspath(config)
     for assignment in overrides:
@@ -380,12 +381,13 @@ def _vector_keys(raw, scenario):
     return {k: VECTOR_KEYS[k] for k in keys}
 
 
-def plan_sweep(config, vary, log=(), overrides=()):
+def plan_sweep(config, vary, log=(), overrides=(), source=None):
     """Check a sweep request and return its :class:`Plan` (nothing is
-    computed).  Raises InputError for any bad key, value or combination."""
+    computed).  Raises InputError for any bad key, value or combination.
+    ``source`` names the file a dict ``config`` came from."""
     from .config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides)
+    raw, source = _raw_config(config, overrides, source)
     base = scenario_from_dict(raw, source=source)
     entries = _vary_entries(vary)
     if not entries:
@@ -623,29 +625,29 @@ _SCENARIO_LOCK = threading.Lock()
 
 
 @functools.lru_cache(maxsize=64)
-def _scenario(raw_json, group):
+def _scenario(raw_json, source, group):
     from .config import scenario_from_dict
 
     raw = json.loads(raw_json)
-    return scenario_from_dict(assign(raw, dict(group)))
+    return scenario_from_dict(assign(raw, dict(group)), source=source)
 
 
-def _group_scenario(raw_json, group):
+def _group_scenario(raw_json, source, group):
     # pint's registry is not meant for concurrent use: one build at a time
     with _SCENARIO_LOCK:
-        return _scenario(raw_json, group)
+        return _scenario(raw_json, source, group)
 
 
 def run_task(task):
-    """Evaluate one task: ``(raw_json, pieces)`` with pieces
+    """Evaluate one task: ``(raw_json, source, pieces)`` with pieces
     ``(group, axes, index)``; ``group`` is a tuple of (key, config value) for
     the axes set through the configuration, ``axes`` a tuple of
     (key, engine argument or None, relative, values) for every axis.
     Returns a list of (index, rows, warnings)."""
-    raw_json, pieces = task
+    raw_json, source, pieces = task
     out = []
     for group, axes, index in pieces:
-        scenario = _group_scenario(raw_json, group)
+        scenario = _group_scenario(raw_json, source, group)
         n = len(index)
         c = scenario.condensate.sound_speed
         arrays, axis_cols = {}, []
@@ -680,7 +682,7 @@ def _tasks(plan, indices, chunk):
     def flush():
         nonlocal current, filled
         if current:
-            tasks.append((raw_json, tuple(current)))
+            tasks.append((raw_json, plan.source, tuple(current)))
         current, filled = [], 0
 
     start = 0
@@ -1065,7 +1067,7 @@ class _Partial:
 # ---------------------------------------------------------------------------
 def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
           workers=1, scheduler=None, progress=None, chunk_size=None,
-          command=None):
+          command=None, source=None):
     """Evaluate the rates on a grid.
 
     Parameters
@@ -1086,10 +1088,12 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
     progress : callable receiving the number of points finished by each chunk
     chunk_size : points per task (default by trajectory kind)
     command : the command line, recorded in the sidecar
+    source : the file a dict ``config`` came from (locates relative paths)
 
     Returns a :class:`SweepResult` (SI units).
     """
-    plan = config if isinstance(config, Plan) else plan_sweep(config, vary, log, overrides)
+    plan = config if isinstance(config, Plan) else plan_sweep(config, vary, log, overrides,
+                                                              source=source)
     workers = 1 if workers is None else int(workers)
     if workers < 1:
         raise InputError("--workers", f"must be at least 1, got {workers}")
@@ -1110,8 +1114,12 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
             done[idx] = True
     todo = np.nonzero(~done)[0]
     if chunk_size is None:
-        chunk_size = CHUNK_CIRCULAR if plan.scenario.trajectory.stationary_kind == \
-            "circular" else CHUNK_INERTIAL
+        if not evaluator_for(plan.scenario).vectorised:
+            chunk_size = 1                 # a transit per point: seconds each
+        elif plan.scenario.trajectory.stationary_kind == "circular":
+            chunk_size = CHUNK_CIRCULAR
+        else:
+            chunk_size = CHUNK_INERTIAL
         if workers > 1 and todo.size:
             chunk_size = max(1, min(chunk_size, math.ceil(todo.size / (4 * workers))))
     chunk_size = max(1, int(chunk_size))
@@ -1222,13 +1230,13 @@ def read_sweep(path):
 # ---------------------------------------------------------------------------
 # Single evaluations (used by solve)
 # ---------------------------------------------------------------------------
-def evaluate_point(config, values, overrides=()):
+def evaluate_point(config, values, overrides=(), source=None):
     """Rates for one point: ``values`` maps numeric keys to configuration
     values (strings with units or SI floats).  Returns ``(columns, units,
     row, warnings)`` like one row of a sweep."""
     from .config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides)
+    raw, source = _raw_config(config, overrides, source)
     for key in values:
         check_numeric_key(key)
     sc_ = scenario_from_dict(assign(raw, values), source=source)

@@ -428,3 +428,15 @@ def test_a_transit_sweep_gives_the_probabilities_of_each_transit(tmp_path):
     assert np.all(p[1] > p[0])
     header = next(csv.reader(out.open()))
     assert "up_probability [1]" in header and "trajectory.switching_width [s]" in header
+
+
+def test_a_spline_transit_reads_its_waypoint_file_from_any_folder(tmp_path, monkeypatch):
+    _transit_scenarios()
+    spline = EXAMPLES / "stir2d_spline.toml"
+    if not spline.exists():
+        pytest.skip("no spline scenario here")
+    monkeypatch.chdir(tmp_path)              # the waypoint file is relative to the scenario
+    res = sweep(str(spline), ["probe.gap=50Hz:100Hz:2"], workers=2)
+    for i, g in enumerate(res.column("probe.gap")):
+        ref = load_config(str(spline), [f"probe.gap={float(g)!r} rad/s"]).transit()
+        assert res.column("up_probability")[i] == ref.up_probability
