@@ -230,3 +230,4 @@ def main(argv=None):
 if __name__ == "__main__":  # pragma: no cover
     sys.exit(main())
 from . import design_cli  # noqa: E402,F401
+from . import transit_cli  # noqa: E402,F401

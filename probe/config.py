@@ -414,6 +414,17 @@ class Scenario:
     probe_mass: float | None = None
     probe_species: str | None = None
     extra: dict = field(default_factory=dict)
+    switching: object = None          # finite transits: probe/transit_config.py
+    transit_rtol: float = 1e-4
+
+    @property
+    def is_transit(self):
+        """True for a switched transit (spline path, or a switching function)."""
+        return self.switching is not None
+
+    def transit(self, spectrum=False, workers=None):
+        """First-order transit probabilities (a :class:`TransitResult`)."""
+        return _transit.run_transit(self, spectrum=spectrum, workers=workers)
 
     def describe(self):
         """Inputs and derived quantities as a dict of SI values (JSON safe)."""
@@ -437,7 +448,8 @@ class Scenario:
             "species": self.probe_species,
         }
         traj = {"kind": self.raw["trajectory"]["kind"]}
-        for k, v in self.trajectory.stationary_parameters().items():
+        for k, v in (self.trajectory.stationary_parameters().items()
+                     if self.trajectory.stationary else ()):
             traj[k] = float(v)
         derived = {
             "chemical_potential": cond.chemical_potential,
@@ -459,13 +471,14 @@ class Scenario:
         from .engine import stationary_rates
         from .regime import regime_warnings
 
+        notes = _transit.rates_notes(self)   # raises for a path with no rate
         result = stationary_rates(self.condensate, self.probe, self.trajectory,
                                   rtol=self.rtol)
         existing = list(result.warnings or [])
         for w in regime_warnings(self.condensate, self.probe, result):
             if w not in existing:
                 existing.append(w)
-        result.warnings = existing
+        result.warnings = existing + notes
         return result
 
 
@@ -477,11 +490,13 @@ def scenario_from_dict(raw, overrides=(), source=None):
     raw = copy.deepcopy(raw)
     cond, species = build_condensate(raw["condensate"])
     probe, probe_mass, probe_species = build_probe(raw["probe"], cond, species)
-    trajectory = build_trajectory(raw["trajectory"], cond)
+    trajectory, switching = _transit.build_path(raw["trajectory"], cond, source)
     rtol = _rtol(raw)
     return Scenario(condensate=cond, probe=probe, trajectory=trajectory,
                     rtol=rtol, raw=raw, source=source, species=species,
-                    probe_mass=probe_mass, probe_species=probe_species)
+                    probe_mass=probe_mass, probe_species=probe_species,
+                    switching=switching,
+                    transit_rtol=_transit.transit_rtol(raw, trajectory))
 
 
 def load_config(path, overrides=()):
@@ -498,3 +513,10 @@ def rates_from_config(path_or_dict, overrides=()):
     else:
         scenario = load_config(path_or_dict, overrides)
     return scenario.rates()
+
+
+# Finite transits (spline paths, switching): keys and builders in transit_config
+from . import transit_config as _transit  # noqa: E402
+
+for _section, _keys in _transit.SCHEMA_KEYS.items():
+    SCHEMA[_section].update(_keys)

@@ -1,0 +1,347 @@
+"""``probe transit CONFIG [CONFIG ...] [--json] [--spectrum FILE.csv] [--set ...]``.
+
+First-order probabilities of finite transits (a spline path, or a linear or
+circular path with a switching function; keys in
+:mod:`probe.transit_config`).  Registered on the ``probe`` click group when
+``probe.cli`` is imported.
+
+``--spectrum FILE.csv`` writes the emitted-phonon distribution of the
+``emitted_phonons`` channel (the probe starting in its ground state; the
+density probe's emission) to two CSV files.  Lines starting with ``#`` are
+comments (what was computed, totals); the first other line names every column
+with its unit in square brackets (``[1]``: a pure number).
+
+* ``FILE.csv``, over the wavenumber k (one row per quadrature node):
+  ``k [1/m], energy [J], dk [1/m], dN_dk [m], dN_dE [1/J]`` and, for a
+  two-level probe, ``dN_dk_excited [m]`` (starting excited).  ``dk`` is the
+  node's quadrature weight (the node spacing, end-corrected at k = 0), so
+  ``sum(dN_dk * dk)`` over the rows is ``emitted_phonons``.
+* ``FILE.directions.csv`` (``.directions`` inserted before the suffix), over
+  directions, bin averages: 3D ``cos_theta_low [1], cos_theta_high [1],
+  cos_theta [1], dN_dcos_theta [1]`` with theta the polar angle from the
+  axis given in the comments (the mean-velocity direction, or z); 2D
+  ``phi_low [rad], phi_high [rad], phi [rad], dN_dphi [1/rad]`` with phi
+  measured counter-clockwise from the axis; 1D ``direction [sign of k_x],
+  dN [1]`` (forward and backward rows).  ``*_excited`` columns as above.
+  ``sum(density * (high - low))`` is ``emitted_phonons``.
+
+Both are written to ``*.partial`` and renamed when complete, so an error or
+an interrupt never leaves a half-written file.  Bad input ends with
+``error: <key>: <message>`` and exit status 2.
+"""
+from __future__ import annotations
+
+import json
+import math
+import os
+from pathlib import Path
+
+import click
+from scipy import constants as sc
+
+from .cli import _fail, _input_errors, _num, _q, _rows_derived, _rows_inputs, cli
+from .errors import InputError
+from .transit_config import _fmt_time, check_transit, describe
+
+_SET_HELP = ("Override a configuration entry, e.g. --set 'trajectory.switching_width=3 ms'. "
+             "Repeatable; applied to every CONFIG.")
+
+
+# ---------------------------------------------------------------------------
+# derived numbers shared by the table and JSON
+# ---------------------------------------------------------------------------
+def _extras(scenario, result, info):
+    sw = info["switching"]
+    teff = sw["effective_duration"]
+    out = {"transit_duration": sw["transit_duration"],
+           "switching_on": sw["on_interval"],
+           "effective_duration": teff}
+    if result.model == "density":
+        out["mean_emission_rate"] = result.emitted_phonons / teff
+    else:
+        out["mean_up_rate"] = result.up_probability / teff
+        out["mean_down_rate"] = result.down_probability / teff
+    return out
+
+
+def _pm(value, err, unit=""):
+    text = f"{_num(value)}{' ' + unit if unit else ''}"
+    if err is not None:
+        text += f"  (+/- {_num(err, 2)}{' ' + unit if unit else ''})"
+    return text
+
+
+# ---------------------------------------------------------------------------
+# table
+# ---------------------------------------------------------------------------
+def _rows_path(scenario, info):
+    cond = scenario.condensate
+    c, xi = cond.sound_speed, cond.healing_length
+    trj = info["trajectory"]
+    if scenario.trajectory.stationary:
+        # the gas, probe and path rows of `probe rates`
+        return _rows_inputs(scenario, info)
+    stand_in = dict(info, trajectory={"kind": trj["kind"], "speed": trj["max_speed"]})
+    rows = []
+    for label, value in _rows_inputs(scenario, stand_in):
+        if label == "trajectory":
+            break
+        rows.append((label, value))
+    where = f", from {trj['file']}" if "file" in trj else " (inline)"
+    t0, t1 = trj["time_span"]
+    rows += [("trajectory", f"spline of order {trj['order']} through "
+                            f"{trj['waypoints']} waypoints{where}"),
+             ("path time span", f"{_fmt_time(t0, t1 - t0)} .. {_fmt_time(t1, t1 - t0)}  "
+                                f"({_fmt_time(t1 - t0)}, {_num((t1 - t0) * cond.frequency_unit)}"
+                                " xi/c)"),
+             ("path length", f"{_q(trj['path_length'], 'um', 1e-6)}  "
+                             f"({_num(trj['path_length'] / xi)} xi)"),
+             ("start -> end point", f"{_q(trj['start_point'], 'um', 1e-6)} -> "
+                                    f"{_q(trj['end_point'], 'um', 1e-6)}"),
+             ("max speed", f"{_q(trj['max_speed'], 'm/s')}  "
+                           f"({_num(trj['max_speed'] / c)} c_s)"),
+             ("max acceleration", _q(trj["max_acceleration"], "m/s^2"))]
+    return rows
+
+
+def _rows_switching(scenario, info):
+    sw = info["switching"]
+    if sw["kind"] == "gaussian":
+        what = (f"gaussian, width tau = {_fmt_time(sw['width'])}, centre "
+                f"t = {_fmt_time(sw['centre'], sw['width'])}")
+    else:
+        span = sw["stop"] - sw["start"]
+        what = (f"{sw['kind']}, {_fmt_time(sw['start'], span)} .. "
+                f"{_fmt_time(sw['stop'], span)}, ramp {_fmt_time(sw['ramp'])}")
+    t0, t1 = sw["on_interval"]
+    w0 = scenario.condensate.frequency_unit
+    return [("switching", what),
+            (f"coupling on (chi > {sw['on_level']:g})",
+             f"{_fmt_time(t0, t1 - t0)} .. {_fmt_time(t1, t1 - t0)}"),
+            ("transit duration", f"{_fmt_time(sw['transit_duration'])}  "
+                                 f"({_num(sw['transit_duration'] * w0)} xi/c)"),
+            ("effective duration", f"{_fmt_time(sw['effective_duration'])}  "
+                                   "(int chi^2 dt)"),
+            ("requested accuracy", f"transit_rtol = {_num(scenario.transit_rtol)}")]
+
+
+def _rows_results(scenario, result, extras, files):
+    rows = []
+    E = result.emitted_energy
+    energy = f"{_q(E, 'J')}  (E/h = {_num(E / sc.h)} Hz)"
+    if result.model == "density":
+        rows += [("emitted phonons", _pm(result.emitted_phonons, result.emitted_phonons_error)),
+                 ("absorbed phonons", _num(result.absorbed_phonons)),
+                 ("emitted energy", energy),
+                 ("mean emission rate", f"{_q(extras['mean_emission_rate'], 's^-1')}  "
+                                        "(emitted phonons / effective duration)")]
+    else:
+        rows += [("up probability", _pm(result.up_probability, result.up_probability_error)),
+                 ("down probability", _pm(result.down_probability,
+                                          result.down_probability_error)),
+                 ("emitted phonons", _pm(result.emitted_phonons, result.emitted_phonons_error)
+                  + "  (starting in the ground state)"),
+                 ("emitted phonons, excited", f"{_num(result.emitted_phonons_excited)}  "
+                                              "(starting excited)"),
+                 ("emitted energy", energy + "  (ground-state start)"),
+                 ("mean up rate", f"{_q(extras['mean_up_rate'], 's^-1')}  "
+                                  "(P_up / effective duration)"),
+                 ("mean down rate", f"{_q(extras['mean_down_rate'], 's^-1')}  "
+                                    "(P_down / effective duration)")]
+    g = result.grid or {}
+    rows += [("achieved accuracy", f"{_num(result.achieved_rtol, 3)}  (relative; requested "
+                                   f"{_num(scenario.transit_rtol)})"),
+             ("grid", f"{g.get('n_times')} times x {g.get('n_wavenumbers')} wavenumbers "
+                      f"(k_max xi = {_num(g.get('k_max', math.nan) * result.healing_length, 4)})"
+                      f" x up to {g.get('max_directions')} directions")]
+    for label, name in zip(("spectrum file", "directions file"), files):
+        rows.append((label, name))
+    return rows
+
+
+def format_transit_table(scenario, result, info, extras, files=()):
+    """The readable report of one transit."""
+    blocks = [("Inputs", _rows_path(scenario, info) + _rows_switching(scenario, info)),
+              ("Derived", _rows_derived(scenario, info)),
+              ("Results", _rows_results(scenario, result, extras, files))]
+    width = max(len(label) for _, rows in blocks for label, _ in rows)
+    lines = [f"== {scenario.source} =="] if scenario.source else []
+    for title, rows in blocks:
+        lines.append(title)
+        lines += [f"  {label:<{width}}  {value}" for label, value in rows]
+    lines.append("Warnings")
+    lines += [f"  - {w}" for w in result.warnings] if result.warnings else ["  (none)"]
+    return "\n".join(lines)
+
+
+def transit_json(scenario, result, info, extras, files=()):
+    """JSON-ready dict: every TransitResult field but the spectrum arrays (SI),
+    durations and mean rates, gas quantities and the validated inputs."""
+    out = {"config": scenario.source}
+    data = result.to_dict()
+    data.pop("spectrum", None)
+    out.update(data)
+    out.update(extras)
+    out["gas_parameter"] = info["derived"]["gas_parameter"]
+    out["gas_parameter_name"] = info["derived"]["gas_parameter_name"]
+    out["healing_length_convention"] = "xi = hbar/(m c)"
+    if files:
+        out["spectrum_file"], out["spectrum_directions_file"] = files
+    out["inputs"] = {k: info[k] for k in ("condensate", "probe", "trajectory",
+                                          "switching", "numerics")}
+    return out
+
+
+# ---------------------------------------------------------------------------
+# spectrum files
+# ---------------------------------------------------------------------------
+def directions_path(path):
+    """``FILE.csv`` -> ``FILE.directions.csv``."""
+    p = Path(path)
+    return str(p.with_name(p.stem + ".directions" + p.suffix)) if p.suffix \
+        else str(p.with_name(p.name + ".directions"))
+
+
+def _check_writable(path):
+    """Fail early (before computing) when the spectrum files cannot be written."""
+    for target in (path, directions_path(path)):
+        folder = os.path.dirname(os.path.abspath(target))
+        if os.path.isdir(target):
+            raise InputError("--spectrum", f"{target} is a directory; give a file name")
+        if not os.path.isdir(folder):
+            raise InputError("--spectrum", f"folder {folder} does not exist")
+        if not os.access(folder, os.W_OK):
+            raise InputError("--spectrum", f"folder {folder} is not writable")
+
+
+def _g(x):
+    return f"{float(x):.10g}"
+
+
+def spectrum_tables(scenario, result):
+    """``(radial_text, directions_text)``: the two CSV files as strings."""
+    from .transit import _gregory
+
+    sp = result.spectrum
+    k = sp["k"]
+    dk = _gregory(k.size - 1, float(k[1] - k[0]))
+    gap = result.model != "density"
+    total, err = result.emitted_phonons, result.emitted_phonons_error
+    what = ("probe starting in its ground state (columns *_excited: starting excited)"
+            if gap else "density probe")
+    head = [f"# emitted-phonon distribution of a transit: {scenario.source or '(dict)'}",
+            f"# channel: {what}",
+            f"# emitted_phonons = {_g(total)} +/- {_num(err, 2)}; "
+            f"achieved_rtol = {_num(result.achieved_rtol, 3)}",
+            f"# sound_speed = {_g(result.sound_speed)} m/s, healing_length = "
+            f"{_g(result.healing_length)} m"]
+    rad = head + ["# sum(dN_dk * dk) over the rows = emitted_phonons "
+                  "(dk: quadrature weight of the node)"]
+    cols = ["k [1/m]", "energy [J]", "dk [1/m]", "dN_dk [m]", "dN_dE [1/J]"]
+    data = [k, sp["energy"], dk, sp["dN_dk"], sp["dN_dE"]]
+    if gap:
+        cols.append("dN_dk_excited [m]")
+        data.append(sp["dN_dk_excited"])
+    rad.append(",".join(cols))
+    rad += [",".join(_g(col[i]) for col in data) for i in range(k.size)]
+
+    d = result.dimension
+    dirs = head[:]
+    if d == 3:
+        axis = ", ".join(_g(a) for a in sp["axis"])
+        dirs.append(f"# theta: polar angle from the axis ({axis}); bin averages; "
+                    "sum(dN_dcos_theta * (high - low)) = emitted_phonons")
+        e = sp["cos_theta_edges"]
+        cols = ["cos_theta_low [1]", "cos_theta_high [1]", "cos_theta [1]",
+                "dN_dcos_theta [1]"]
+        data = [e[:-1], e[1:], sp["cos_theta"], sp["dN_dcos_theta"]]
+        if gap:
+            cols.append("dN_dcos_theta_excited [1]")
+            data.append(sp["dN_dcos_theta_excited"])
+    elif d == 2:
+        axis = ", ".join(_g(a) for a in sp["axis"])
+        dirs.append(f"# phi: angle from the axis ({axis}), counter-clockwise; bin "
+                    "averages; sum(dN_dphi * (high - low)) = emitted_phonons")
+        e = sp["phi_edges"]
+        cols = ["phi_low [rad]", "phi_high [rad]", "phi [rad]", "dN_dphi [1/rad]"]
+        data = [e[:-1], e[1:], sp["phi"], sp["dN_dphi"]]
+        if gap:
+            cols.append("dN_dphi_excited [1/rad]")
+            data.append(sp["dN_dphi_excited"])
+    else:
+        dirs.append("# phonons emitted along +x (direction 1) and -x (direction -1); "
+                    "their sum = emitted_phonons")
+        cols = ["direction [sign of k_x]", "dN [1]"]
+        data = [[1, -1], [sp["dN_forward"], sp["dN_backward"]]]
+        if gap:
+            cols.append("dN_excited [1]")
+            data.append([sp["dN_forward_excited"], sp["dN_backward_excited"]])
+    dirs.append(",".join(cols))
+    n = len(data[0])
+    dirs += [",".join(_g(col[i]) for col in data) for i in range(n)]
+    return "\n".join(rad) + "\n", "\n".join(dirs) + "\n"
+
+
+def write_spectrum(path, scenario, result):
+    """Write both spectrum files via ``*.partial`` and rename; returns their names."""
+    texts = spectrum_tables(scenario, result)
+    targets = (str(path), directions_path(path))
+    partials = [t + ".partial" for t in targets]
+    try:
+        for name, text in zip(partials, texts):
+            with open(name, "w", encoding="utf-8") as fh:
+                fh.write(text)
+        for name, target in zip(partials, targets):
+            os.replace(name, target)
+    except OSError as exc:
+        raise InputError("--spectrum", f"cannot write {exc.filename or path}: "
+                                       f"{exc.strerror or exc}") from None
+    finally:
+        for name in partials:
+            if os.path.exists(name):
+                os.remove(name)
+    return targets
+
+
+# ---------------------------------------------------------------------------
+# command
+# ---------------------------------------------------------------------------
+@cli.command()
+@click.argument("configs", nargs=-1, required=True, metavar="CONFIG [CONFIG ...]")
+@click.option("--json", "as_json", is_flag=True,
+              help="Print JSON (an object for one config, an array for several).")
+@click.option("--spectrum", "spectrum", metavar="FILE.csv", default=None,
+              help="Write the emitted-phonon distribution over k to FILE.csv and over "
+                   "directions to FILE.directions.csv (one CONFIG only).")
+@click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
+def transit(configs, as_json, spectrum, overrides):
+    """First-order transition probabilities of finite transits: a spline path
+    through waypoints, or a linear or circular path with a switching function."""
+    from .config import load_config
+
+    errors = _input_errors()
+    done = []
+    try:
+        if spectrum is not None:
+            if len(configs) != 1:
+                raise InputError("--spectrum", f"writes the files of one scenario; give "
+                                               f"one CONFIG (got {len(configs)})")
+            _check_writable(spectrum)
+        scenarios = [load_config(path, overrides) for path in configs]
+        for scenario in scenarios:
+            check_transit(scenario)
+        for scenario in scenarios:
+            result = scenario.transit(spectrum=spectrum is not None)
+            info = describe(scenario)
+            files = ()
+            if spectrum is not None:
+                files = write_spectrum(spectrum, scenario, result)
+            done.append((scenario, result, info, _extras(scenario, result, info), files))
+    except errors as exc:
+        _fail(exc)
+    if as_json:
+        objs = [transit_json(*item) for item in done]
+        click.echo(json.dumps(objs[0] if len(objs) == 1 else objs, indent=2,
+                              allow_nan=False))
+    else:
+        click.echo("\n\n".join(format_transit_table(*item) for item in done))
