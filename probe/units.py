@@ -75,6 +75,18 @@ _TWO_PI = 2.0 * math.pi
 _NUMBER_ONLY = re.compile(
     r"^\s*[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?\s*$")
 
+#: longest quantity string accepted (a guard against pathological input)
+MAX_TEXT = 200
+
+# An integer literal (not part of a decimal number, an exponent or a name).
+# pint evaluates integer powers exactly, so that '10**10**10 Hz' would build
+# an integer of ten billion digits; written as floats the same expression
+# overflows at once and is reported as an input error.
+_INT_LITERAL = re.compile(r"(?<![\w.])(?<![eE][+-])(\d[\d_]*)(?![\w.])")
+
+#: a temperature difference (delta_degC, delta_degF ...) is not a temperature
+_DELTA_UNIT = re.compile(r"\bdelta_?deg|\bdelta_?(celsius|fahrenheit)", re.I)
+
 
 def _example(kind, dimension=None):
     ex = _EXAMPLES.get(kind, "")
@@ -116,7 +128,13 @@ def _parse(value, key, kind, dimension=None):
         raise InputError(key, f"expected a quantity with units, got {value!r}")
     if isinstance(value, (int, float, np.integer, np.floating)):
         if kind == "dimensionless":
-            return ureg.Quantity(float(value))
+            try:
+                number = float(value)
+            except OverflowError:
+                number = math.inf
+            if not math.isfinite(number):
+                raise InputError(key, f"{value!r} is not finite")
+            return ureg.Quantity(number)
         raise InputError(
             key, f"{value!r} must carry units, e.g. {_example(kind, dimension)} "
             "(write the value as a string with its unit)")
@@ -128,6 +146,14 @@ def _parse(value, key, kind, dimension=None):
     if not text:
         raise InputError(key, f"is empty; give a value such as "
                               f"{_example(kind, dimension)}")
+    if len(text) > MAX_TEXT:
+        raise InputError(key, f"is {len(text)} characters long (at most "
+                              f"{MAX_TEXT}); give a value such as "
+                              f"{_example(kind, dimension)}")
+    if kind == "temperature" and _DELTA_UNIT.search(text):
+        raise InputError(
+            key, f"{value!r} is a temperature difference; give an absolute "
+            "temperature in K, mK, uK or nK")
     if "," in text:
         raise InputError(key, f"{value!r} looks like a list; a single value "
                               f"such as {_example(kind, dimension)} is expected")
@@ -139,24 +165,27 @@ def _parse(value, key, kind, dimension=None):
         raise InputError(key, f"{value!r} must carry units, e.g. "
                               f"{_example(kind, dimension)}")
     try:
-        q = ureg.parse_expression(text)
+        q = ureg.parse_expression(_INT_LITERAL.sub(r"\1.0", text))
     except pint.errors.OffsetUnitCalculusError:
         raise InputError(
             key, f"{value!r}: offset temperature scales (degC, degF) are not "
             "accepted; give an absolute temperature in K, mK, uK or nK") from None
     except pint.errors.DimensionalityError as exc:
         raise InputError(key, f"{value!r} mixes incompatible units ({exc})") from None
-    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError,
-            SyntaxError, TypeError, ValueError, AttributeError,
-            IndexError, KeyError, ZeroDivisionError,
-            AssertionError) as exc:  # pint asserts on some truncated input
+    except OverflowError:
+        raise InputError(key, f"{value!r} is not finite (the number overflows)") from None
+    except Exception as exc:  # noqa: BLE001 - pint's parser raises many types
+        # (undefined units, syntax and tokenizer errors, assertions on
+        # truncated input ...): whatever it is, the string is not a quantity
         why = f" ({exc})" if str(exc) else ""
         raise InputError(key, f"cannot read {value!r} as a quantity{why}; "
                               f"write e.g. {_example(kind, dimension)}") from None
-    if not isinstance(q, pint.Quantity):
-        q = ureg.Quantity(float(q))
     try:
+        if not isinstance(q, pint.Quantity):
+            q = ureg.Quantity(float(q))
         mag = float(q.magnitude)
+    except OverflowError:
+        raise InputError(key, f"{value!r} is not finite (the number overflows)") from None
     except (TypeError, ValueError):
         raise InputError(key, f"{value!r} is not a single number with units") from None
     if not math.isfinite(mag):
