@@ -30,9 +30,16 @@ KB = sc.k
 
 
 def _positive(key, value, allow_zero=False):
+    """``value`` as a finite float, > 0 (or >= 0); InputError naming ``key``.
+
+    Booleans and strings are refused: the library takes SI numbers (strings
+    with units are for the configuration reader, ``probe.units``)."""
+    if isinstance(value, (bool, np.bool_)) or isinstance(value, (str, bytes)):
+        raise InputError(key, f"must be a number in SI units, got {value!r} "
+                              "(strings with units are read by probe.config)")
     try:
         v = float(value)
-    except (TypeError, ValueError):
+    except (TypeError, ValueError, OverflowError):
         raise InputError(key, f"must be a number, got {value!r}") from None
     if not math.isfinite(v):
         raise InputError(key, f"must be finite, got {v}")
@@ -55,14 +62,19 @@ class Condensate:
         rad/s (required for dimension < 3)
     temperature : K (default 0)
     dispersion : "bogoliubov" (default) or "phonon"
+    size : optional radius of the region around the origin where the gas is
+        uniform, m (the cloud radius, or half the side of a box); only used
+        to warn when a probe path leaves it and to time a straight transit
     """
 
     def __init__(self, dimension, mass, density, scattering_length,
                  transverse_frequency=None, temperature=0.0,
-                 dispersion="bogoliubov"):
-        if dimension not in (1, 2, 3):
+                 dispersion="bogoliubov", size=None):
+        if (isinstance(dimension, (bool, np.bool_))
+                or not isinstance(dimension, (int, np.integer))
+                or dimension not in (1, 2, 3)):
             raise InputError("condensate.dimension",
-                             f"must be 1, 2 or 3, got {dimension!r}")
+                             f"must be the integer 1, 2 or 3, got {dimension!r}")
         self.dimension = int(dimension)
         self.mass = _positive("condensate.mass", mass)
         self.density = _positive("condensate.density", density)
@@ -83,10 +95,11 @@ class Condensate:
                 None if transverse_frequency is None else
                 _positive("condensate.transverse_frequency",
                           transverse_frequency))
+        self.size = None if size is None else _positive("condensate.size", size)
         if isinstance(dispersion, Dispersion):
             self.dispersion = dispersion
         else:
-            if dispersion not in DISPERSIONS:
+            if not isinstance(dispersion, str) or dispersion not in DISPERSIONS:
                 raise InputError(
                     "condensate.dispersion",
                     f"must be one of {sorted(DISPERSIONS)}, got {dispersion!r}")

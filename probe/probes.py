@@ -19,11 +19,20 @@ from .errors import InputError
 HBAR = sc.hbar
 
 
-def _nonneg(key, value, allow_zero=True):
+def _number(key, value):
+    """``value`` as a float; InputError for booleans, strings and non-numbers
+    (the library takes SI numbers; strings with units are for probe.config)."""
+    if isinstance(value, (bool, np.bool_, str, bytes)):
+        raise InputError(key, f"must be a number in SI units, got {value!r} "
+                              "(strings with units are read by probe.config)")
     try:
-        v = float(value)
-    except (TypeError, ValueError):
+        return float(value)
+    except (TypeError, ValueError, OverflowError):
         raise InputError(key, f"must be a number, got {value!r}") from None
+
+
+def _nonneg(key, value, allow_zero=True):
+    v = _number(key, value)
     if not math.isfinite(v):
         raise InputError(key, f"must be finite, got {v}")
     if v < 0 or (v == 0 and not allow_zero):
@@ -44,11 +53,12 @@ def coupling_from_scattering_length(a_pb, boson_mass, probe_mass, condensate,
     and equal masses this reproduces the gas's own g_2 (Petrov-Holzmann-
     Shlyapnikov 2000) and g_1 (Olshanii 1998) reductions.
     """
-    a_pb = float(a_pb)
+    a_pb = _number("probe.coupling_length", a_pb)
     if not math.isfinite(a_pb):
         raise InputError("probe.coupling_length", f"must be finite, got {a_pb}")
     m_p = _nonneg("probe.mass", probe_mass, allow_zero=False)
-    m = float(boson_mass)
+    m = _nonneg("condensate.mass", boson_mass, allow_zero=False)
+    width = _nonneg("probe.width", width)
     m_r = m * m_p / (m + m_p)
     kappa3 = 2 * math.pi * HBAR**2 * a_pb / m_r
     d = condensate.dimension
@@ -73,7 +83,7 @@ class ProbeModel:
     has_gap = False
 
     def __init__(self, coupling, width=0.0):
-        c = float(coupling)
+        c = _number("probe.coupling", coupling)
         if not math.isfinite(c) or c == 0:
             raise InputError("probe.coupling",
                              f"must be finite and nonzero, got {coupling!r}")
@@ -110,7 +120,16 @@ class TwoLevelProbe(ProbeModel):
 
     def __init__(self, gap, coupling, width=0.0):
         super().__init__(coupling, width)
-        g = np.asarray(gap, dtype=float)
+        if isinstance(gap, (bool, np.bool_, str, bytes)):
+            raise InputError("probe.gap", f"must be an angular frequency in rad/s "
+                                          f"(a number or an array), got {gap!r}")
+        try:
+            g = np.asarray(gap, dtype=float)
+        except (TypeError, ValueError, OverflowError):
+            raise InputError("probe.gap", f"must be a number or an array of "
+                                          f"numbers (rad/s), got {gap!r}") from None
+        if g.size == 0:
+            raise InputError("probe.gap", "must not be empty")
         if not np.all(np.isfinite(g)) or np.any(g <= 0):
             raise InputError("probe.gap", f"must be finite and > 0, got {gap!r}")
         self._gap = g if g.ndim else float(g)
