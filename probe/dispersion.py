@@ -325,6 +325,26 @@ class Bogoliubov(Dispersion):
         shd_m_d = np.where(small, series, np.sinh(d) - d)
         return 2 * (cosh_m1 * np.sinh(d) + shd_m_d)
 
+    def phase_velocity_crossing(self, v):
+        """As the base class; just above the sound speed (v - 1 < 1e-2) from
+        the closed form q = 2 sqrt((v - 1)(v + 1)) of sqrt(1 + q^2/4) = v,
+        where Newton's root of the nearly flat omega(q)/q - v keeps only
+        about eps/(v - 1) relative accuracy."""
+        out = super().phase_velocity_crossing(v)
+        v = np.asarray(v, float)
+        near = (v > 1) & (v - 1 < 1e-2)
+        if np.any(near):
+            out = np.where(near, 2.0 * np.sqrt(np.abs((v - 1) * (v + 1))), out)
+        return out
+
+    def phase_divided(self, q, r):
+        """p[q, r] = (p(q) - p(r))/(q - r) of the phase velocity
+        p = omega/q = sqrt(1 + q^2/4), free of cancellation:
+        (q + r) / (4 (p(q) + p(r)))."""
+        q = np.asarray(q, float)
+        r = np.asarray(r, float)
+        return (q + r) / (4.0 * (np.sqrt(1 + 0.25 * q * q) + np.sqrt(1 + 0.25 * r * r)))
+
     def inverse_group_velocity(self, v):
         v = np.asarray(v, float)
         v2 = v * v
@@ -392,6 +412,10 @@ class Phonon(Dispersion):
         a = np.asarray(a, float)
         b = np.asarray(b, float)
         return (b - a) * (a * a + a * b + b * b) / 6
+
+    def phase_divided(self, q, r):
+        """p[q, r] of the constant phase velocity p = 1: zero."""
+        return np.zeros(np.broadcast(np.asarray(q, float), np.asarray(r, float)).shape)
 
     def inverse_group_velocity(self, v):
         return np.full(np.shape(v), np.inf)

@@ -42,6 +42,36 @@ KB = sc.k
 _CUT = 80.0
 #: relative floor of every error estimate: rounding in roots, nodes and sums
 _ROUNDING = 1e-13
+_EPS = float(np.finfo(float).eps)
+
+# --- range of the inputs (in the gas's units) the engine is checked over in
+# tests/test_robustness.py; outside it a ModelError says so ------------------
+#: largest speed, in units of the sound speed c
+MAX_SPEED_OVER_C = 1e6
+#: gap Omega in units of c/xi: below, the two-level probe is the density probe
+#: (up and down rates agree to 1e-12); above, the resonant k xi exceeds 1e6
+GAP_RANGE = (1e-12, 1e12)
+#: smallest circle radius, in healing lengths (the circle is then a point)
+MIN_RADIUS_OVER_XI = 1e-9
+#: below this speed (units of c) straight motion is treated as static: the
+#: windows shrink onto the resonance shell and their edges, computed one by
+#: one, lose digits as eps/v, while the static value differs by O(v^2)
+STATIC_SPEED = 1e-8
+#: |v - v_th| / v_th below this is "at" a threshold speed (rounding of v and
+#: of v_th): in 1D the rate diverges there, in 2D it jumps
+AT_THRESHOLD = 1e-13
+#: a rate whose estimated relative error exceeds this is not returned
+MAX_RELATIVE_ERROR = 1e-3
+#: 2D gapless probe: below v = c (1 + NEAR_SOUND) the window factor is formed
+#: from the phase velocity's divided difference (see _window_integrals)
+NEAR_SOUND = 1e-2
+#: circular sums: largest predicted number of Bessel-function evaluations
+#: (about 30 s on one core of the development machine, ~0.4 us each); the
+#: running sum stops at twice this whatever the prediction said
+MAX_BESSEL_EVALUATIONS = 7.5e7
+#: seconds per Bessel-function evaluation in a large 3D sum (measured on the
+#: development machine; only used to put a time on the refusal message)
+_SECONDS_PER_BESSEL = 4e-7
 
 
 # ---------------------------------------------------------------------------
@@ -57,7 +87,9 @@ class _Gas:
         self.T = float(temperature)             # k_B T / (m c^2)
 
     def form(self, q, s):
-        return np.exp(-(q * s) ** 2)
+        # (q s)^2 may overflow for absurd widths: exp(-inf) = 0 is the answer
+        with np.errstate(over="ignore"):
+            return np.exp(-(q * s) ** 2)
 
     def occupation(self, q):
         if self.T == 0:
@@ -68,6 +100,23 @@ class _Gas:
     def qcut(self, s):
         with np.errstate(divide="ignore"):
             return np.where(s > 0, math.sqrt(_CUT) / np.where(s > 0, s, 1), np.inf)
+
+
+def _edge_rounding(gas, q, v, W, s, vg, denom, tag):
+    """Relative rounding error of a 1D edge term S |F|^2 weight / |v_g -+ v|.
+
+    The edge q solves w(q) -+ v q = W to within its rounding, so it is off by
+    dq = eps (w + v q + |W|)/denom; that moves the denominator by
+    w''(q) dq and the numerator by its logarithmic derivative times dq.  Near
+    a caustic (denom -> 0, where two edges merge and the rate diverges) this
+    grows as eps/(v - v_th): the estimate makes the loss of digits visible.
+    """
+    dq = _EPS * (gas.disp.omega(q) + v * q + np.abs(W)) / denom
+    log_slope = 2.0 / q + 2.0 * q * s * s
+    if tag in ("thermal", "thermal_energy") and gas.T > 0:
+        with np.errstate(over="ignore"):
+            log_slope = log_slope + vg * (1.0 + gas.occupation(q)) / gas.T
+    return (gas.disp.curvature(q) * dq + _EPS * (vg + v)) / denom + dq * log_slope
 
 
 def _weights(gas, q, tag):
@@ -98,6 +147,7 @@ def _window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
         # sum over the real roots of k v = X(|k|): the window edges
         for t in tags:
             val = np.zeros(n)
+            err = np.zeros(n)
             for edge, sign in ((a, +1.0 if kind == "W1" else -1.0), (b, -1.0)):
                 ok = present & np.isfinite(edge) & (edge > 0)
                 if kind == "W1" and edge is a:
@@ -108,10 +158,12 @@ def _window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
                 with np.errstate(divide="ignore", invalid="ignore"):
                     term = (disp.structure_factor(q) * gas.form(q, s)
                             * _weights(gas, q, t) / denom)
-                if t == "energy":
-                    pass
+                    rel = _edge_rounding(gas, q, v, W, s, vg, denom, t)
                 val += np.where(ok, term, 0.0)
-            out[t] = (val, np.abs(val) * 1e-14)
+                # a term that is exactly zero (form factor underflow) has no error
+                with np.errstate(invalid="ignore", over="ignore"):
+                    err += np.where(ok & (term != 0), np.abs(term) * rel, 0.0)
+            out[t] = (val, np.abs(val) * 1e-14 + err)
         return out
 
     qc = gas.qcut(s)
@@ -158,6 +210,7 @@ def _window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
             val, err, _ = integrate(make(t), aa, bq, rtol=rtol * 0.1)
             out[t][0][idx] = val
             out[t][1][idx] = err
+        _narrow_window_error(out, idx, aa, bq)
         return out
 
     # d = 2: 2/sqrt(k^2 v^2 - X^2) with inverse-square-root edges
@@ -168,7 +221,15 @@ def _window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
         if kind == "W1":
             lower = V + disp.omega_divided(x, A_)              # (kv+X)/(q-a)
             with np.errstate(invalid="ignore"):
-                upper_fin = disp.omega_divided(x, np.where(np.isinf(B_), 0, B_)) - V
+                Bf = np.where(np.isinf(B_), 0, B_)
+                upper_fin = disp.omega_divided(x, Bf) - V
+                if hasattr(disp, "phase_divided"):
+                    # gapless probe just above the sound speed: b is the crossing
+                    # w(b)/b = v, so (kv - w)/(b - q) = q p[q, b] with p = w/q,
+                    # while w[q, b] - v cancels to ~(v - 1) and, at v - 1 ~ 1e-9,
+                    # to zero or below at some nodes (an infinite rate)
+                    near = (Wd == 0) & (V - 1 < NEAR_SOUND)
+                    upper_fin = np.where(near, x * disp.phase_divided(x, Bf), upper_fin)
             upper = np.where(np.isinf(B_), x * V + Wd - disp.omega(x), upper_fin)
             fin = ~np.isinf(B_)
             # finite: (kv - X)/(b - q); unbounded: kv - X itself
@@ -211,7 +272,22 @@ def _window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
         val, err, _ = integrate(make2(t), np.zeros(idx.size), th_hi, rtol=rtol * 0.1)
         out[t][0][idx] = val
         out[t][1][idx] = err
+    if kind == "W2":
+        # near the threshold the up window [a, b] is narrow and the factor
+        # (q - a)(b - q) w[q, a, b] carries the rounding of both edges
+        _narrow_window_error(out, idx, aa, bq)
     return out
+
+
+def _narrow_window_error(out, idx, a, b):
+    """Add the rounding of the window edges to the error estimates: each
+    edge is known to a few ulps, a relative error 4 eps (a + b)/(b - a) of
+    the window's width (negligible unless the window is narrow: slow motion
+    in 3D, speeds just above the up threshold)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rel = np.where(b > a, 4.0 * _EPS * (a + b) / (b - a), 0.0)
+    for t in out:
+        out[t][1][idx] += np.abs(out[t][0][idx]) * rel
 
 
 def _static_values(gas, W, s, tag):
@@ -225,6 +301,22 @@ def _static_values(gas, W, s, tag):
     return np.where(W > 0, base * geo / vg, 0.0)
 
 
+def _slow_static_error(gas, v, W, s):
+    """Relative error of the static value used for 0 < v < STATIC_SPEED.
+
+    The window around the resonance shell q0 has half-width dq = v q0/v_g;
+    the rate is its mean, exact to first order in dq, so the error is of the
+    order (dq L)^2 + v^2 with L the logarithmic slope of the integrand
+    (geometry ~ 4/q0, form factor 2 q0 s^2, Bose factor v_g/T)."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        q0 = gas.disp.inverse(W)
+        vg = gas.disp.group_velocity(q0)
+        slope = 4.0 / q0 + 2.0 * q0 * s * s + (vg / gas.T if gas.T > 0 else 0.0)
+        eta = v * q0 / vg * slope
+        err = eta * eta + v * v
+    return np.where((v > 0) & np.isfinite(err), err, 0.0)
+
+
 def inertial_kernel(gas, v, W, s, rtol=1e-8, energy=False):
     """Dimensionless inertial rates.
 
@@ -236,7 +328,9 @@ def inertial_kernel(gas, v, W, s, rtol=1e-8, energy=False):
     disp = gas.disp
     thermal = gas.T > 0
     tags = ["plain"] + (["thermal"] if thermal else []) + (["energy"] if energy else [])
-    moving = v > 0
+    # very slow motion is static (see STATIC_SPEED); for the gapless density
+    # probe every subsonic speed gives zero, so only W > 0 points are affected
+    moving = (v >= STATIC_SPEED) | ((v > 0) & (W == 0))
     res = {}
     nW = v.size
     zero = np.zeros(nW)
@@ -272,8 +366,9 @@ def inertial_kernel(gas, v, W, s, rtol=1e-8, energy=False):
     if np.all(W > 0):
         down = np.where(st, sp + stt, p1 + t1 + t2)
         up = np.where(st, stt, p2 + t2 + t1)
-        res["down"] = (down, np.where(st, 0.0, e1 + f1 + f2) + fl * down)
-        res["up"] = (up, np.where(st, 0.0, e2 + f2 + f1) + fl * up)
+        slow = _slow_static_error(gas, v, W, s) * st
+        res["down"] = (down, np.where(st, 0.0, e1 + f1 + f2) + (fl + slow) * down)
+        res["up"] = (up, np.where(st, 0.0, e2 + f2 + f1) + (fl + slow) * up)
     else:
         # density probe: W = 0, both windows coincide with [0, q_b]
         em = np.where(st, 0.0, p1 + t1)
@@ -297,6 +392,14 @@ def _kapteyn(z):
         return np.where(z > 0, z * np.exp(r) / (1 + r), 0.0)
 
 
+def _w3_terms(m, x):
+    """Number of Bessel functions summed by ``_w3`` for each (m, x): orders up
+    to 2x + 40 + 8 (2x)^(1/3) beyond 2m + 1."""
+    z = 2 * np.asarray(x, float)
+    return np.maximum(0, np.ceil((z + 40 + 8 * np.cbrt(z) - 2 * np.abs(m) - 1) / 2)
+                      ).astype(int) + 8
+
+
 def _w3(m, x):
     """W_m(x) = (1/2) int_{-1}^{1} J_m(x sqrt(1-u^2))^2 du
              = (1/(2x)) int_0^{2x} J_{2m}(t) dt = (1/x) sum_{j>=0} J_{2m+2j+1}(2x).
@@ -314,8 +417,7 @@ def _w3(m, x):
         return out
     mm, xx = m[big], x[big]
     z = 2 * xx
-    # number of terms: orders up to z + 40 + 8 z^(1/3) beyond 2m+1
-    nmax = np.maximum(0, np.ceil((z + 40 + 8 * np.cbrt(z) - 2 * mm - 1) / 2)).astype(int) + 8
+    nmax = _w3_terms(mm, xx)
     acc = np.zeros(mm.shape)
     order = np.argsort(nmax)
     # process in groups of similar length to bound memory
@@ -334,7 +436,82 @@ def _w3(m, x):
     return out
 
 
-def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_000_000):
+_TOO_MANY_HARMONICS = (
+    "harmonics are spaced by the angular frequency, so a slow rotation or a "
+    "large circle needs very many; for R >> xi the rate approaches that of "
+    "straight motion at the same speed (kind = \"linear\"), for v << c the "
+    "static one")
+
+
+def circular_work(gas, R, v, W, s, rtol=1e-8):
+    """Predicted (harmonics, Bessel-function evaluations) of
+    ``circular_kernel`` for one point, from the same window edges and stopping
+    rule (Kapteyn's bound below 0.1 rtol), without evaluating any Bessel
+    function.  Used to refuse sums that would take minutes.  The evaluation
+    count is doubled: against counted runs (R = 10 to 1e4 xi, v = 1e-5 to
+    1e3 c) the plain prediction was low by a factor of up to 1.9."""
+    disp, d = gas.disp, gas.d
+    wc = v / R
+    qcut = math.sqrt(_CUT) / s if s > 0 else math.inf
+    harmonics = 0.0
+    evals = 0.0
+    for sign in ((+1, -1) if W > 0 else (+1,)):
+        mlo = math.floor(-sign * W / wc) + 1
+        if W == 0:
+            mlo = max(mlo, 1)
+        if sign > 0:
+            qe = float(disp.root_plus(np.array([v]), np.array([W]))[0])
+        else:
+            qe = float(disp.roots_up(np.array([v]), np.array([W]))[1][0])
+            if np.isnan(qe):
+                qe = float(disp.threshold(np.array([W]))[1][0]) if W > 0 else 0.0
+        qe = min(qe, qcut) if np.isfinite(qe) else qcut
+        m_edge = (float(disp.omega(qe)) - sign * W) / wc if np.isfinite(qe) else math.inf
+        start = 0 if (sign > 0 and W > 0) else mlo
+
+        def z_of(m):
+            q = disp.inverse(sign * W + m * wc)
+            return q * R / np.maximum(m, 1), q
+
+        def done(m):
+            z, q = z_of(m)
+            rho2 = _kapteyn(np.minimum(z, 1.0)) ** 2
+            with np.errstate(divide="ignore"):
+                tail = m * np.log(np.where(rho2 > 0, rho2, 1e-300))
+            return (q > qcut) | ((z < 1) & (tail < math.log(0.1 * rtol)))
+
+        lo = max(start, 1, int(min(m_edge, 1e15)) if np.isfinite(m_edge) else 1)
+        hi = lo
+        while not bool(done(np.array([float(hi)]))[0]):
+            hi *= 2
+            if hi > 1e15:
+                return math.inf, math.inf
+        # first m >= lo at which the sum stops (bisection on integers)
+        a_, b_ = lo, hi
+        while b_ - a_ > 1:
+            mid = (a_ + b_) // 2
+            if bool(done(np.array([float(mid)]))[0]):
+                b_ = mid
+            else:
+                a_ = mid
+        m_hi = b_
+        count = (m_hi - start + 1) + (start - mlo if start > mlo else 0)
+        harmonics += count
+        if d == 3 and math.isfinite(count):
+            # sample the per-harmonic cost and integrate (trapezoid)
+            m = np.unique(np.round(np.linspace(mlo, m_hi, 2049)))
+            w = sign * W + m * wc
+            q = disp.inverse(np.where(w > 0, w, 0.0))
+            cost = _w3_terms(m, q * R).astype(float)
+            evals += 2.0 * (float(np.sum(0.5 * (cost[1:] + cost[:-1]) * np.diff(m)))
+                            + cost[0])
+        else:
+            evals += 2.0 * count
+    return harmonics, evals
+
+
+def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_000_000,
+                    max_evaluations=math.inf):
     """Dimensionless circular rates for one point (scalars R, v, W, s), in
     units of A xi^-d xi/c.  Returns dict like ``inertial_kernel`` plus the
     number of harmonics used.
@@ -354,6 +531,7 @@ def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_00
             "the probe a width or use 'bogoliubov'")
     qcut = math.sqrt(_CUT) / s if s > 0 else math.inf
     keys = ("plain", "thermal", "energy")
+    work = [0.0]          # Bessel functions evaluated so far
 
     def terms(m, sign):
         w = sign * W + m * wc
@@ -364,9 +542,17 @@ def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_00
         if d == 2:
             B = jv(m, x) ** 2
             P0 = q * Sq / vg
+            work[0] += m.size
         else:
             B = _w3(m, x)
             P0 = q * q * Sq / (math.pi * vg)
+            work[0] += float(np.sum(_w3_terms(m, x)))
+        if work[0] > max_evaluations:
+            raise ModelError(
+                "trajectory.radius",
+                f"the circular sum (radius {R:.4g} xi, speed {v:.4g} c) stopped "
+                f"after {work[0]:.3g} Bessel-function evaluations, the limit; "
+                + _TOO_MANY_HARMONICS)
         base = P0 * gas.form(q, s) * B
         n_th = gas.occupation(q) if thermal else np.zeros_like(q)
         sums = {"plain": base.sum(), "thermal": (base * n_th).sum(),
@@ -428,7 +614,8 @@ def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_00
                 raise ModelError(
                     "trajectory.radius",
                     f"the harmonic sum did not converge within {max_harmonics} "
-                    "terms; the radius is too large for the circular engine")
+                    f"terms (radius {R:.4g} xi, speed {v:.4g} c, angular "
+                    f"frequency v/R = {wc:.4g} c/xi); " + _TOO_MANY_HARMONICS)
         return tot, bnd, count
 
     def family(sign):
@@ -489,8 +676,19 @@ def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_00
 # ---------------------------------------------------------------------------
 def _prefactor(cond, probe):
     """A xi^-d / (c/xi): converts dimensionless integrals to 1/s."""
-    A = (probe.coupling / HBAR) ** 2 * cond.density
-    return A * cond.healing_length ** (-cond.dimension) / cond.frequency_unit
+    try:
+        A = (probe.coupling / HBAR) ** 2 * cond.density
+        pref = A * cond.healing_length ** (-cond.dimension) / cond.frequency_unit
+    except OverflowError:
+        pref = math.inf
+    if not math.isfinite(pref) or pref <= 0:
+        raise ModelError(
+            "probe.coupling",
+            f"the rate scale (kappa/hbar)^2 n xi^-d / (c/xi) = {pref:.4g} s^-1 "
+            f"for kappa = {probe.coupling:.4g} J m^{cond.dimension} is not a "
+            "finite positive number; the coupling is far outside the range "
+            "of first-order perturbation theory")
+    return pref
 
 
 def _gas(cond, probe):
@@ -509,13 +707,171 @@ def _check_array(name, x, allow_zero=True):
     return x
 
 
-def _finish_two_level(cond, gap, up, down):
+def _finish_two_level(cond, gap, up, down, up_err=None, down_err=None):
+    """Effective temperature hbar Omega / (k_B ln(down/up)) and excited
+    population.  Where ln(down/up) is not larger than 4 times its own error
+    (from the rates' error estimates) the effective temperature is not
+    determined and is NaN (the regime warnings say so and give a bound)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = down / up
-        teff = HBAR * gap / (KB * np.log(ratio))
+        log = np.log(ratio)
+        teff = HBAR * gap / (KB * log)
+        if up_err is not None:
+            unc = 4.0 * (up_err / up + down_err / down)
+            teff = np.where((up > 0) & ~(np.abs(log) > unc), np.nan, teff)
         teff = np.where(up == 0, 0.0, teff)
         pop = np.where(up + down > 0, up / (up + down), 0.0)
     return teff, pop
+
+
+def _range_checks(condensate, probe, speed, gap=None, radius=None):
+    """ModelError where an input leaves the range the engine is checked over
+    (MAX_SPEED_OVER_C, GAP_RANGE, MIN_RADIUS_OVER_XI)."""
+    c, xi, w0 = condensate.sound_speed, condensate.healing_length, condensate.frequency_unit
+    v = np.asarray(speed, float) / c
+    if np.any(v > MAX_SPEED_OVER_C):
+        bad = v > MAX_SPEED_OVER_C
+        raise ModelError(
+            "trajectory.speed",
+            f"{_at(bad)}the speed {np.max(v):.4g} c_s ({np.max(v) * c:.4g} m/s) is "
+            f"above the largest the engine handles, {MAX_SPEED_OVER_C:g} c_s "
+            f"({MAX_SPEED_OVER_C * c:.4g} m/s)")
+    if gap is not None:
+        W = np.asarray(gap, float) / w0
+        lo, hi = GAP_RANGE
+        if np.any(W < lo):
+            raise ModelError(
+                "probe.gap",
+                f"{_at(W < lo)}the gap Omega = {np.min(W):.4g} c/xi "
+                f"({np.min(W) * w0:.4g} rad/s) is below {lo:g} c/xi: there the "
+                "two-level probe is the structureless one (up and down rates "
+                "agree); use probe.model = \"density\"")
+        if np.any(W > hi):
+            raise ModelError(
+                "probe.gap",
+                f"{_at(W > hi)}the gap Omega = {np.max(W):.4g} c/xi "
+                f"({np.max(W) * w0:.4g} rad/s) is above {hi:g} c/xi, where the "
+                "resonant k xi exceeds 1e6 and the contact-coupled Bogoliubov "
+                "gas is no model")
+    if radius is not None:
+        R = np.asarray(radius, float) / xi
+        if np.any(R < MIN_RADIUS_OVER_XI):
+            raise ModelError(
+                "trajectory.radius",
+                f"{_at(R < MIN_RADIUS_OVER_XI)}the radius {np.min(R):.4g} xi is "
+                f"below {MIN_RADIUS_OVER_XI:g} xi: such a circle is a point; the "
+                "rates approach those of a probe at rest (kind = \"linear\", "
+                "speed 0)")
+
+
+def _at(mask):
+    """'at N of M grid points, ' for an array mask, '' for a scalar."""
+    mask = np.asarray(mask)
+    if mask.size <= 1:
+        return ""
+    return f"at {int(np.count_nonzero(mask))} of {mask.size} grid points, "
+
+
+def _threshold_checks(condensate, probe, vv, WW):
+    """ModelError at a speed where a rate is singular: exactly (within
+    rounding, AT_THRESHOLD) at the up threshold in 1D (the rate diverges as
+    1/sqrt(v - v_th): the two up-window edges merge, a caustic) and 2D (the up
+    rate jumps from 0 to a finite value), at the sound speed for the 1D
+    density probe (1/sqrt(v - c)) and for the 1D phonon dispersion."""
+    d = condensate.dimension
+    disp = condensate.dispersion
+    if d == 3:
+        return
+    v = np.asarray(vv, float).ravel()
+    W = np.asarray(WW, float).ravel()
+    if probe.has_gap:
+        if disp.bounded_windows:
+            vt, _ = disp.threshold(W)
+            near = np.abs(v - vt) <= AT_THRESHOLD * vt
+            how = {1: "the 1D up rate diverges as 1/sqrt(v - v_th) there (the "
+                      "two edges of the resonant window merge)",
+                   2: "the 2D up rate jumps there from 0 to a finite value"}[d]
+            if np.any(near):
+                i = int(np.argmax(near))
+                raise ModelError(
+                    "trajectory.speed",
+                    f"{_at(near)}the speed {v[i]:.15g} c_s is the up-transition "
+                    f"threshold speed v_th = {vt[i]:.15g} c_s (to within "
+                    f"{AT_THRESHOLD:g} relative, the rounding of both): {how}, so "
+                    "the rate is undefined; give a speed further from v_th")
+        elif d == 1:
+            near = np.abs(v - 1.0) <= AT_THRESHOLD
+            if np.any(near):
+                raise ModelError(
+                    "trajectory.speed",
+                    f"{_at(near)}with the 'phonon' dispersion in 1D the rates "
+                    "diverge as (v - c)^-2 at the sound speed, and the speed "
+                    "is the sound speed (to within rounding); give another "
+                    "speed or use 'bogoliubov'")
+    elif d == 1:
+        near = np.abs(v - 1.0) <= AT_THRESHOLD
+        if np.any(near):
+            why = ("the 1D emission rate is zero below the sound speed and "
+                   "diverges as 1/sqrt(v - c) above it" if disp.bounded_windows
+                   else "with the 'phonon' dispersion every wavenumber is "
+                   "resonant at the sound speed")
+            raise ModelError(
+                "trajectory.speed",
+                f"{_at(near)}the speed is the sound speed (to within rounding): "
+                f"{why}, so at v = c it is undefined; give another speed")
+
+
+def _error_check(name, value, error, key="trajectory.speed"):
+    """ModelError where a rate's error estimate exceeds MAX_RELATIVE_ERROR
+    of the rate (near a caustic rounding leaves no reliable digits)."""
+    val = np.asarray(value, float)
+    err = np.asarray(error, float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rel = np.where(val > 0, err / val, 0.0)
+    bad = rel > MAX_RELATIVE_ERROR
+    if np.any(bad):
+        raise ModelError(
+            key,
+            f"{_at(bad)}the {name} cannot be computed reliably here: rounding "
+            f"leaves it with a relative error of {np.max(rel):.2g} (more than "
+            f"{MAX_RELATIVE_ERROR:g}); this happens within about "
+            f"{_EPS / MAX_RELATIVE_ERROR:.0e} (relative) of a speed where the "
+            "rate diverges; give a speed further from it")
+
+
+_GUARDED = ("up_rate", "down_rate", "up_rate_error", "down_rate_error",
+            "emission_rate", "emission_rate_error", "absorption_rate",
+            "power", "drag_force")
+
+
+def _guard(condensate, probe, res):
+    """Never hand back a silent NaN, inf or negative rate: ModelError naming
+    the quantity and the inputs (in the gas's units) instead."""
+    for name in _GUARDED:
+        value = getattr(res, name)
+        if value is None:
+            continue
+        a = np.asarray(value, float)
+        bad = ~np.isfinite(a) | (a < 0)
+        if np.any(bad):
+            what = "not finite" if not np.all(np.isfinite(a)) else "negative"
+            w0 = condensate.frequency_unit
+            inputs = (f"speed {_max_of(res.speed) / condensate.sound_speed:.4g} c_s, "
+                      f"temperature {KB * condensate.temperature / condensate.energy_unit:.4g} "
+                      f"mu/k_B, width {probe.width / condensate.healing_length:.4g} xi")
+            if probe.has_gap:
+                inputs += f", gap {_max_of(res.gap if res.gap is not None else probe.gap) / w0:.4g} c/xi"
+            raise ModelError(
+                "inputs",
+                f"{_at(bad)}the {name.replace('_', ' ')} is {what} ({float(a[bad].flat[0])!r}) "
+                f"for {inputs}: the inputs are outside the range the engine can "
+                "represent; no number is returned")
+
+
+def _max_of(x):
+    if x is None:
+        return float("nan")
+    return float(np.max(np.asarray(x, float)))
 
 
 def _shape(x, shape):
@@ -537,14 +893,19 @@ def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
                      healing_length=xi, chemical_potential=condensate.chemical_potential)
     if probe.has_gap:
         gap = _check_array("probe.gap", probe.gap if gap is None else gap, allow_zero=False)
+        _range_checks(condensate, probe, speed, gap)
         vv, WW = np.broadcast_arrays(speed / c, gap / w0)
         shape = vv.shape
+        _threshold_checks(condensate, probe, vv, WW)
         out = inertial_kernel(gas, vv, WW, gas.s, rtol=rtol)
+        _error_check("up rate", out["up"][0], out["up"][1])
+        _error_check("down rate", out["down"][0], out["down"][1])
         up, dn = out["up"][0] * pref, out["down"][0] * pref
         res.up_rate, res.down_rate = _shape(up, shape), _shape(dn, shape)
         res.up_rate_error = _shape(out["up"][1] * pref, shape)
         res.down_rate_error = _shape(out["down"][1] * pref, shape)
-        teff, pop = _finish_two_level(condensate, WW.ravel() * w0, up, dn)
+        teff, pop = _finish_two_level(condensate, WW.ravel() * w0, up, dn,
+                                      out["up"][1] * pref, out["down"][1] * pref)
         res.effective_temperature = _shape(teff, shape)
         res.excited_population = _shape(pop, shape)
         vt, _ = condensate.dispersion.threshold(WW.ravel())
@@ -552,9 +913,12 @@ def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
         res.speed = _shape(vv.ravel() * c, shape)
         res.gap = _shape(WW.ravel() * w0, shape)
     else:
+        _range_checks(condensate, probe, speed)
         vv = np.asarray(speed / c, float)
         shape = vv.shape
+        _threshold_checks(condensate, probe, vv, np.zeros(shape))
         out = inertial_kernel(gas, vv, np.zeros(shape), gas.s, rtol=rtol, energy=True)
+        _error_check("emission rate", out["emission"][0], out["emission"][1])
         res.emission_rate = _shape(out["emission"][0] * pref, shape)
         res.emission_rate_error = _shape(out["emission"][1] * pref, shape)
         res.absorption_rate = _shape(out["absorption"][0] * pref, shape)
@@ -565,12 +929,17 @@ def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
         res.power = _shape(power, shape)
         res.drag_force = _shape(drag, shape)
         res.speed = _shape(vv.ravel() * c, shape)
-    return _with_regime(condensate, probe, res)
+    return _with_regime(condensate, probe, res, rtol=rtol)
 
 
-def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8):
+def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
+                   max_bessel_evaluations=MAX_BESSEL_EVALUATIONS):
     """Golden-rule rates on a circle of ``radius`` (m) at ``speed`` (m/s),
-    in the plane of a 2D gas or inside a 3D gas.  Arrays broadcast."""
+    in the plane of a 2D gas or inside a 3D gas.  Arrays broadcast.
+
+    A point whose harmonic sum is predicted (``circular_work``) to need more
+    than ``max_bessel_evaluations`` Bessel functions (about 0.4 us each) is
+    refused with a ModelError before any work; raise the limit to wait."""
     d = condensate.dimension
     if d == 1:
         raise InputError("trajectory.kind",
@@ -585,6 +954,7 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8):
     gapv = probe.gap if gap is None else gap
     if probe.has_gap:
         gapv = _check_array("probe.gap", gapv, allow_zero=False)
+    _range_checks(condensate, probe, speed, gapv if probe.has_gap else None, radius)
     RR, vv, WW = np.broadcast_arrays(radius / xi, speed / c, np.asarray(gapv, float) / w0)
     shape = RR.shape
     Rf, vf, Wf = RR.ravel(), vv.ravel(), WW.ravel()
@@ -601,8 +971,11 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8):
                 vals[k][i] = o[k][0][0]
                 errs[k][i] = o[k][1][0]
             continue
+        _work_check(gas, Rf[i], vf[i], Wf[i], float(gas.s), rtol,
+                    max_bessel_evaluations, n)
         o = circular_kernel(gas, Rf[i], vf[i], Wf[i], float(gas.s), rtol=rtol,
-                            energy=not probe.has_gap)
+                            energy=not probe.has_gap,
+                            max_evaluations=2 * max_bessel_evaluations)
         for k in keys:
             vals[k][i], errs[k][i] = o[k]
         harmonics[i] = o["harmonics"]
@@ -614,7 +987,8 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8):
         res.up_rate, res.down_rate = _shape(up, shape), _shape(dn, shape)
         res.up_rate_error = _shape(errs["up"] * pref, shape)
         res.down_rate_error = _shape(errs["down"] * pref, shape)
-        teff, pop = _finish_two_level(condensate, Wf * w0, up, dn)
+        teff, pop = _finish_two_level(condensate, Wf * w0, up, dn,
+                                      errs["up"] * pref, errs["down"] * pref)
         res.effective_temperature = _shape(teff, shape)
         res.excited_population = _shape(pop, shape)
         res.gap = _shape(Wf * w0, shape)
@@ -626,7 +1000,32 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8):
         res.power = _shape(power, shape)
         with np.errstate(divide="ignore", invalid="ignore"):
             res.drag_force = _shape(np.where(vf > 0, power / (vf * c), 0.0), shape)
-    return _with_regime(condensate, probe, res)
+    return _with_regime(condensate, probe, res, rtol=rtol)
+
+
+def _work_check(gas, R, v, W, s, rtol, limit, npoints):
+    """ModelError before a circular sum predicted to need more than ``limit``
+    Bessel-function evaluations or more harmonics than the kernel sums."""
+    if gas.disp.bounded_windows is False and v >= 1 and s == 0:
+        return              # the kernel itself reports this divergence
+    harmonics, evals = circular_work(gas, R, v, W, s, rtol)
+    where = f"at radius {R:.4g} xi and speed {v:.4g} c_s" + (
+        " (one of the grid points)" if npoints > 1 else "")
+    if not math.isfinite(harmonics) or harmonics > 2_000_000:
+        raise ModelError(
+            "trajectory.radius",
+            f"{where} the circular sum needs about {harmonics:.3g} harmonics "
+            f"(angular frequency v/R = {v / R:.4g} c/xi), more than the 2e6 "
+            "the engine sums; " + _TOO_MANY_HARMONICS)
+    if evals > limit:
+        raise ModelError(
+            "trajectory.radius",
+            f"{where} the circular sum needs about {evals:.3g} Bessel-function "
+            f"evaluations over {harmonics:.3g} harmonics (about "
+            f"{evals * _SECONDS_PER_BESSEL:.0f} s), more than the limit of "
+            f"{limit:.3g}; "
+            + _TOO_MANY_HARMONICS + "; from Python, "
+            "circular_rates(..., max_bessel_evaluations=...) raises the limit")
 
 
 def stationary_rates(condensate, probe, trajectory, rtol=1e-8):
@@ -645,13 +1044,19 @@ def stationary_rates(condensate, probe, trajectory, rtol=1e-8):
         res = circular_rates(condensate, probe, p["radius"], p["speed"], rtol=rtol)
     else:
         raise InputError("trajectory.kind", f"no stationary engine for {kind!r}")
+    from .regime import path_warnings
+    for w in path_warnings(condensate, probe, trajectory, res):
+        if w not in res.warnings:
+            res.warnings.append(w)
     return res
 
 
-def _with_regime(condensate, probe, res):
-    """Attach the regime-of-validity warnings to a result (no duplicates)."""
+def _with_regime(condensate, probe, res, rtol=None):
+    """Check the result (``_guard``) and attach the regime-of-validity
+    warnings (no duplicates)."""
     from .regime import regime_warnings
-    for w in regime_warnings(condensate, probe, res):
+    _guard(condensate, probe, res)
+    for w in regime_warnings(condensate, probe, res, rtol=rtol):
         if w not in res.warnings:
             res.warnings.append(w)
     return res
