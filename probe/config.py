@@ -53,6 +53,7 @@ SCHEMA = {
         "transverse_frequency": '"2 kHz"',
         "temperature": '"50 nK"',
         "dispersion": '"bogoliubov"',
+        "size": '"50 um"',
     },
     "probe": {
         "model": '"two-level"',
@@ -126,7 +127,10 @@ def validate_keys(raw):
 # ---------------------------------------------------------------------------
 def read_toml(path):
     """The dict of a TOML file; InputError naming the file on any failure."""
-    name = os.fspath(path)
+    try:
+        name = os.fspath(path)
+    except TypeError:
+        raise InputError("config", f"expected a file path, got {path!r}") from None
     try:
         with open(name, "rb") as fh:
             data = fh.read()
@@ -157,6 +161,8 @@ def override(config, assignment):
     ``"87Rb"``), otherwise as a plain string (``2 c_s``).  Unknown sections
     and keys are rejected with a suggestion.
     """
+    if not isinstance(config, dict):
+        raise InputError("config", f"must be a table of sections, got {config!r}")
     if not isinstance(assignment, str) or "=" not in assignment:
         raise InputError("--set", f"expected KEY=VALUE such as "
                                   f"'trajectory.speed=2 c_s', got {assignment!r}")
@@ -275,8 +281,11 @@ def build_condensate(body):
     temperature = parse_quantity(body.get("temperature", "0 K"),
                                  f"{s}.temperature", "temperature")
     dispersion = _choice(body, s, "dispersion", DISPERSION_NAMES, "bogoliubov")
+    size = None
+    if "size" in body:
+        size = parse_quantity(body["size"], f"{s}.size", "length")
     cond = Condensate(dim, mass, density, a, transverse_frequency=wperp,
-                      temperature=temperature, dispersion=dispersion)
+                      temperature=temperature, dispersion=dispersion, size=size)
     return cond, species
 
 
@@ -332,6 +341,28 @@ def _in_gas(vec, key, d, what):
                               f"only) but the {what} {vec.tolist()} leaves it")
 
 
+#: above this many sound speeds a speed is refused (the engine's range, see
+#: probe.engine.MAX_SPEED_OVER_C); checked here to give a hint about units
+_MAX_SPEED_OVER_C = 1e6
+
+
+def _speed(value, key, sound_speed):
+    """A speed (m/s) from a string with units; a speed beyond the engine's
+    range written with ``c`` (pint's speed of light) gets a hint that the
+    sound speed is written ``c_s``."""
+    speed = parse_quantity(value, key, "speed", sound_speed=sound_speed)
+    if speed > _MAX_SPEED_OVER_C * sound_speed:
+        hint = ""
+        if isinstance(value, str) and re.search(r"(?<![\w.])c(?![\w.])", value):
+            hint = ("; 'c' is the speed of light: write the gas's sound speed "
+                    "as 'c_s'")
+        raise InputError(key, f"{value!r} is {speed / sound_speed:.4g} times the "
+                              f"sound speed c_s = {sound_speed:.4g} m/s, above "
+                              f"the largest speed handled, {_MAX_SPEED_OVER_C:g} "
+                              f"c_s{hint}")
+    return speed
+
+
 def build_trajectory(body, condensate):
     """A trajectory object from the ``[trajectory]`` table."""
     from trajectories import Circular, Linear, TrajectoryError
@@ -345,8 +376,7 @@ def build_trajectory(body, condensate):
             _not_applicable(body, s, set(body) - _LINEAR_KEYS,
                             "by a linear trajectory (keys: "
                             + ", ".join(sorted(_LINEAR_KEYS)) + ")")
-            speed = parse_quantity(_require(body, s, "speed"), f"{s}.speed",
-                                   "speed", sound_speed=c)
+            speed = _speed(_require(body, s, "speed"), f"{s}.speed", c)
             direction = parse_vector(body.get("direction", [1, 0, 0]),
                                      f"{s}.direction", "dimensionless")
             _in_gas(direction, f"{s}.direction", d, "direction")
@@ -365,7 +395,7 @@ def build_trajectory(body, condensate):
                              "angular_frequency (e.g. \"100 rad/s\")")
         speed = omega = None
         if "speed" in body:
-            speed = parse_quantity(body["speed"], f"{s}.speed", "speed", sound_speed=c)
+            speed = _speed(body["speed"], f"{s}.speed", c)
         else:
             omega = parse_quantity(body["angular_frequency"],
                                    f"{s}.angular_frequency", "angular_frequency")
@@ -386,14 +416,23 @@ def build_trajectory(body, condensate):
         raise InputError(key, exc.message) from None
 
 
+#: allowed numerics.rtol: the inertial engine's error floor is 1e-13 (its
+#: rounding floor, probe.engine._ROUNDING); a tolerance above 0.1 is no
+#: longer a tolerance
+RTOL_RANGE = (1e-13, 0.1)
+
+
 def _rtol(raw):
     body = raw.get("numerics", {})
     value = body.get("rtol", 1e-8)
     if isinstance(value, bool) or not isinstance(value, (int, float, str)):
         raise InputError("numerics.rtol", f"must be a number such as 1e-8, got {value!r}")
     rtol = parse_quantity(value, "numerics.rtol", "dimensionless")
-    if not 0 < rtol < 1:
-        raise InputError("numerics.rtol", f"must be between 0 and 1 (e.g. 1e-8), got {rtol!r}")
+    if not RTOL_RANGE[0] <= rtol <= RTOL_RANGE[1]:
+        raise InputError("numerics.rtol",
+                         f"must be between {RTOL_RANGE[0]:g} and {RTOL_RANGE[1]:g} "
+                         f"(e.g. 1e-8), got {rtol!r}; the engine's rounding floor "
+                         f"is about {RTOL_RANGE[0]:g}")
     return rtol
 
 
@@ -502,6 +541,8 @@ def scenario_from_dict(raw, overrides=(), source=None):
 def load_config(path, overrides=()):
     """Read a TOML scenario file, apply ``overrides`` ("section.key=value"
     strings) and return the validated :class:`Scenario`."""
+    if isinstance(overrides, str):
+        overrides = (overrides,)
     raw = read_toml(path)
     return scenario_from_dict(raw, overrides, source=os.fspath(path))
 
