@@ -2,13 +2,17 @@
 
 Bad input of any kind (unreadable file, TOML syntax, unknown key, wrong
 units, impossible request) ends with one line ``error: <key>: <message>`` on
-stderr and exit status 2.
+stderr and exit status 2.  Nothing is printed or written before every
+scenario has been computed, and ``--output`` files are written whole or not
+at all (a temporary file renamed into place).
 """
 from __future__ import annotations
 
 import json
 import math
+import os
 import sys
+import tempfile
 
 import click
 import numpy as np
@@ -91,6 +95,8 @@ def _rows_inputs(sc_, info):
         rows.append(("transverse frequency",
                      f"{_q(cond.transverse_frequency / (2 * math.pi), 'Hz')}  "
                      f"(w_perp = {_q(cond.transverse_frequency, 'rad/s')})"))
+    if cond.size is not None:
+        rows.append(("uniform region radius", _q(cond.size, "um", 1e-6)))
     rows += [("temperature", _q(cond.temperature, "nK", 1e-9)),
              ("dispersion", gas["dispersion"]),
              ("probe model", prb["model"])]
@@ -143,11 +149,38 @@ def _rows_results(sc_, result):
             vt = result.up_threshold_speed
             rows.append(("up threshold speed",
                          f"{_q(vt, 'm/s')}  ({_num(np.asarray(vt) / c)} c_s)"))
-        rows += [("effective temperature", _q(result.effective_temperature, "nK", 1e-9)),
+        rows += [("effective temperature", _teff(result.effective_temperature)),
                  ("excited population", _num(result.excited_population))]
     if result.harmonics is not None:
         rows.append(("harmonics summed", str(result.harmonics)))
+    transit = _transit(sc_, result)
+    if transit is not None:
+        rows.append(("transit time (uniform region)", _q(transit["time"], "ms", 1e-3)))
+        if transit["expected_up"] is not None:
+            rows.append(("expected transitions in it",
+                         f"up {_num(transit['expected_up'])}, "
+                         f"down {_num(transit['expected_down'])}"))
+        else:
+            rows.append(("expected phonons emitted", _num(transit["expected_emitted"])))
     return rows
+
+
+def _teff(teff):
+    """The effective temperature in nK; 'undetermined' where it is NaN."""
+    if teff is None:
+        return "-"
+    a = np.asarray(teff, float)
+    if a.ndim == 0 and math.isnan(float(a)):
+        return "undetermined (see warnings)"
+    return _q(a, "nK", 1e-9)
+
+
+def _transit(scenario, result):
+    """The straight transit through the uniform region, or None."""
+    from .regime import transit_summary
+    if not getattr(scenario.trajectory, "stationary", False):
+        return None
+    return transit_summary(scenario.condensate, scenario.trajectory, result)
 
 
 def format_table(scenario, result):
@@ -182,7 +215,43 @@ def result_json(scenario, result):
     out["gas_parameter_name"] = info["derived"]["gas_parameter_name"]
     out["healing_length_convention"] = "xi = hbar/(m c)"
     out["inputs"] = {k: info[k] for k in ("condensate", "probe", "trajectory", "numerics")}
+    out["inputs"]["condensate"]["size"] = scenario.condensate.size
+    transit = _transit(scenario, result)
+    out["transit"] = None if transit is None else {
+        k: _json_value(v) for k, v in transit.items()}
     return out
+
+
+def _json_value(x):
+    if x is None:
+        return None
+    a = np.asarray(x, float)
+    if a.ndim:
+        return [None if not math.isfinite(v) else v for v in a.tolist()]
+    v = float(a)
+    return v if math.isfinite(v) else None
+
+
+def write_atomic(path, text):
+    """Write ``text`` to ``path`` whole or not at all: a temporary file in the
+    same folder, renamed over ``path`` once complete.  InputError (key
+    ``--output``) when the file cannot be written."""
+    target = os.fspath(path)
+    folder = os.path.dirname(os.path.abspath(target))
+    tmp = None
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{os.path.basename(target)}.",
+                                   suffix=".tmp", dir=folder)
+        with os.fdopen(fd, "w") as fh:
+            fh.write(text)
+        os.replace(tmp, target)
+        tmp = None
+    except OSError as exc:
+        raise InputError("--output", f"cannot write {target!r}: "
+                                     f"{exc.strerror or exc}") from None
+    finally:
+        if tmp is not None and os.path.exists(tmp):
+            os.unlink(tmp)
 
 
 # ---------------------------------------------------------------------------
@@ -202,7 +271,10 @@ def cli():
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE",
               help="Override a configuration entry, e.g. --set 'trajectory.speed=2 c_s'. "
                    "Repeatable; applied to every CONFIG.")
-def rates(configs, as_json, overrides):
+@click.option("-o", "--output", "output", default=None, metavar="FILE",
+              help="Write the table (or JSON) to FILE instead of the terminal; "
+                   "FILE is written whole or left untouched.")
+def rates(configs, as_json, overrides, output):
     """Stationary up/down (or emission) rates for each scenario file CONFIG."""
     from .config import load_config
 
@@ -212,14 +284,18 @@ def rates(configs, as_json, overrides):
         scenarios = [load_config(path, overrides) for path in configs]
         for scenario in scenarios:
             done.append((scenario, scenario.rates()))
+        if as_json:
+            objs = [result_json(s, r) for s, r in done]
+            payload = objs[0] if len(objs) == 1 else objs
+            text = json.dumps(payload, indent=2, allow_nan=False)
+        else:
+            text = "\n\n".join(format_table(s, r) for s, r in done)
+        if output is not None:
+            write_atomic(output, text + "\n")
     except errors as exc:
         _fail(exc)
-    if as_json:
-        objs = [result_json(s, r) for s, r in done]
-        payload = objs[0] if len(objs) == 1 else objs
-        click.echo(json.dumps(payload, indent=2, allow_nan=False))
-    else:
-        click.echo("\n\n".join(format_table(s, r) for s, r in done))
+    if output is None:
+        click.echo(text)
 
 
 def main(argv=None):
