@@ -714,16 +714,14 @@ def _worker_init():
 
 
 def _pool(workers):
-    """Worker processes: forked when this process runs a single thread (no
-    start-up imports), else from a fork server that has imported the engine
-    (forking a multi-threaded process is unsafe)."""
+    """Worker processes started from a fork server that has imported the
+    engine (cheap to start; forking this process directly would share its
+    memory copy-on-write, which measurably slows the workers, and is unsafe
+    when it runs other threads); spawned where there is no fork server."""
     import multiprocessing as mp
     from concurrent.futures import ProcessPoolExecutor
 
-    methods = mp.get_all_start_methods()
-    if "fork" in methods and threading.active_count() == 1:
-        ctx = mp.get_context("fork")
-    elif "forkserver" in methods:
+    if "forkserver" in mp.get_all_start_methods():
         ctx = mp.get_context("forkserver")
         ctx.set_forkserver_preload(["probe.sweep", "probe.engine", "probe.config"])
     else:

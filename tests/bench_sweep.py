@@ -6,8 +6,10 @@ A N x N (default 200 x 200) map of the circular engine over speed (0.2 to
 2 c_s) and radius (2 to 50 um, log-spaced) for the quasi-2D 23Na gas of
 examples/ring2d_circular.toml (healing length 1.14 um), written to a CSV
 exactly as `probe sweep ... --out` does, once with one worker and once with
-`--workers 2`.  Prints both wall times, the time per point, the ratio, and
-checks that the two files are byte-identical.  Single-threaded numerics:
+`--workers 2`.  Prints both wall times, the CPU seconds spent (this process
+and its worker processes: a wall time well above CPU/workers means other
+programs shared the cores), the time per point, the ratio, and checks that
+the two files are byte-identical.  Single-threaded numerics:
 OMP_NUM_THREADS etc. are set to 1 before numpy loads.
 """
 import os
@@ -15,6 +17,7 @@ import os
 for _v in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_v, "1")
 
+import resource  # noqa: E402
 import sys  # noqa: E402
 import tempfile  # noqa: E402
 import time  # noqa: E402
@@ -25,12 +28,20 @@ from probe.sweep import sweep  # noqa: E402
 RING = str(Path(__file__).resolve().parent.parent / "examples" / "ring2d_circular.toml")
 
 
+def _cpu():
+    """CPU seconds of this process and of its finished children (the forked
+    workers)."""
+    me = resource.getrusage(resource.RUSAGE_SELF)
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return me.ru_utime + me.ru_stime + kids.ru_utime + kids.ru_stime
+
+
 def run(n, workers, out):
     vary = [("trajectory.speed", "0.2 c_s", "2 c_s", n),
             ("trajectory.radius", "2 um", "50 um", n)]
-    t0 = time.perf_counter()
+    c0, t0 = _cpu(), time.perf_counter()
     res = sweep(RING, vary, log=("trajectory.radius",), out=out, workers=workers)
-    return time.perf_counter() - t0, res
+    return time.perf_counter() - t0, _cpu() - c0, res
 
 
 def main():
@@ -40,11 +51,15 @@ def main():
     print(f"{n} x {n} = {n * n} points, circular engine, 2D gas "
           f"(ring2d_circular.toml), speed 0.2..2 c_s, radius 2..50 um (log); "
           f"{os.cpu_count()} CPUs")
+    # imports and first calls outside the timings
+    sweep(RING, [("trajectory.speed", "0.5 c_s", "1 c_s", 2)])
     with tempfile.TemporaryDirectory() as tmp:
-        one, res1 = run(n, 1, Path(tmp) / "one.csv")
-        print(f"  1 worker : {one:7.2f} s  ({one / n**2 * 1e3:.3f} ms per point)")
-        two, res2 = run(n, 2, Path(tmp) / "two.csv")
-        print(f"  2 workers: {two:7.2f} s  ({two / n**2 * 1e3:.3f} ms per point)")
+        one, cpu1, res1 = run(n, 1, Path(tmp) / "one.csv")
+        print(f"  1 worker : {one:7.2f} s wall, {cpu1:7.2f} s CPU  "
+              f"({one / n**2 * 1e3:.3f} ms per point)")
+        two, cpu2, res2 = run(n, 2, Path(tmp) / "two.csv")
+        print(f"  2 workers: {two:7.2f} s wall, {cpu2:7.2f} s CPU  "
+              f"({two / n**2 * 1e3:.3f} ms per point)")
         same = (Path(tmp) / "one.csv").read_bytes() == (Path(tmp) / "two.csv").read_bytes()
     print(f"  load average after: {os.getloadavg()[0]:.2f}")
     harm = res1.column("harmonics")

@@ -294,12 +294,7 @@ def test_ctrl_c_keeps_the_rows_and_says_how_to_resume(tmp_path):
 # ---------------------------------------------------------------------------
 # local worker processes
 # ---------------------------------------------------------------------------
-@pytest.mark.parametrize("threads", [None, 2], ids=["as-is", "threaded-parent"])
-def test_workers_give_the_same_numbers(tmp_path, monkeypatch, threads):
-    # a parent running other threads starts its workers from a fork server
-    if threads is not None:
-        import threading
-        monkeypatch.setattr(threading, "active_count", lambda: threads)
+def test_workers_give_the_same_numbers(tmp_path):
     one = sweep(RING, VARY_RING, out=tmp_path / "one.csv")
     two = sweep(RING, VARY_RING, out=tmp_path / "two.csv", workers=2, chunk_size=3)
     assert _same(one.data, two.data) and one.warnings == two.warnings
