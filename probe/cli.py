@@ -13,6 +13,7 @@ import math
 import os
 import sys
 import tempfile
+import warnings
 
 import click
 import numpy as np
@@ -282,8 +283,13 @@ def rates(configs, as_json, overrides, output):
     done = []
     try:
         scenarios = [load_config(path, overrides) for path in configs]
-        for scenario in scenarios:
-            done.append((scenario, scenario.rates()))
+        with warnings.catch_warnings():
+            # numpy's overflow/invalid-value warnings are not for the reader:
+            # every result passes the engine's guard (no NaN, inf or negative
+            # number is returned; a ModelError says why instead)
+            warnings.simplefilter("ignore", RuntimeWarning)
+            for scenario in scenarios:
+                done.append((scenario, scenario.rates()))
         if as_json:
             objs = [result_json(s, r) for s, r in done]
             payload = objs[0] if len(objs) == 1 else objs
