@@ -76,6 +76,7 @@ NUMERIC_KEYS = {
     "condensate.transverse_frequency": "frequency",
     "condensate.temperature": "temperature",
     "condensate.mass": "mass",
+    "condensate.size": "length",
     "probe.gap": "frequency",
     "probe.coupling_length": "length",
     "probe.coupling": "coupling",
