@@ -42,6 +42,10 @@ KB = sc.k
 _CUT = 80.0
 #: relative floor of every error estimate: rounding in roots, nodes and sums
 _ROUNDING = 1e-13
+#: absolute floor of every error estimate in the gas's units (A xi^-d xi/c):
+#: a product of factors that passes through the subnormal range (below
+#: 2.2e-308) keeps only a few digits, so a value this small has none
+_TINY = 1e-300
 _EPS = float(np.finfo(float).eps)
 
 # --- range of the inputs (in the gas's units) the engine is checked over in
@@ -55,8 +59,11 @@ GAP_RANGE = (1e-12, 1e12)
 MIN_RADIUS_OVER_XI = 1e-9
 #: below this speed (units of c) straight motion is treated as static: the
 #: windows shrink onto the resonance shell and their edges, computed one by
-#: one, lose digits as eps/v, while the static value differs by O(v^2)
+#: one, lose digits as eps/v (3D) or collapse (1D, 2D, v < eps), while the
+#: static value differs by O(v^2).  In 3D the switch is made per point, up to
+#: STATIC_SPEED_3D, wherever the static value's error bound is the smaller.
 STATIC_SPEED = 1e-8
+STATIC_SPEED_3D = 1e-4
 #: |v - v_th| / v_th below this is "at" a threshold speed (rounding of v and
 #: of v_th): in 1D the rate diverges there, in 2D it jumps
 AT_THRESHOLD = 1e-13
@@ -330,7 +337,13 @@ def inertial_kernel(gas, v, W, s, rtol=1e-8, energy=False):
     tags = ["plain"] + (["thermal"] if thermal else []) + (["energy"] if energy else [])
     # very slow motion is static (see STATIC_SPEED); for the gapless density
     # probe every subsonic speed gives zero, so only W > 0 points are affected
-    moving = (v >= STATIC_SPEED) | ((v > 0) & (W == 0))
+    slow = v < STATIC_SPEED
+    if gas.d == 3:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            vg0 = disp.group_velocity(disp.inverse(W))
+            window_err = 4.0 * _EPS * vg0 / v          # 4 eps (a + b)/(b - a)
+        slow = slow | ((v < STATIC_SPEED_3D) & (_slow_static_error(gas, v, W, s) < window_err))
+    moving = ~slow | ((v > 0) & (W == 0))
     res = {}
     nW = v.size
     zero = np.zeros(nW)
@@ -707,11 +720,15 @@ def _check_array(name, x, allow_zero=True):
     return x
 
 
-def _finish_two_level(cond, gap, up, down, up_err=None, down_err=None):
+def _finish_two_level(cond, gap, up, down, up_err=None, down_err=None,
+                      up_positive=False):
     """Effective temperature hbar Omega / (k_B ln(down/up)) and excited
     population.  Where ln(down/up) is not larger than 4 times its own error
     (from the rates' error estimates) the effective temperature is not
-    determined and is NaN (the regime warnings say so and give a bound)."""
+    determined and is NaN (the regime warnings say so and give a bound).
+    ``up_positive`` marks points whose up rate cannot vanish (a warm gas, or
+    circular motion): there an up rate of 0 has underflowed, and the
+    effective temperature is NaN too, not 0."""
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = down / up
         log = np.log(ratio)
@@ -719,7 +736,8 @@ def _finish_two_level(cond, gap, up, down, up_err=None, down_err=None):
         if up_err is not None:
             unc = 4.0 * (up_err / up + down_err / down)
             teff = np.where((up > 0) & ~(np.abs(log) > unc), np.nan, teff)
-        teff = np.where(up == 0, 0.0, teff)
+        zero = up == 0
+        teff = np.where(zero, np.where(up_positive & (down > 0), np.nan, 0.0), teff)
         pop = np.where(up + down > 0, up / (up + down), 0.0)
     return teff, pop
 
@@ -874,6 +892,13 @@ def _max_of(x):
     return float(np.max(np.asarray(x, float)))
 
 
+def _tiny_floor(value_error):
+    """The error estimate of a dimensionless (value, error) pair with the
+    absolute floor _TINY wherever the value is not zero."""
+    val, err = (np.asarray(x, float) for x in value_error)
+    return np.where(val != 0, np.maximum(err, _TINY), err)
+
+
 def _shape(x, shape):
     x = np.asarray(x, float).reshape(shape)
     return float(x) if x.ndim == 0 else x
@@ -901,11 +926,14 @@ def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
         _error_check("up rate", out["up"][0], out["up"][1])
         _error_check("down rate", out["down"][0], out["down"][1])
         up, dn = out["up"][0] * pref, out["down"][0] * pref
+        up_err = _tiny_floor(out["up"]) * pref
+        dn_err = _tiny_floor(out["down"]) * pref
         res.up_rate, res.down_rate = _shape(up, shape), _shape(dn, shape)
-        res.up_rate_error = _shape(out["up"][1] * pref, shape)
-        res.down_rate_error = _shape(out["down"][1] * pref, shape)
+        res.up_rate_error = _shape(up_err, shape)
+        res.down_rate_error = _shape(dn_err, shape)
         teff, pop = _finish_two_level(condensate, WW.ravel() * w0, up, dn,
-                                      out["up"][1] * pref, out["down"][1] * pref)
+                                      up_err, dn_err,
+                                      up_positive=condensate.temperature > 0)
         res.effective_temperature = _shape(teff, shape)
         res.excited_population = _shape(pop, shape)
         vt, _ = condensate.dispersion.threshold(WW.ravel())
@@ -920,7 +948,7 @@ def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
         out = inertial_kernel(gas, vv, np.zeros(shape), gas.s, rtol=rtol, energy=True)
         _error_check("emission rate", out["emission"][0], out["emission"][1])
         res.emission_rate = _shape(out["emission"][0] * pref, shape)
-        res.emission_rate_error = _shape(out["emission"][1] * pref, shape)
+        res.emission_rate_error = _shape(_tiny_floor(out["emission"]) * pref, shape)
         res.absorption_rate = _shape(out["absorption"][0] * pref, shape)
         # net energy per unit time: (1+n) - n = 1 weight, hbar w per quantum
         power = out["energy"][0] * pref * HBAR * w0
@@ -984,17 +1012,20 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
     res.harmonics = harmonics.reshape(shape) if shape else int(harmonics[0])
     if probe.has_gap:
         up, dn = vals["up"] * pref, vals["down"] * pref
+        up_err = _tiny_floor((vals["up"], errs["up"])) * pref
+        dn_err = _tiny_floor((vals["down"], errs["down"])) * pref
         res.up_rate, res.down_rate = _shape(up, shape), _shape(dn, shape)
-        res.up_rate_error = _shape(errs["up"] * pref, shape)
-        res.down_rate_error = _shape(errs["down"] * pref, shape)
-        teff, pop = _finish_two_level(condensate, Wf * w0, up, dn,
-                                      errs["up"] * pref, errs["down"] * pref)
+        res.up_rate_error = _shape(up_err, shape)
+        res.down_rate_error = _shape(dn_err, shape)
+        teff, pop = _finish_two_level(condensate, Wf * w0, up, dn, up_err, dn_err,
+                                      up_positive=vf > 0)
         res.effective_temperature = _shape(teff, shape)
         res.excited_population = _shape(pop, shape)
         res.gap = _shape(Wf * w0, shape)
     else:
         res.emission_rate = _shape(vals["emission"] * pref, shape)
-        res.emission_rate_error = _shape(errs["emission"] * pref, shape)
+        res.emission_rate_error = _shape(
+            _tiny_floor((vals["emission"], errs["emission"])) * pref, shape)
         res.absorption_rate = _shape(vals["absorption"] * pref, shape)
         power = vals["energy"] * pref * HBAR * w0
         res.power = _shape(power, shape)

@@ -253,9 +253,23 @@ def _effective_temperature_warnings(probe, result):
     te = np.asarray(te, float)
     up = np.broadcast_to(np.asarray(result.up_rate, float), te.shape)
     dn = np.broadcast_to(np.asarray(result.down_rate, float), te.shape)
+    out = []
+    under = np.isnan(te) & (up == 0) & (dn > 0)
+    if np.any(under):
+        gaps_ = np.broadcast_to(np.asarray(probe.gap if result.gap is None else result.gap,
+                                           float), te.shape)
+        # up < 1e-300 down, so ln(down/up) > 690.8
+        bound = HBAR * gaps_ / (KB * math.log(1e300))
+        where = _grid_prefix(under)
+        lead = f"{where} " if where else ""
+        out.append(
+            f"{lead}the effective temperature is undetermined (reported as NaN, "
+            "null in JSON): the up rate is not zero here (a warm gas or circular "
+            "motion) but below the smallest number a double holds, reported as 0; "
+            f"T_eff < {_g(float(np.max(bound)) * 1e9)} nK")
     mask = np.isnan(te) & (up > 0)
     if not np.any(mask):
-        return []
+        return out
     gaps = np.broadcast_to(np.asarray(probe.gap if result.gap is None else result.gap,
                                       float), te.shape)
     eu = getattr(result, "up_rate_error", None)
@@ -268,7 +282,7 @@ def _effective_temperature_warnings(probe, result):
     i = int(np.argmax(mask))
     where = _grid_prefix(mask)
     lead = f"{where} " if where else ""
-    return [
+    return out + [
         f"{lead}the effective temperature is undetermined (reported as NaN, "
         f"null in JSON): the up and down rates agree to within "
         f"{TEFF_ERROR_FACTOR:g} times their error estimates "
