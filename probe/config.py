@@ -144,13 +144,16 @@ def read_toml(path):
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(name, f"TOML syntax error: {exc}") from None
+    except RecursionError:
+        raise InputError(name, "TOML syntax error: arrays or tables nested too "
+                               "deeply to read") from None
 
 
 def _toml_value(text):
     """A --set value: a TOML value if it parses as one, else the plain string."""
     try:
         return tomllib.loads(f"v = {text}")["v"]
-    except tomllib.TOMLDecodeError:
+    except (tomllib.TOMLDecodeError, RecursionError):
         return text.strip()
 
 
