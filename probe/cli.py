@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import math
 import os
+import re
 import sys
 import tempfile
 import warnings
@@ -39,11 +40,18 @@ def _input_errors():
     return (InputError, ModelError, TrajectoryError)
 
 
+_CONTROL = re.compile(r"[\x00-\x1f\x7f]")
+
+
 def _fail(exc):
     key = getattr(exc, "key", None)
     message = getattr(exc, "message", None) or str(exc)
     if key and not message.startswith(f"{key}:"):
         message = f"{key}: {message}"
+    # one line whatever the input: control characters (a newline inside a
+    # quoted TOML key, say) are shown escaped
+    message = _CONTROL.sub(lambda m: m.group(0).encode("unicode_escape").decode(),
+                           message)
     raise ProbeError(message) from None
 
 
