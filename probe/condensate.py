@@ -104,6 +104,29 @@ class Condensate:
                     "condensate.dispersion",
                     f"must be one of {sorted(DISPERSIONS)}, got {dispersion!r}")
             self.dispersion = DISPERSIONS[dispersion]()
+        self._check_scales()
+
+    def _check_scales(self):
+        """InputError unless mu, c, xi and c/xi are finite and positive in
+        double precision (a density of 1e-320 m^-3 would make c underflow)."""
+        try:
+            scales = {"chemical potential": self.chemical_potential,
+                      "sound speed": self.sound_speed,
+                      "healing length": self.healing_length,
+                      "frequency unit c/xi": self.frequency_unit}
+        except (ZeroDivisionError, OverflowError, ValueError):
+            scales = None
+        if scales is None or not all(math.isfinite(v) and v > 0 for v in scales.values()):
+            shown = ("cannot be formed" if scales is None else
+                     ", ".join(f"{k} {v:.3g}" for k, v in scales.items()))
+            raise InputError(
+                "condensate",
+                f"the gas's scales are not finite positive numbers ({shown}) for "
+                f"density {self.density:.3g} m^-{self.dimension}, mass "
+                f"{self.mass:.3g} kg, scattering length {self.scattering_length:.3g} m"
+                + ("" if self.transverse_frequency is None else
+                   f", transverse frequency {self.transverse_frequency:.3g} rad/s")
+                + ": these inputs are outside the range of double precision")
 
     # --- derived quantities -------------------------------------------------
     @property

@@ -698,9 +698,10 @@ def _prefactor(cond, probe):
         raise ModelError(
             "probe.coupling",
             f"the rate scale (kappa/hbar)^2 n xi^-d / (c/xi) = {pref:.4g} s^-1 "
-            f"for kappa = {probe.coupling:.4g} J m^{cond.dimension} is not a "
-            "finite positive number; the coupling is far outside the range "
-            "of first-order perturbation theory")
+            f"for kappa = {probe.coupling:.4g} J m^{cond.dimension} and density "
+            f"n = {cond.density:.4g} m^-{cond.dimension} is not a finite positive "
+            "number; coupling or density is far outside the range of first-order "
+            "perturbation theory in a dilute gas")
     return pref
 
 
