@@ -339,7 +339,7 @@ def _coupling_example(d):
 def _in_gas(vec, key, d, what):
     """Reject vector components along the frozen directions of a d < 3 gas."""
     if d < 3 and vec.size > d and np.any(vec[d:] != 0):
-        axes = "x" if d == 1 else "x-y plane"
+        axes = "x axis" if d == 1 else "x-y plane"
         raise InputError(key, f"the gas is {d}D (it extends along the {axes} "
                               f"only) but the {what} {vec.tolist()} leaves it")
 
