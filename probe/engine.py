@@ -1035,11 +1035,37 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
     return _with_regime(condensate, probe, res, rtol=rtol)
 
 
+def _clearly_cheap(gas, R, v, W, s, limit):
+    """A few-flop upper estimate of the circular sum's work: True when it is
+    far below the limits, so that ``circular_work`` (about 0.5 ms) is not
+    needed.  Harmonics reach about omega(q_hi) R/v with q_hi beyond the
+    window edge (q^2/2 > v q + W for Bogoliubov), plus the negative ones
+    (W R/v) and Kapteyn's tail, which is short (a few hundred terms) unless
+    v is near c; each 3D harmonic costs about 2 q R + 48 Bessel terms."""
+    if 0.9 < v < 1.1:
+        return False
+    qcut = math.sqrt(_CUT) / s if s > 0 else math.inf
+    if gas.disp.bounded_windows:
+        q_hi = v + math.sqrt(v * v + 2 * W) + 2
+    else:
+        q_hi = W / (1 - v) + 2 if v < 1 else math.inf
+    q_hi = min(q_hi, qcut)
+    if not math.isfinite(q_hi):
+        return False
+    w_hi = float(gas.disp.omega(np.array([q_hi]))[0])
+    harmonics = R * (w_hi + 2 * W) / v + 2 * R * q_hi + 2000
+    if harmonics > 2e5:
+        return False
+    return gas.d != 3 or harmonics * (2 * q_hi * R + 48) < 0.01 * limit
+
+
 def _work_check(gas, R, v, W, s, rtol, limit, npoints):
     """ModelError before a circular sum predicted to need more than ``limit``
     Bessel-function evaluations or more harmonics than the kernel sums."""
     if gas.disp.bounded_windows is False and v >= 1 and s == 0:
         return              # the kernel itself reports this divergence
+    if _clearly_cheap(gas, R, v, W, s, limit):
+        return              # the kernel's running counts still stop runaways
     harmonics, evals = circular_work(gas, R, v, W, s, rtol)
     where = f"at radius {R:.4g} xi and speed {v:.4g} c_s" + (
         " (one of the grid points)" if npoints > 1 else "")
