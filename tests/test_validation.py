@@ -7,8 +7,8 @@ running the CLI; ``test_docs_table_is_current`` fails when the document and
 the tool disagree.  Regenerate it with ``python tests/test_validation.py``.
 """
 import json
-import math
 import os
+import re
 import sys
 from pathlib import Path
 
@@ -287,9 +287,22 @@ def test_messages_name_value_and_what_is_allowed(tmp_path):
             assert t in line, (name, t, line)
 
 
+#: rows whose message quotes text of Python, tomllib or pint (which may change
+#: with their versions): only the part before that text is compared
+LIBRARY_TEXT = re.compile(r"(TOML syntax error: |cannot read file: |not a UTF-8 text file |"
+                          r"as a quantity \(|mixes incompatible units \()")
+
+
+def _stable(text):
+    m = LIBRARY_TEXT.search(text)
+    return text[:m.end()] if m else text
+
+
 def test_docs_table_is_current(tmp_path):
     assert DOC.exists(), "run: python tests/test_validation.py"
-    assert DOC.read_text() == doc_text(tmp_path), (
+    have = [_stable(line) for line in DOC.read_text().splitlines()]
+    want = [_stable(line) for line in doc_text(tmp_path).splitlines()]
+    assert have == want, (
         "docs/bad_inputs.md is out of date; run: python tests/test_validation.py")
 
 
