@@ -317,7 +317,7 @@ def main(argv=None):
     return cli.main(args=argv, prog_name="probe")
 
 
-if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+# the commands defined in other modules register themselves on ``cli``
 from . import design_cli  # noqa: E402,F401
 from . import transit_cli  # noqa: E402,F401
+
