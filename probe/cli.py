@@ -12,7 +12,6 @@ import json
 import math
 import os
 import re
-import sys
 import tempfile
 import warnings
 
@@ -127,7 +126,6 @@ def _rows_inputs(sc_, info):
 
 
 def _rows_derived(sc_, info):
-    cond = sc_.condensate
     der = info["derived"]
     mu = der["chemical_potential"]
     rows = [("chemical potential", f"{_q(mu, 'J')}  (mu/h = {_num(mu / sc.h)} Hz, "

@@ -61,7 +61,6 @@ def _monotone_newton(f, fprime, x0, iters=100):
     each entry stops once its step is below 1e-12 relative (the next error is
     the square of that)."""
     x = np.array(x0, dtype=float)
-    active = np.ones(x.shape, dtype=bool)
     idx = np.arange(x.size)
     for _ in range(iters):
         if idx.size == 0:

@@ -252,7 +252,7 @@ def _window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
 
     def make2(t):
         def f(th, i):
-            A_, Bc = aa[i, None], bq[i, None]
+            A_ = aa[i, None]
             Bf = b[idx][i, None]
             fin = ~np.isinf(Bf)
             # finite windows: q = (a+b)/2 - (b-a)/2 cos(theta), dq/sqrt(..)=dtheta

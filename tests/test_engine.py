@@ -25,7 +25,7 @@ from scipy.optimize import brentq, minimize_scalar
 from scipy.special import j0, spherical_jn
 
 from probe.condensate import Condensate
-from probe.dispersion import Bogoliubov, Phonon
+from probe.dispersion import Bogoliubov
 from probe.engine import circular_rates, inertial_rates, stationary_rates
 from probe.errors import ModelError
 from probe.probes import DensityProbe, TwoLevelProbe, coupling_from_scattering_length

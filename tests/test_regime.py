@@ -1,7 +1,6 @@
 import math
 
 import numpy as np
-import pytest
 from scipy import constants as sc
 from scipy.special import zeta
 

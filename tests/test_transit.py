@@ -18,7 +18,7 @@ from probe.condensate import Condensate
 from probe.engine import circular_rates, inertial_rates
 from probe.errors import InputError, ModelError
 from probe.probes import DensityProbe, TwoLevelProbe
-from probe.switching import Gaussian, PathSpan, Window, smooth_step
+from probe.switching import Gaussian, PathSpan, Window
 from probe.transit import transit_probabilities
 from trajectories import Circular, Linear, Spline
 

@@ -140,7 +140,7 @@ CASES = [
     ("gap above 1e12 c/xi", "3D", None, ["probe.gap=1e20 Hz"], []),
     ("1D density probe exactly at the sound speed", "1D", None, ["trajectory.speed=1 c_s"], []),
     ("1D two-level probe exactly at its threshold speed", "1D",
-     ('model = "density"', 'model = "two-level"\ngap = "100 Hz"'), [f"trajectory.speed={{VT1}} c_s"], []),
+     ('model = "density"', 'model = "two-level"\ngap = "100 Hz"'), ["trajectory.speed={VT1} c_s"], []),
     ("phonon dispersion, point probe, supersonic", "3D", None, ["condensate.dispersion=phonon"], []),
     ("radius below 1e-9 xi", "2D", None, ["trajectory.radius=1e-12 um"], []),
     ("3D circle too costly (R ~ 1e4 xi, 1.5 c_s)", "3D", None,

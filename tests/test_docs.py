@@ -1,0 +1,14 @@
+"""The README's table of bad inputs is the generated one in docs/bad_inputs.md
+(which tests/test_validation.py checks against the code)."""
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def test_readme_carries_the_bad_input_table():
+    doc = (ROOT / "docs" / "bad_inputs.md").read_text(encoding="utf-8")
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    rows = [line for line in doc.splitlines() if line.startswith("| ")]
+    assert len(rows) > 20
+    missing = [r for r in rows if r not in readme]
+    assert not missing, f"README lacks {len(missing)} rows of docs/bad_inputs.md, e.g. {missing[0]}"
