@@ -427,7 +427,7 @@ def test_a_transit_sweep_gives_the_probabilities_of_each_transit(tmp_path):
 
 def test_a_spline_transit_reads_its_waypoint_file_from_any_folder(tmp_path, monkeypatch):
     _transit_scenarios()
-    spline = EXAMPLES / "stir2d_spline.toml"
+    spline = EXAMPLES / "transits" / "stir2d_spline.toml"
     if not spline.exists():
         pytest.skip("no spline scenario here")
     monkeypatch.chdir(tmp_path)              # the waypoint file is relative to the scenario

@@ -334,7 +334,7 @@ switching_width = "10 ms"
 # examples
 # ---------------------------------------------------------------------------
 def test_transit_examples_run():
-    r = run("transit", EXAMPLES / "stir2d_spline.toml", EXAMPLES / "cross3d_gaussian.toml",
+    r = run("transit", EXAMPLES / "transits" / "stir2d_spline.toml", EXAMPLES / "cross3d_gaussian.toml",
             "--json")
     assert r.exit_code == 0, r.output
     stir, cross = json.loads(r.stdout)
@@ -356,3 +356,15 @@ def test_rates_still_run_on_stationary_examples(name):
         assert r.exit_code == 0, r.output
     else:
         assert r.exit_code == 2 and "probe transit" in r.stderr
+
+
+def test_rates_on_all_top_level_examples_in_one_call():
+    """`probe rates examples/*.toml` works for every example; finite-transit
+    scenarios live in examples/transits/ and run with `probe transit`."""
+    files = sorted(EXAMPLES.glob("*.toml"))
+    assert len(files) >= 4
+    r = run("rates", *files, "--json")
+    assert r.exit_code == 0, r.output
+    assert len(json.loads(r.stdout)) == len(files)
+    r = run("transit", *sorted((EXAMPLES / "transits").glob("*.toml")), "--json")
+    assert r.exit_code == 0, r.output
