@@ -176,10 +176,14 @@ def compare(config, vary, log, models, gap, width, temperature, out, plot,
     except errors as exc:
         _fail(exc)
     click.echo(result.summary())
-    if out is not None:
-        click.echo(f"wrote {out}")
-    if plot is not None:
-        click.echo(f"wrote {plot}")
+    _report_written(out, plot)
+
+
+def _report_written(*paths):
+    """Say which of the requested files were written."""
+    for path in paths:
+        if path is not None:
+            click.echo(f"wrote {path}")
 
 
 # ---------------------------------------------------------------------------
@@ -213,10 +217,7 @@ def threshold(config, vary, log, out, plot, overrides):
     except errors as exc:
         _fail(exc)
     click.echo(table.summary(rows=out is None))
-    if out is not None:
-        click.echo(f"wrote {out}")
-    if plot is not None:
-        click.echo(f"wrote {plot}")
+    _report_written(out, plot)
 
 
 # ---------------------------------------------------------------------------
