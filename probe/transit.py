@@ -74,6 +74,23 @@ Numerical method (natural units of the gas: q = k xi, t in xi/c)
   (re, im) storage; directions are swept in cache-sized blocks over runs of
   16 q nodes.  Work is split into chunks of directions and q that fit in
   ``max_memory`` and run on threads.
+* FFT route (``method="fft"``, or chosen by ``"auto"`` when its cost
+  model says it is cheaper -- typically long transits of paths of bounded
+  size, where the direct sums cost (times x nodes x directions) and the
+  FFTs (directions x K x M log M)): the radial nodes are uniform in
+  frequency, w_j = j dw with dw = 2 pi/(M dt), and the first pass puts the
+  sub-rule (2 dw) at the conjugate length T_c + D/min(v_g) in w, the rule in
+  w carrying the Jacobian 1/v_g; every direction's amplitudes on all nodes
+  come from K length-M FFTs of b_m e^{-i q_c u_m} T_k(u_m/U) (the
+  Jacobi-Anger series of e^{-i (q - q_c) u}, see
+  :mod:`probe.amplitudes_fft`), with the even and odd time samples
+  transformed apart so that the time sub-rule comes free.  For a two-level
+  probe dw divides 2 Omega, so both detunings read one set of transforms
+  (the time step is adjusted to the grid and the window extended by under
+  one step; not for a hard cut).  One angular rule, the cover of every
+  node's, serves all nodes; the 3D angular check is the cover at 3/4 the
+  degree on every node.  Both routes compute the same sums and are checked
+  against each other and the closed forms in the tests.
 * If an error estimate exceeds its share of ``rtol`` that part is refined
   (h or dt halved, angular degree x 1.4, q_max x 1.5) and the whole sum
   recomputed, up to ``max_refinements`` times.  ``achieved_rtol`` is the
@@ -95,6 +112,7 @@ from scipy.integrate import lebedev_rule
 from scipy.optimize import brentq
 from scipy.special import roots_legendre
 
+from .amplitudes_fft import chebyshev_degree, fft_amplitude_work, fft_length
 from .errors import InputError, ModelError
 from .results import _jsonable
 from .switching import Switching
@@ -111,6 +129,15 @@ _BREAKDOWN = 0.1      # probability above which first order is suspect
 _FLOOR = 1e-9         # relative floor for exponentially small channels
 _BLOCK_BYTES = 1.0e6  # e^{-i q n.x} and its step factor per direction block
 _QBLOCK = 16          # q nodes per pass over the direction blocks
+# cost model of the two amplitude routes (seconds per unit of work, 2 threads
+# on the development machine; only their ratios matter): phasor route per
+# (direction, node, time) with four channel columns; FFT route per
+# M log2 M of one transform, per time sample of one signal, per Bessel step
+_COST_PHASOR = 3.0e-9
+_COST_FFT = 1.0e-9
+_COST_SIGNAL = 4.0e-9
+_COST_BESSEL = 1.5e-9
+_METHODS = ("auto", "phasor", "fft")
 
 
 @dataclass
@@ -128,7 +155,8 @@ class TransitResult:
     ``emitted_phonons`` channel.
 
     ``spectrum`` (when requested) is a dict: ``k`` (1/m) and ``energy``
-    (J, hbar w_k) on the radial nodes with ``dN_dk`` (m) and ``dN_dE``
+    (J, hbar w_k) on the radial nodes, ``dk`` (1/m) their quadrature
+    weights (``sum(dN_dk * dk)`` is the total), ``dN_dk`` (m) and ``dN_dE``
     (1/J) of the ``emitted_phonons`` channel (``dN_dk_excited`` for the
     excited start of a two-level probe); over directions, 3D:
     ``cos_theta`` bin centres, ``cos_theta_edges`` and ``dN_dcos_theta``
@@ -304,25 +332,52 @@ def _rule_spec(geom, q, factor, spectrum, eps):
     """Hashable description of the angular rule needed up to wavenumber q.
     With a direction spectrum of nbins bins the rule also resolves the bins
     (cells no wider than a bin)."""
+    if geom.d == 1:
+        return ("1d",)
+    return _spec_from_degrees(geom, *_degrees(geom, q, factor, spectrum, eps), spectrum)
+
+
+def _degrees(geom, q, factor, spectrum, eps):
+    """(degree over the path's diameter, degree about the rule's axis or
+    None for a path on the axis)."""
+    L = _degree(q * geom.D, factor, eps)
+    if geom.d != 3:
+        return L, None
+    dperp = geom.Dperp_spec if spectrum else geom.Dperp
+    xp = q * dperp
+    return L, (None if xp < 1e-9 else _degree(xp, factor, eps))
+
+
+def _spec_from_degrees(geom, L, Lp, spectrum):
     d = geom.d
     if d == 1:
         return ("1d",)
-    L = _degree(q * geom.D, factor, eps)
     nbins = spectrum if spectrum else 0
     if d == 2:
         n = _ladder(max(L + 1, 2 * nbins))
         n += n % 2
         return ("2d", max(n, 4))
     nu = _ladder(max((L + 2) // 2 + 1, int(math.ceil(1.6 * nbins))))
-    dperp = geom.Dperp_spec if spectrum else geom.Dperp
-    xp = q * dperp
-    nphi = 1 if xp < 1e-9 else _ladder(_degree(xp, factor, eps) - 2)
+    nphi = 1 if Lp is None else _ladder(Lp - 2)
     if spectrum:
         return ("prod", nu, nphi, True)
     order = next((o for o in _LEBEDEV_ORDERS if o >= L), None)
     if order is not None and _lebedev(order)[1].size <= nu * nphi:
         return ("leb", order)
     return ("prod", nu, nphi, False)
+
+
+def _cover_spec(geom, qn, eps_node, factor, spectrum):
+    """One rule that meets every node's angular degree (the FFT route's)."""
+    if geom.d == 1:
+        return ("1d",)
+    L, Lp = 0, None
+    for q, e in zip(qn, eps_node):
+        a, b = _degrees(geom, float(q), factor, spectrum, float(e))
+        L = max(L, a)
+        if b is not None:
+            Lp = b if Lp is None else max(Lp, b)
+    return _spec_from_degrees(geom, L, Lp, spectrum)
 
 
 def _make_rule(spec, geom, edges):
@@ -524,6 +579,7 @@ def _geometry(d, X, V, chi, mask, corr_length, vmax):
         Dperp_spec = perp(spec_axis)
     g = _Geometry(d, D, Dperp, principal, spec_axis)
     g.Dperp_spec = Dperp_spec
+    g.extent = 2 * R
     return g, centre
 
 
@@ -588,7 +644,7 @@ class _single_threaded_blas:
 # ---------------------------------------------------------------------------
 def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
                           spectrum=False, max_memory=500e6, workers=None,
-                          max_refinements=4, spectrum_bins=None):
+                          max_refinements=4, spectrum_bins=None, method="auto"):
     """First-order transition probabilities of a probe carried along
     ``trajectory`` with the coupling switched by ``switching``.
 
@@ -606,6 +662,10 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
     workers : threads (default: the CPUs available to this process)
     max_refinements : refinement rounds before giving up (with a warning)
     spectrum_bins : number of direction bins (3D: 40 in cos theta; 2D: 72)
+    method : amplitude route: ``"phasor"`` (direct sums, q-uniform nodes),
+        ``"fft"`` (frequency-uniform nodes, one FFT per direction and
+        Jacobi-Anger term) or ``"auto"`` (the cheaper by a cost model; both
+        compute the same sums to rtol)
 
     Returns a :class:`TransitResult`.
     """
@@ -618,6 +678,8 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
         raise InputError("rtol", f"must be a number, got {rtol!r}") from None
     if not (1e-10 <= rtol < 1):
         raise InputError("rtol", f"must be in [1e-10, 1), got {rtol}")
+    if method not in _METHODS:
+        raise InputError("method", f"must be one of {', '.join(_METHODS)}, got {method!r}")
     d = condensate.dimension
     disp = condensate.dispersion
     xi, c, w0 = condensate.healing_length, condensate.sound_speed, condensate.frequency_unit
@@ -703,7 +765,7 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
             out = _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu,
                             s, Tdl, Om, Ds, t_lo, t_hi, bw, corr, vmax, amax, chirp, q_max,
                             fac_t, fac_q, ang_fac, rtol, spectrum, spectrum_bins,
-                            pool, workers, max_memory)
+                            pool, workers, max_memory, method)
             history.append(out["errors"])
             tol = out["tolerances"]
             errs = out["errors"]
@@ -778,7 +840,7 @@ def _spectrum_si(out, pref, xi, c, w0, d, has_gap, disp):
     sp = out["spectrum"]
     q = sp["q"]
     vg = disp.group_velocity(q)
-    spec = {"k": q / xi, "energy": HBAR * w0 * disp.omega(q)}
+    spec = {"k": q / xi, "dk": sp["wq"] / xi, "energy": HBAR * w0 * disp.omega(q)}
     main = "em_plus" if has_gap else "em0"
     dn_dq = sp["dN_dq"][main] * pref
     spec["dN_dk"] = dn_dq * xi
@@ -809,41 +871,12 @@ def _spectrum_si(out, pref, xi, c, w0, d, has_gap, disp):
     return spec
 
 
-def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, Tdl,
-              Om, Ds, t_lo, t_hi, bw, corr, vmax, amax, chirp, q_max, fac_t, fac_q, ang_fac,
-              rtol, spectrum, spectrum_bins, pool, workers, max_memory):
-    """One pass at fixed resolution; returns values (dimensionless, units of
-    A xi^-d (xi/c)^2), error estimates per part and channel, grids."""
-    # --- time grid: 2 dt must clear the highest frequency plus bandwidth ---
-    F = max(abs(Om) + float(disp.omega(q_max)) + q_max * vmax + bw
-            + chirp * math.sqrt(q_max * amax), 1e-12)
-    dt_target = math.pi / F / fac_t
-    nt = max(8, int(math.ceil((t_hi - t_lo) / dt_target)))
-    nt += nt % 2
-    t = t_lo + (t_hi - t_lo) * np.arange(nt + 1) / nt
-    dt = (t_hi - t_lo) / nt
-    chi = np.asarray(switching(t * tu), float)
-    wt = np.full(t.size, dt)
-    wt[0] = wt[-1] = 0.5 * dt
-    wt2 = np.zeros(t.size)
-    wt2[::2] = 2 * dt
-    wt2[0] = wt2[-1] = dt
-    X, V = _positions(trajectory, t * tu, d, xi, c)
-    vmax_grid = float(np.sqrt((V ** 2).sum(axis=1)).max())
-    mask = chi >= 1e-2 * rtol
-    geom, centre = _geometry(d, X, V, chi, mask, corr, max(vmax, vmax_grid))
-    X = np.ascontiguousarray(X - centre)
-    cols = []
-    for D in Ds:
-        cols.append(chi * wt * np.exp(1j * D * t))
-    for D in Ds:
-        cols.append(chi * wt2 * np.exp(1j * D * t))
-    cols = np.ascontiguousarray(np.stack(cols, axis=1))
-    nD = len(Ds)
-
-    # --- radial grid --------------------------------------------------------
-    vg_max = float(disp.group_velocity(q_max))
-    Lconj = vg_max * corr + geom.D + 1e-300
+# ---------------------------------------------------------------------------
+# radial grids and the FFT route
+# ---------------------------------------------------------------------------
+def _radial_phasor(disp, q_max, Lconj, fac_q):
+    """Uniform q grid: the full rule at the conjugate-length bound (fac_q =
+    0.5), its every-other-node sub-rule the radial check."""
     h_target = math.pi / Lconj / fac_q
     nq = max(16, int(math.ceil(q_max / h_target)))
     nq += nq % 2
@@ -854,7 +887,115 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
     wq = _gregory(nq, h)
     wq2 = np.zeros(nq + 1)
     wq2[::2] = _gregory(nq // 2, 2 * h)
-    omega = disp.omega(qn)
+    return {"qn": qn, "qeval": qeval, "wq": wq, "wq2": wq2, "omega": disp.omega(qn),
+            "h": h}
+
+
+def _radial_fft(disp, q_max, Lw, fac_q, dt, pair=None):
+    """Grid uniform in frequency, w_j = j dw with dw = 2 pi/(M dt), so that a
+    length-M FFT over the time grid gives every node: the conjugate length
+    in w is Lw = T_c + D/min(v_g) (the phase w s - q(w) n.dx), and the
+    first pass puts the sub-rule (2 dw) at it; the rule in w carries the
+    Jacobian dq/dw = 1/v_g.  With ``pair`` (a frequency difference, 2 Omega)
+    dw divides it exactly and the time step becomes 2 pi/(M dw) <= dt."""
+    dw_target = 0.5 * math.pi / Lw / fac_q
+    shift = 0
+    if pair:
+        shift = int(math.ceil(pair / dw_target))
+        dw = pair / shift
+        M = fft_length(2 * math.pi / (dw * dt))
+        dt = 2 * math.pi / (M * dw)
+    else:
+        M = fft_length(2 * math.pi / (dw_target * dt))
+        dw = 2 * math.pi / (M * dt)
+    w_max = float(disp.omega(q_max))
+    nw = max(16, int(math.ceil(w_max / dw)))
+    nw += nw % 2
+    jb = np.arange(nw + 1)
+    om = jb * dw
+    qn = np.asarray(disp.inverse(om), float)
+    qeval = qn.copy()
+    qeval[0] = 1e-9 * qn[1]
+    vg = np.asarray(disp.group_velocity(qn), float)
+    wq = _gregory(nw, dw) / vg
+    wq2 = np.zeros(nw + 1)
+    wq2[::2] = _gregory(nw // 2, 2 * dw) / vg[::2]
+    return {"qn": qn, "qeval": qeval, "wq": wq, "wq2": wq2, "omega": om, "M": M,
+            "dw": dw, "jbins": jb, "dt": dt, "shift": shift}
+
+
+def _cheb_eps(rtol):
+    """Truncation level of the Jacobi-Anger series (relative to sum |b|)."""
+    return max(1e-14, 1e-4 * rtol)
+
+
+def _run_fft(runs, X, qn, g, eps_c, shifts, pool, workers):
+    """Every FFT-route run (name, rule, reductions, channel columns, with
+    sub-rule) split into direction chunks over the thread pool; returns the
+    summed R[j, r, c] per run name."""
+    q_h = 0.5 * float(qn[-1])
+    items = []
+    for name, rule, red, chans, want_sub in runs:
+        n = rule.size
+        nchunks = max(1, min(n, 2 * workers if workers > 1 else 1))
+        for sl in np.array_split(np.arange(n), nchunks):
+            if sl.size:
+                items.append((name, rule, red, chans, want_sub, sl))
+    items.sort(key=lambda it: -it[5].size)
+
+    def job(it):
+        name, rule, red, chans, want_sub, sl = it
+        return name, fft_amplitude_work(rule.dirs[sl], red[sl], X, chans, qn, g["M"],
+                                        g["jbins"], q_h, q_h, eps_c, want_sub,
+                                        shifts=shifts)
+
+    results = pool.map(job, items) if (pool is not None and len(items) > 1) \
+        else map(job, items)
+    outs = {}
+    for name, R in results:
+        outs[name] = outs[name] + R if name in outs else R
+    return outs
+
+
+def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, Tdl,
+              Om, Ds, t_lo, t_hi, bw, corr, vmax, amax, chirp, q_max, fac_t, fac_q, ang_fac,
+              rtol, spectrum, spectrum_bins, pool, workers, max_memory, method):
+    """One pass at fixed resolution; returns values (dimensionless, units of
+    A xi^-d (xi/c)^2), error estimates per part and channel, grids."""
+    # --- time grid: 2 dt must clear the highest frequency plus bandwidth ---
+    F = max(abs(Om) + float(disp.omega(q_max)) + q_max * vmax + bw
+            + chirp * math.sqrt(q_max * amax), 1e-12)
+    dt_target = math.pi / F / fac_t
+    nt = max(8, int(math.ceil((t_hi - t_lo) / dt_target)))
+    nt += nt % 2
+
+    def time_grid(nt, dt=None):
+        """Nodes, switching and trapezoid weights (full rule and its
+        every-other-point sub-rule) of nt steps from t_lo, of step dt
+        (default: ending at t_hi)."""
+        dt = (t_hi - t_lo) / nt if dt is None else dt
+        t = t_lo + dt * np.arange(nt + 1)
+        chi = np.asarray(switching(t * tu), float)
+        wt = np.full(t.size, dt)
+        wt[0] = wt[-1] = 0.5 * dt
+        wt2 = np.zeros(t.size)
+        wt2[::2] = 2 * dt
+        wt2[0] = wt2[-1] = dt
+        return t, dt, chi, wt, wt2
+
+    def columns(t, chi, wt, wt2):
+        cols = [chi * wt * np.exp(1j * D * t) for D in Ds]
+        cols += [chi * wt2 * np.exp(1j * D * t) for D in Ds]
+        return np.ascontiguousarray(np.stack(cols, axis=1))
+
+    t, dt, chi, wt, wt2 = time_grid(nt)
+    X, V = _positions(trajectory, t * tu, d, xi, c)
+    vmax_grid = float(np.sqrt((V ** 2).sum(axis=1)).max())
+    mask = chi >= 1e-2 * rtol
+    geom, centre = _geometry(d, X, V, chi, mask, corr, max(vmax, vmax_grid))
+    X = np.ascontiguousarray(X - centre)
+    cols = columns(t, chi, wt, wt2)
+    nD = len(Ds)
 
     # --- spectrum bins ------------------------------------------------------
     edges = None
@@ -865,20 +1006,7 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
         elif d == 2:
             nb = spectrum_bins or 72
             edges = np.linspace(-np.pi, np.pi, nb + 1)
-
-    # --- bands of q sharing an angular rule ----------------------------------
-    # each node's rule is sized at its own q on a ladder of sizes, so a run
-    # of equal specs (a band) is served by the rule of its largest node
     nbins_req = (edges.size - 1) if (spectrum and edges is not None) else 0
-    # relative accuracy each node's angular integral needs, from the weight
-    # q^(d-1) S |F|^2 of the node against the largest one (|a|^2 is bounded
-    # by (int chi)^2 at every node); the angular check confirms it
-    wnode = (qeval ** (d - 1) * disp.structure_factor(qeval) * np.exp(-(qeval * s) ** 2))
-    eps_node = np.clip(0.1 * rtol * wnode.max() / np.maximum(wnode, 1e-300), 1e-16, 0.3)
-    specs = [_rule_spec(geom, float(q), ang_fac, nbins_req if spectrum else 0, float(e))
-             for q, e in zip(qn, eps_node)]
-    starts = [0] + [i for i in range(1, nq + 1) if specs[i] != specs[i - 1]]
-    bands = [np.arange(a, b) for a, b in zip(starts, starts[1:] + [nq + 1])]
     built = {}
 
     def rule_of(spec, with_bins):
@@ -887,6 +1015,63 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
             built[key] = _make_rule(spec, geom, edges if with_bins else None)
         return built[key]
 
+    # --- radial grids of both amplitude routes, and their costs ---------------
+    vg_max = float(disp.group_velocity(q_max))
+    grids = {}
+    if method in ("auto", "phasor"):
+        grids["phasor"] = _radial_phasor(disp, q_max, vg_max * corr + geom.D + 1e-300,
+                                         fac_q)
+    if method in ("auto", "fft"):
+        vg_min = float(np.min(disp.group_velocity(np.linspace(0.0, q_max, 65))))
+        # two detunings +-Omega share one set of transforms when 2 Omega is a
+        # whole number of frequency steps; the time step is then set by the
+        # grid (a little finer) and the window extended by under one step,
+        # where the (smooth) switching has vanished -- not for a hard cut
+        pair = 2 * abs(Om) if (len(Ds) == 2 and Om != 0 and not switching.hard_cut) else None
+        grids["fft"] = _radial_fft(disp, q_max, corr + geom.D / vg_min + 1e-300, fac_q, dt,
+                                   pair)
+    for name, g in grids.items():
+        # relative accuracy each node's angular integral needs, from its
+        # weight q^(d-1) S |F|^2 dq against the largest one (|a|^2 is bounded
+        # by (int chi)^2 at every node); the angular check confirms it
+        q_e = g["qeval"]
+        wnode = q_e ** (d - 1) * disp.structure_factor(q_e) * np.exp(-(q_e * s) ** 2)
+        if name == "fft":
+            wnode = wnode / disp.group_velocity(g["qn"])        # dq per node
+        g["eps_node"] = np.clip(0.1 * rtol * wnode.max() / np.maximum(wnode, 1e-300),
+                                1e-16, 0.3)
+        if name == "phasor":
+            specs = [_rule_spec(geom, float(q), ang_fac, nbins_req, float(e))
+                     for q, e in zip(g["qn"], g["eps_node"])]
+            starts = [0] + [i for i in range(1, specs.__len__()) if specs[i] != specs[i - 1]]
+            g["bands"] = [np.arange(a, b) for a, b in zip(starts, starts[1:] + [len(specs)])]
+            g["specs"] = specs
+            size = sum(rule_of(specs[b[0]], False).size * b.size for b in g["bands"])
+            if d == 3:
+                size += sum(rule_of(_rule_spec(geom, float(g["qn"][b[-1]]), 0.75 * ang_fac,
+                                               False, float(g["eps_node"][b].min())),
+                                    False).size * (-(-b.size // _ANGLE_SAMPLE))
+                            for b in g["bands"])
+            g["cost"] = _COST_PHASOR * size * t.size * (2 * nD + 2) / 6
+        else:
+            g["top_spec"] = _cover_spec(geom, g["qn"], g["eps_node"], ang_fac, nbins_req)
+            g["check_spec"] = _cover_spec(geom, g["qn"], g["eps_node"], 0.75 * ang_fac, 0)
+            ndir = rule_of(g["top_spec"], False).size
+            if d == 3 and g["check_spec"] != g["top_spec"]:
+                ndir += rule_of(g["check_spec"], False).size
+            K = chebyshev_degree(0.5 * q_max * 0.5 * geom.extent, _cheb_eps(rtol))
+            M = g["M"]
+            nsig = 1 if g["shift"] else nD
+            g["cost"] = ndir * (nsig * K * (_COST_FFT * M * math.log2(max(M, 4))
+                                          + _COST_SIGNAL * t.size)
+                                + _COST_BESSEL * t.size * (2 * K + 0.5 * q_max * geom.extent + 12))
+            g["specs"] = None
+    route = min(grids, key=lambda k: grids[k]["cost"])
+    g = grids[route]
+    qn, qeval, wq, wq2, omega, specs = (g[k] for k in ("qn", "qeval", "wq", "wq2", "omega",
+                                                        "specs"))
+    nq = qn.size - 1
+
     Ebar = np.zeros((nq + 1, cols.shape[1]))      # angular integrals
     Ebar_sub = np.zeros_like(Ebar) if d == 2 else None
     ang_err_nodes = np.zeros((nq + 1, cols.shape[1]))
@@ -894,37 +1079,16 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
     if spectrum:
         nbins = 2 if d == 1 else edges.size - 1
         bins_acc = np.zeros((nq + 1, nbins, nD))
-    sizes = []
-    tasks, meta = [], []
-    for idx in bands:
-        spec = specs[idx[0]]
-        rule = rule_of(spec, spectrum)
-        sizes.append(rule.size)
+
+    def reductions(rule):
         reds = [rule.weights[:, None]]
         if d == 2:
             reds.append(rule.sub[:, None])
         if spectrum:
             reds.append(rule.bins)
-        red = np.ascontiguousarray(np.concatenate(reds, axis=1))
-        tasks.append((rule, red, cols, qn[idx], h, omega[idx]))
-        meta.append(("main", idx))
-        if d == 3:
-            # angular check: a rule of 3/4 the degree on every 4th node
-            sel = idx[::_ANGLE_SAMPLE]
-            cspec = _rule_spec(geom, float(qn[idx[-1]]), 0.75 * ang_fac, False,
-                               float(eps_node[idx].min()))
-            if sel.size and cspec != spec:
-                crule = rule_of(cspec, False)
-                tasks.append((crule, np.ascontiguousarray(crule.weights[:, None]),
-                              np.ascontiguousarray(cols[:, :nD]), qn[sel],
-                              _ANGLE_SAMPLE * h, omega[sel]))
-                meta.append(("check", sel))
-    results = _run_bands(tasks, X, t, pool, workers, max_memory)
-    checks = []
-    for (kind, idx), R in zip(meta, results):
-        if kind == "check":
-            checks.append((idx, R))
-            continue
+        return np.ascontiguousarray(np.concatenate(reds, axis=1))
+
+    def store(idx, R):
         Ebar[idx] = R[:, 0, :]
         col = 1
         if d == 2:
@@ -932,9 +1096,78 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
             col = 2
         if spectrum:
             bins_acc[idx] = R[:, col:, :nD]
-    for sel, Rc in checks:
-        ang_err_nodes[sel, :nD] = (Ebar[sel, :nD] - Rc[:, 0, :]) * _ANGLE_SAMPLE
-    nb_bands = len(bands)
+
+    if route == "phasor":
+        # bands of q sharing an angular rule: each node's rule is sized at its
+        # own q on a ladder of sizes, so a run of equal specs (a band) is
+        # served by the rule of its largest node
+        h = g["h"]
+        bands = g["bands"]
+        sizes = []
+        tasks, meta = [], []
+        for idx in bands:
+            spec = specs[idx[0]]
+            rule = rule_of(spec, spectrum)
+            sizes.append(rule.size)
+            tasks.append((rule, reductions(rule), cols, qn[idx], h, omega[idx]))
+            meta.append(("main", idx))
+            if d == 3:
+                # angular check: a rule of 3/4 the degree on every 4th node
+                sel = idx[::_ANGLE_SAMPLE]
+                cspec = _rule_spec(geom, float(qn[idx[-1]]), 0.75 * ang_fac, False,
+                                   float(g["eps_node"][idx].min()))
+                if sel.size and cspec != spec:
+                    crule = rule_of(cspec, False)
+                    tasks.append((crule, np.ascontiguousarray(crule.weights[:, None]),
+                                  np.ascontiguousarray(cols[:, :nD]), qn[sel],
+                                  _ANGLE_SAMPLE * h, omega[sel]))
+                    meta.append(("check", sel))
+        results = _run_bands(tasks, X, t, pool, workers, max_memory)
+        checks = []
+        for (kind, idx), R in zip(meta, results):
+            if kind == "check":
+                checks.append((idx, R))
+            else:
+                store(idx, R)
+        for sel, Rc in checks:
+            ang_err_nodes[sel, :nD] = (Ebar[sel, :nD] - Rc[:, 0, :]) * _ANGLE_SAMPLE
+        nb_bands = len(bands)
+        max_dirs = int(max(sizes)) if sizes else 0
+    else:
+        # one rule, that of the most demanding node, serves every node: a
+        # direction's FFT yields all of them at once
+        idx_all = np.arange(nq + 1)
+        rule = rule_of(g["top_spec"], spectrum)
+        eps_c = _cheb_eps(rtol)
+        if g["shift"]:
+            # commensurate grid: rebuild the time nodes at the grid's step
+            nt_c = int(math.ceil((t_hi - t_lo) / g["dt"] * (1 - 1e-12)))
+            nt_c += nt_c % 2
+            t, dt, chi, wt, wt2 = time_grid(nt_c, g["dt"])
+            X, _ = _positions(trajectory, t * tu, d, xi, c)
+            X = np.ascontiguousarray(X - centre)
+            cols = columns(t, chi, wt, wt2)
+            Dlo = int(np.argmin(Ds))
+            shifts = [(0, int(round((D - Ds[Dlo]) / g["dw"]))) for D in Ds]
+            sig = cols[:, Dlo:Dlo + 1]
+        else:
+            shifts = None
+            sig = cols[:, :nD]
+        runs = [("main", rule, reductions(rule), sig, True)]
+        if d == 3:
+            cspec = g["check_spec"]
+            if cspec != g["top_spec"]:
+                crule = rule_of(cspec, False)
+                runs.append(("check", crule, np.ascontiguousarray(crule.weights[:, None]),
+                             sig, False))
+        outs = _run_fft(runs, X, qn, g, eps_c, shifts, pool, workers)
+        R = outs["main"]
+        # columns: full per channel, then sub-rule per channel (as cols)
+        store(idx_all, R)
+        if "check" in outs:
+            ang_err_nodes[:, :nD] = Ebar[:, :nD] - outs["check"][:, 0, :]
+        nb_bands = 1
+        max_dirs = rule.size
     if d == 2:
         ang_err_nodes[:, :nD] = Ebar[:, :nD] - Ebar_sub[:, :nD]
 
@@ -985,10 +1218,14 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
     out = {"values": values, "errors": errors, "tolerances": tolerances,
            "achieved": achieved,
            "grid": {"n_times": int(t.size), "time_step": dt * tu,
-                    "n_wavenumbers": int(nq + 1), "k_max": q_max / xi,
-                    "wavenumber_step": h / xi, "n_bands": nb_bands,
-                    "max_directions": int(max(sizes)) if sizes else 0,
-                    "path_diameter": geom.D * xi}}
+                    "n_wavenumbers": int(nq + 1), "k_max": float(qn[-1]) / xi,
+                    "wavenumber_step": float(qn[-1] - qn[-2]) / xi, "n_bands": nb_bands,
+                    "max_directions": max_dirs,
+                    "path_diameter": geom.D * xi, "method": route}}
+    out["costs"] = {k: v["cost"] for k, v in grids.items()}
+    if route == "fft":
+        out["grid"]["fft_length"] = int(g["M"])
+        out["grid"]["frequency_step"] = float(g["dw"]) / tu
     if spectrum:
         emis = {}
         dirs_int = {}
@@ -1000,7 +1237,7 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
         else:
             emis["em0"] = base * (1 + nth) * Ebar[:, 0]
             dirs_int["em0"] = wq @ ((base * (1 + nth))[:, None] * bins_acc[:, :, 0])
-        out["spectrum"] = {"q": qn, "dN_dq": emis, "directions": dirs_int,
+        out["spectrum"] = {"q": qn, "wq": wq, "dN_dq": emis, "directions": dirs_int,
                            "edges": edges,
                            "axis": geom.spec_axis}
     return out

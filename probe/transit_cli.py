@@ -14,7 +14,8 @@ with its unit in square brackets (``[1]``: a pure number).
 * ``FILE.csv``, over the wavenumber k (one row per quadrature node):
   ``k [1/m], energy [J], dk [1/m], dN_dk [m], dN_dE [1/J]`` and, for a
   two-level probe, ``dN_dk_excited [m]`` (starting excited).  ``dk`` is the
-  node's quadrature weight (the node spacing, end-corrected at k = 0), so
+  node's quadrature weight (the node spacing -- uniform in k or, on the FFT
+  route, in frequency, times dk/dw -- end-corrected at k = 0), so
   ``sum(dN_dk * dk)`` over the rows is ``emitted_phonons``.
 * ``FILE.directions.csv`` (``.directions`` inserted before the suffix), over
   directions, bin averages: 3D ``cos_theta_low [1], cos_theta_high [1],
@@ -220,11 +221,9 @@ def _g(x):
 
 def spectrum_tables(scenario, result):
     """``(radial_text, directions_text)``: the two CSV files as strings."""
-    from .transit import _gregory
-
     sp = result.spectrum
     k = sp["k"]
-    dk = _gregory(k.size - 1, float(k[1] - k[0]))
+    dk = sp["dk"]
     gap = result.model != "density"
     total, err = result.emitted_phonons, result.emitted_phonons_error
     what = ("probe starting in its ground state (columns *_excited: starting excited)"

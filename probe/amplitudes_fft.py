@@ -1,0 +1,204 @@
+"""Mode amplitudes of a transit on a frequency-uniform grid by FFT.
+
+For one direction n the transit amplitudes on the radial nodes are
+
+    a(q_j) = sum_m b_m e^{i w_j t_m} e^{-i q_j u_m},     u_m = n.x(t_m),
+
+with b_m = chi(t_m) w_m e^{i D t_m} (trapezoid weights w_m on the uniform
+time grid t_m = t_0 + m dt).  When the nodes are uniform in frequency,
+w_j = j dw with dw = 2 pi/(M dt), the sum over m is a length-M discrete
+Fourier transform -- except for the factor e^{-i q_j u_m}, which couples
+the node to the time.  That factor has low rank on the path: with
+q = q_c + q_h tau (tau in [-1, 1]) and the Jacobi-Anger expansion
+
+    e^{-i q_h tau u} = sum_k eps_k (-i)^k J_k(q_h u) T_k(tau),
+    eps_0 = 1, eps_k = 2,
+
+(Abramowitz and Stegun 9.1.44-45, Chebyshev polynomials T_k), so
+
+    a(q_j) = sum_k eps_k (-i)^k T_k(tau_j) FFT_m[b_m e^{-i q_c u_m} J_k(q_h u_m)](j).
+
+The expansion is cut where the Bessel tail (q_h |u|/2)^k/k! falls below the
+requested level; K is about q_h |u|_max + a few, so for a path of bounded
+size (a loop, a stirring motion) the cost per direction is K FFTs of length
+M instead of one multiply-add per (time, node): the gain grows with the
+transit's duration.  J_k(x) for k < K comes from the ratios
+r_k = J_k/J_{k-1} = x/(2k - x r_{k+1}), run downward from r_N = 0 (the
+continued fraction for the minimal solution, stable and free of overflow),
+times J_0 (scipy's j0).
+
+The even and odd time samples are transformed separately (length M/2 each):
+their sum is the full trapezoid sum and twice the even part is the
+every-other-point sub-rule (step 2 dt) that estimates the time-step error,
+so the check costs nothing extra.  A time series longer than M (or M/2) is
+folded, which leaves the sums at the grid frequencies exact.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import fft as sfft
+from scipy.special import j0
+
+__all__ = ["chebyshev_degree", "bessel_sequence", "fft_amplitude_work",
+           "fft_length"]
+
+
+def chebyshev_degree(x_max, eps):
+    """Number of terms K of the Jacobi-Anger series of e^{-i x tau}
+    (|tau| <= 1, |x| <= x_max) whose dropped tail is below ``eps``: the
+    terms are bounded by 2 (x/2)^k/k!, summed here until they fall below
+    eps past k = x."""
+    x = abs(float(x_max))
+    eps = max(float(eps), 1e-300)
+    k = 0
+    logt = math.log(2.0)                   # log of 2 (x/2)^k/k! at k = 0
+    lx = math.log(max(x / 2, 1e-300))
+    while True:
+        k += 1
+        logt += lx - math.log(k)
+        if k > x and logt < math.log(eps) - 1.0:
+            return k
+        if k > 100000:                     # pragma: no cover - absurd sizes
+            return k
+
+
+def bessel_sequence(x, K, n_start=None):
+    """J_0(x), ..., J_{K-1}(x) for real x (any shape): returns an array of
+    shape (K,) + x.shape.  Downward ratio recurrence from n_start (default
+    K + max|x| + 12) times J_0."""
+    x = np.asarray(x, float)
+    xm = float(np.abs(x).max()) if x.size else 0.0
+    N = int(n_start if n_start is not None else K + math.ceil(xm) + 12)
+    out = np.empty((K,) + x.shape)
+    r = np.zeros_like(x)
+    for k in range(N, 0, -1):
+        r = x / (2.0 * k - x * r)
+        if k < K:
+            out[k] = r
+    out[0] = j0(x)
+    for k in range(1, K):
+        out[k] *= out[k - 1]
+    return out
+
+
+def fft_length(m_min):
+    """Smallest even length >= m_min whose half is a fast FFT size."""
+    half = sfft.next_fast_len(max(1, int(math.ceil(m_min / 2.0))))
+    return 2 * half
+
+
+def _chebyshev_signals(buf, w2, b, half):
+    """buf[k, i, p] = sum over samples m = p (mod half) of T_k(u_im) b[i, m]
+    with w2 = 2 u (|u| <= 1), by the recurrence T_{k+1} = 2u T_k - T_{k-1}
+    run on the products themselves (on their interleaved real storage).
+    Folding onto the transform length leaves the sums at the grid
+    frequencies exact."""
+    K = buf.shape[0]
+    n = b.shape[-1]
+    if n < half:                     # zero signal beyond the samples
+        pad = half - n
+        b = np.concatenate([b, np.zeros(b.shape[:-1] + (pad,), complex)], axis=-1)
+        w2 = np.concatenate([w2, np.zeros(w2.shape[:-1] + (2 * pad,))], axis=-1)
+        n = half
+    G = buf if n == half else np.empty((K,) + b.shape, complex)
+    Gv = G.view(float)
+    G[0] = b
+    if K > 1:
+        np.multiply(b, 0.5 * w2[:, ::2], out=G[1])
+    for k in range(1, K - 1):
+        np.multiply(w2, Gv[k], out=Gv[k + 1])
+        Gv[k + 1] -= Gv[k - 1]
+    if n > half:
+        buf[...] = 0.0
+        for a in range(0, n, half):
+            e = min(n, a + half)
+            buf[..., :e - a] += G[..., a:e]
+
+
+def fft_amplitude_work(dirs, red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub,
+                       shifts=None, block_bytes=2e6):
+    """Reductions R[j, r, c] = sum_n red[n, r] |a_c(q_j, n)|^2.
+
+    dirs (N, d) unit directions; red (N, r) their reduction weights; X
+    (Nt, d) the path (centred), sampled on the uniform time grid; chans (Nt,
+    S) the coefficients b_m of each signal (full trapezoid weights); q (J,)
+    the radial nodes, whose frequencies are jbins * 2 pi/(M dt) (consecutive
+    integers from jbins[0] >= 0); the nodes lie in [q_c - q_h, q_c + q_h].
+    ``shifts`` lists the output channels as (signal, bin shift): channel c
+    is sum_m b_m e^{i (w_j + shift dw) t_m} e^{-i q_j n.x_m} of its signal
+    (default: one channel per signal, no shift), so channels whose detunings
+    differ by whole bins share one set of transforms.  Columns c: the
+    channels with the full rule, then (``want_sub``) the channels with the
+    every-other-point time sub-rule.  ``eps`` is the truncation level of the
+    Jacobi-Anger series relative to sum |b|.
+
+    With u = n.x centred on the path's extent (a phase per direction, which
+    leaves |a| unchanged) and |u| <= U, the series is taken in u:
+    e^{-i (q - q_c) u} = sum_k eps_k (-i)^k J_k((q - q_c) U) T_k(u/U), so the
+    Bessel functions are needed on the nodes only and the time signals are
+    Chebyshev polynomials of the path, b_m e^{-i q_c u_m} T_k(u_m/U).
+    """
+    N, nt, S = dirs.shape[0], X.shape[0], chans.shape[1]
+    J = q.size
+    half = M // 2
+    jbins = np.asarray(jbins)
+    if M % 2 or np.any(np.diff(jbins) != 1) or jbins[0] < 0:
+        raise ValueError("fft_amplitude_work: the nodes must be consecutive bins")
+    if shifts is None:
+        shifts = [(sig, 0) for sig in range(S)]
+    C = len(shifts)
+    reads = []
+    for sig, sh in shifts:
+        bins = jbins + int(sh)
+        lo_b = int(bins[0]) % half
+        sl = slice(lo_b, lo_b + J) if lo_b + J <= half else bins % half
+        reads.append((sig, sl, np.exp(2j * np.pi * bins / M)))   # e^{2 pi i j/M}
+    ncol = 2 * C if want_sub else C
+    out = np.zeros((J, red.shape[1], ncol))
+    if N == 0:
+        return out
+    P = dirs @ X.T                               # (N, Nt)
+    lo, hi = P.min(axis=1), P.max(axis=1)
+    P -= 0.5 * (lo + hi)[:, None]
+    ext = 0.5 * (hi - lo)
+    order = np.argsort(ext)                     # blocks of similar extent share K
+    K_all = chebyshev_degree(q_h * float(ext.max()), eps)
+    ne = (nt + 1) // 2
+    per_dir = 16.0 * K_all * 2 * max(half, ne)
+    nb = int(max(1, min(N, block_bytes // max(per_dir, 1.0))))
+    kk = np.arange(K_all)
+    dq = np.asarray(q, float) - q_c
+    che = chans[0::2]
+    cho = chans[1::2]
+    for b0 in range(0, N, nb):
+        sel = order[b0:b0 + nb]
+        m = sel.size
+        U = max(float(ext[sel].max()), 1e-300)
+        K = chebyshev_degree(q_h * U, eps)
+        u = P[sel]
+        w2e = np.repeat(2.0 / U * u[:, 0::2], 2, axis=1)   # 2 u/U, interleaved storage
+        w2o = np.repeat(2.0 / U * u[:, 1::2], 2, axis=1)
+        pre = np.exp(-1j * q_c * u)
+        pe, po = pre[:, 0::2], pre[:, 1::2]
+        # coef[k, j] = eps_k (-i)^k J_k((q_j - q_c) U)
+        coef = bessel_sequence(dq * U, K) * ((-1j) ** kk[:K])[:, None]
+        coef[1:] *= 2.0
+        red_b = red[sel]
+        buf = np.empty((2, K, m, half), complex)
+        for sig in range(S):
+            _chebyshev_signals(buf[0], w2e, pe * che[:, sig][None, :], half)
+            _chebyshev_signals(buf[1], w2o, po * cho[:, sig][None, :], half)
+            F = sfft.ifft(buf, axis=-1, norm="forward", overwrite_x=True)
+            for c, (s_c, sl, odd_ph) in enumerate(reads):
+                if s_c != sig:
+                    continue
+                Ec = np.einsum("kbj,kj->bj", F[0][..., sl], coef)
+                Oc = np.einsum("kbj,kj->bj", F[1][..., sl], coef)
+                full = Ec + Oc * odd_ph
+                out[:, :, c] += (full.real ** 2 + full.imag ** 2).T @ red_b
+                if want_sub:
+                    out[:, :, C + c] += 4.0 * (Ec.real ** 2 + Ec.imag ** 2).T @ red_b
+            del F
+    return out
