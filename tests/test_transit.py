@@ -117,9 +117,11 @@ def gaussian_inertial_probability(cond, gap, width, v, tau, D_sign):
 
 @pytest.mark.parametrize("d", [3, 2, 1])
 @pytest.mark.parametrize("T", [0.0, 0.5])
-def test_gaussian_inertial_closed_form(d, T):
-    """Engine vs the closed-form angular integral (radial by quad) for a
-    sub- and a supersonic speed and several switching times."""
+@pytest.mark.parametrize("method", ["phasor", "fft"])
+def test_gaussian_inertial_closed_form(d, T, method):
+    """Engine (both amplitude routes) vs the closed-form angular integral
+    (radial by quad) for a sub- and a supersonic speed and several
+    switching times."""
     cond = gas(d, T)
     w0 = cond.frequency_unit
     gap, width = 0.5, 0.5
@@ -128,7 +130,9 @@ def test_gaussian_inertial_closed_form(d, T):
     cases = [(0.6, 1.0), (1.3, 3.0)] if d == 2 else [(0.6, 1.0), (0.6, 4.0), (1.5, 3.0)]
     for v, tau in cases:
         path = Linear(v * cond.sound_speed, (1.0, 0.0, 0.0)[:d])
-        res = transit_probabilities(cond, probe, path, Gaussian(tau / w0), rtol=1e-5)
+        res = transit_probabilities(cond, probe, path, Gaussian(tau / w0), rtol=1e-5,
+                                    method=method)
+        assert res.grid["method"] == method
         for name, sign in (("up_probability", +1), ("down_probability", -1)):
             ref = gaussian_inertial_probability(cond, gap, width, v, tau, sign) * pref
             got = getattr(res, name)
@@ -138,14 +142,17 @@ def test_gaussian_inertial_closed_form(d, T):
         assert res.achieved_rtol < 1e-5
 
 
-def test_emitted_phonon_spectrum_matches_closed_form():
+@pytest.mark.parametrize("method", ["phasor", "fft"])
+def test_emitted_phonon_spectrum_matches_closed_form(method):
     """dN/dk at the radial nodes vs the closed-form integrand of the up
-    emission term (3D, T = 0, so emitted_phonons = up_probability)."""
+    emission term (3D, T = 0, so emitted_phonons = up_probability); on the
+    FFT route the nodes are uniform in frequency, not in k."""
     cond = gas(3)
     gap, width, v, tau = 0.4, 0.6, 1.6, 3.0
     probe = two_level(cond, gap, width)
-    res = transit_probabilities(cond, probe, Linear(v * cond.sound_speed), Gaussian(tau / cond.frequency_unit),
-                                rtol=1e-5, spectrum=True)
+    res = transit_probabilities(cond, probe, Linear(v * cond.sound_speed),
+                                Gaussian(tau / cond.frequency_unit),
+                                rtol=1e-5, spectrum=True, method=method)
     sp = res.spectrum
     xi = cond.healing_length
     q = sp["k"] * xi
@@ -161,8 +168,10 @@ def test_emitted_phonon_spectrum_matches_closed_form():
     np.testing.assert_allclose(sp["dN_dk"], ref, rtol=1e-8, atol=1e-10 * peak)
     # T = 0: every up transition emits, so the two numbers coincide (definition)
     assert res.emitted_phonons == pytest.approx(res.up_probability, rel=1e-14)
-    # the spectra integrate to the totals (trapezoid over the nodes, smooth)
+    # the spectra integrate to the totals (trapezoid over the nodes, smooth;
+    # exactly with the engine's own quadrature weights)
     assert np.trapezoid(sp["dN_dk"], sp["k"]) == pytest.approx(res.emitted_phonons, rel=1e-4)
+    assert np.sum(sp["dN_dk"] * sp["dk"]) == pytest.approx(res.emitted_phonons, rel=1e-12)
     assert np.sum(sp["dN_dcos_theta"] * np.diff(sp["cos_theta_edges"])) == pytest.approx(
         res.emitted_phonons, rel=1e-10)
     # energy spectrum: dN/dE = dN/dk / (hbar v_g c)
@@ -184,8 +193,10 @@ def _smoothed_rate(rate_of_gap, gap, tau, h=0.02):
     return g[1], g[1] + second / (4 * tau ** 2)
 
 
-@pytest.mark.parametrize("kind,v", [("inertial", 0.5), ("inertial", 2.0), ("circular", 0.8)])
-def test_long_switching_tends_to_stationary_rate(kind, v):
+@pytest.mark.parametrize("kind,v,method", [("inertial", 0.5, "auto"), ("inertial", 2.0, "auto"),
+                                           ("circular", 0.8, "phasor"),
+                                           ("circular", 0.8, "fft")])
+def test_long_switching_tends_to_stationary_rate(kind, v, method):
     cond = gas(3)
     w0 = cond.frequency_unit
     gap, width, R = 0.5, 0.5, 3.0
@@ -201,7 +212,8 @@ def test_long_switching_tends_to_stationary_rate(kind, v):
     devs = {ch: [] for ch in channels}
     taus = (5.0, 10.0, 20.0)
     for tau in taus:
-        res = transit_probabilities(cond, probe, path, Gaussian(tau / w0), rtol=1e-4)
+        res = transit_probabilities(cond, probe, path, Gaussian(tau / w0), rtol=1e-4,
+                                    method=method)
         for ch in channels:
             attr = "down_rate" if ch.startswith("down") else "up_rate"
             # down: Gamma(D = -Omega) -> smoothing over the gap with D = -gap
@@ -244,7 +256,8 @@ def test_window_switching_tends_to_rate_times_integral_of_chi_squared():
 # ---------------------------------------------------------------------------
 # trajectories
 # ---------------------------------------------------------------------------
-def test_spline_through_a_straight_line_reproduces_linear():
+@pytest.mark.parametrize("method", ["phasor", "fft"])
+def test_spline_through_a_straight_line_reproduces_linear(method):
     """An interpolating cubic spline through points of x = v t is that line
     (exact for linear data), so the probabilities must agree."""
     cond = gas(3)
@@ -256,8 +269,9 @@ def test_spline_through_a_straight_line_reproduces_linear():
     pos = (v * c * t)[:, None] * direction
     sp = Spline(t, pos)
     sw = Gaussian(tau / w0)
-    a = transit_probabilities(cond, probe, sp, sw, rtol=1e-5)
-    b = transit_probabilities(cond, probe, Linear(v * c, direction), sw, rtol=1e-5)
+    a = transit_probabilities(cond, probe, sp, sw, rtol=1e-5, method=method)
+    b = transit_probabilities(cond, probe, Linear(v * c, direction), sw, rtol=1e-5,
+                              method=method)
     assert a.up_probability == pytest.approx(b.up_probability, rel=1e-9)
     assert a.down_probability == pytest.approx(b.down_probability, rel=1e-9)
     # and both agree with the closed form (rotation invariance of the gas)
@@ -284,7 +298,8 @@ def test_planar_path_in_3d_gas_padded_and_too_many_components_rejected():
 # detailed balance (KMS)
 # ---------------------------------------------------------------------------
 @pytest.mark.parametrize("d", [3, 1])
-def test_static_probe_detailed_balance(d):
+@pytest.mark.parametrize("method", ["phasor", "fft"])
+def test_static_probe_detailed_balance(d, method):
     """A probe at rest in a thermal gas: with long switching
     P_up/P_down -> exp(-hbar Omega/k_B T) (KMS condition of the thermal
     Wightman function; Birrell and Davies 1982, Unruh PRD 14, 870 (1976))."""
@@ -295,7 +310,8 @@ def test_static_probe_detailed_balance(d):
     devs = []
     for tau in (10.0, 20.0, 40.0):
         res = transit_probabilities(cond, probe, Linear(0.0, (1.0, 0.0, 0.0)[:d]),
-                                    Gaussian(tau / cond.frequency_unit), rtol=1e-6)
+                                    Gaussian(tau / cond.frequency_unit), rtol=1e-6,
+                                    method=method)
         devs.append(abs(res.up_probability / res.down_probability / target - 1))
     assert devs[1] < 0.4 * devs[0] and devs[2] < 0.4 * devs[1], devs
     assert devs[2] < 3e-3, devs
@@ -304,7 +320,8 @@ def test_static_probe_detailed_balance(d):
 # ---------------------------------------------------------------------------
 # Mach (Cherenkov) cone of the density probe
 # ---------------------------------------------------------------------------
-def test_density_probe_emits_on_the_mach_cone_3d():
+@pytest.mark.parametrize("method", ["phasor", "fft"])
+def test_density_probe_emits_on_the_mach_cone_3d(method):
     """Supersonic density probe, wide (k xi << 1 emission): phonons leave on
     the Mach cone cos(theta) = c/v about the velocity (Landau and Lifshitz,
     Fluid Mechanics, the Mach cone).  Bogoliubov corrections shift the cone
@@ -314,7 +331,7 @@ def test_density_probe_emits_on_the_mach_cone_3d():
     v, width, tau = 2.0, 4.0, 12.0
     probe = DensityProbe(COUPLING, width * xi)
     res = transit_probabilities(cond, probe, Linear(v * c, (0.0, 0.0, 1.0)), Gaussian(tau / w0),
-                                rtol=1e-4, spectrum=True, spectrum_bins=80)
+                                rtol=1e-4, spectrum=True, spectrum_bins=80, method=method)
     sp = res.spectrum
     np.testing.assert_allclose(sp["axis"], [0, 0, 1], atol=1e-12)
     u, dens = sp["cos_theta"], sp["dN_dcos_theta"]
@@ -422,7 +439,8 @@ def test_input_checks_and_json():
 
 
 @pytest.mark.parametrize("kind", ["spline", "circular"])
-def test_loose_tolerance_is_met_and_its_error_estimate_bounds_the_error(kind):
+@pytest.mark.parametrize("method", ["phasor", "fft"])
+def test_loose_tolerance_is_met_and_its_error_estimate_bounds_the_error(kind, method):
     """Curved paths at rtol = 1e-3 against the same transit at rtol = 1e-6:
     the coarse grids must still land within 1e-3, and the reported error
     must cover the actual deviation (the reference's own error aside)."""
@@ -439,8 +457,10 @@ def test_loose_tolerance_is_met_and_its_error_estimate_bounds_the_error(kind):
     else:
         path = Circular(1.5 * xi, speed=0.9 * c)
         sw = Gaussian(6.0 / w0)
-    loose = transit_probabilities(cond, probe, path, sw, rtol=1e-3)
-    tight = transit_probabilities(cond, probe, path, sw, rtol=1e-6)
+    loose = transit_probabilities(cond, probe, path, sw, rtol=1e-3, method=method)
+    # the reference from the other route: an independent evaluation
+    other = "fft" if method == "phasor" else "phasor"
+    tight = transit_probabilities(cond, probe, path, sw, rtol=1e-6, method=other)
     assert tight.achieved_rtol < 1e-6
     assert loose.achieved_rtol < 1e-3
     for name in ("up_probability", "down_probability"):
@@ -452,3 +472,68 @@ def test_loose_tolerance_is_met_and_its_error_estimate_bounds_the_error(kind):
     g, G = loose.grid, tight.grid
     assert g["n_wavenumbers"] * g["n_times"] * g["max_directions"] < \
         0.5 * G["n_wavenumbers"] * G["n_times"] * G["max_directions"]
+
+
+# ---------------------------------------------------------------------------
+# the two amplitude routes
+# ---------------------------------------------------------------------------
+def _wobble(cond, duration, n=600):
+    xi, w0 = cond.healing_length, cond.frequency_unit
+    s = np.linspace(0.0, duration, n)
+    pos = np.stack([2 * np.cos(0.4 * s), 2 * np.sin(0.4 * s), 0.3 * np.sin(1.2 * s)],
+                   axis=1) * xi
+    return Spline(s / w0, pos[:, :cond.dimension])
+
+
+@pytest.mark.parametrize("d,T,model", [(3, 0.0, "two_level"), (3, 0.3, "two_level"),
+                                       (3, 0.3, "density"), (2, 0.0, "two_level"),
+                                       (2, 0.3, "density"), (1, 0.2, "two_level")])
+def test_phasor_and_fft_routes_agree_on_curved_paths(d, T, model):
+    """The direct phasor sums on q-uniform nodes and the FFT route on
+    frequency-uniform nodes are independent evaluations of the same
+    integrals: probabilities, emitted phonons and the spectra over
+    directions must agree to the requested accuracy."""
+    cond = gas(d, T)
+    xi = cond.healing_length
+    probe = two_level(cond, 0.5, 0.7) if model == "two_level" else \
+        DensityProbe(COUPLING, 0.7 * xi)
+    path = _wobble(cond, 40.0, 400)
+    sw = PathSpan(path)
+    rtol = 1e-4
+    a = transit_probabilities(cond, probe, path, sw, rtol=rtol, method="phasor", spectrum=True,
+                              spectrum_bins=24)
+    b = transit_probabilities(cond, probe, path, sw, rtol=rtol, method="fft", spectrum=True,
+                              spectrum_bins=24)
+    assert (a.grid["method"], b.grid["method"]) == ("phasor", "fft")
+    names = (["up_probability", "down_probability", "emitted_phonons_excited"]
+             if model == "two_level" else ["absorbed_phonons"]) + ["emitted_phonons",
+                                                                  "emitted_energy"]
+    for name in names:
+        x, y = getattr(a, name), getattr(b, name)
+        if model == "density" and name == "absorbed_phonons" and T == 0:
+            continue
+        assert y == pytest.approx(x, rel=3 * rtol), (name, y / x - 1)
+    key = {3: "dN_dcos_theta", 2: "dN_dphi", 1: "dN_forward"}[d]
+    np.testing.assert_allclose(b.spectrum[key], a.spectrum[key], rtol=1e-3,
+                               atol=1e-4 * np.max(np.abs(a.spectrum[key])))
+    for r in (a, b):
+        assert np.sum(r.spectrum["dN_dk"] * r.spectrum["dk"]) == pytest.approx(
+            r.emitted_phonons, rel=1e-12)
+
+
+def test_auto_route_follows_the_cost():
+    """A long transit of a small loop goes the FFT way (its cost grows as
+    the duration, the direct sums' as its square); a short straight crossing
+    stays on the direct sums (the Jacobi-Anger series grows with the
+    path's length)."""
+    cond = gas(3)
+    w0, c = cond.frequency_unit, cond.sound_speed
+    probe = two_level(cond, 0.5, 0.7)
+    loop = _wobble(cond, 400.0, 2000)
+    assert transit_probabilities(cond, probe, loop, PathSpan(loop),
+                                 rtol=1e-3).grid["method"] == "fft"
+    line = transit_probabilities(cond, probe, Linear(1.5 * c), Gaussian(10 / w0), rtol=1e-3)
+    assert line.grid["method"] == "phasor"
+    with pytest.raises(InputError) as e:
+        transit_probabilities(cond, probe, Linear(1.5 * c), Gaussian(10 / w0), method="fast")
+    assert e.value.key == "method"
