@@ -89,32 +89,54 @@ def fft_length(m_min):
     return 2 * half
 
 
-def _chebyshev_signals(buf, w2, b, half):
-    """buf[k, i, p] = sum over samples m = p (mod half) of T_k(u_im) b[i, m]
-    with w2 = 2 u (|u| <= 1), by the recurrence T_{k+1} = 2u T_k - T_{k-1}
-    run on the products themselves (on their interleaved real storage).
+class _ChebyshevSignals:
+    """The signals T_k(u_im) b[i, m] (k = 0, 1, ...) in chunks of terms,
+    each folded onto the transform length, by the recurrence
+    T_{k+1} = 2u T_k - T_{k-1} run on the products themselves (on their
+    interleaved real storage; w2 = 2 u repeated per re/im, |u| <= 1).
     Folding onto the transform length leaves the sums at the grid
-    frequencies exact."""
-    K = buf.shape[0]
-    n = b.shape[-1]
-    if n < half:                     # zero signal beyond the samples
-        pad = half - n
-        b = np.concatenate([b, np.zeros(b.shape[:-1] + (pad,), complex)], axis=-1)
-        w2 = np.concatenate([w2, np.zeros(w2.shape[:-1] + (2 * pad,))], axis=-1)
-        n = half
-    G = buf if n == half else np.empty((K,) + b.shape, complex)
-    Gv = G.view(float)
-    G[0] = b
-    if K > 1:
-        np.multiply(b, 0.5 * w2[:, ::2], out=G[1])
-    for k in range(1, K - 1):
-        np.multiply(w2, Gv[k], out=Gv[k + 1])
-        Gv[k + 1] -= Gv[k - 1]
-    if n > half:
-        buf[...] = 0.0
-        for a in range(0, n, half):
-            e = min(n, a + half)
-            buf[..., :e - a] += G[..., a:e]
+    frequencies exact.  Only the last two terms are kept between chunks, so
+    the memory is that of one chunk."""
+
+    def __init__(self, w2, b, half):
+        n = b.shape[-1]
+        if n < half:                     # zero signal beyond the samples
+            pad = half - n
+            b = np.concatenate([b, np.zeros(b.shape[:-1] + (pad,), complex)], axis=-1)
+            w2 = np.concatenate([w2, np.zeros(w2.shape[:-1] + (2 * pad,))], axis=-1)
+        self.w2, self.b, self.half = w2, b, half
+        self.prev = self.cur = None
+        self.k = 0
+
+    def fill(self, buf):
+        """Write the next buf.shape[0] terms into buf (kc, m, half)."""
+        kc = buf.shape[0]
+        n, half = self.b.shape[-1], self.half
+        G = buf if n == half else np.empty((kc,) + self.b.shape, complex)
+        Gv = G.view(float)
+        w2 = self.w2
+        for i in range(kc):
+            k = self.k + i
+            if k == 0:
+                G[i] = self.b
+            elif k == 1:
+                np.multiply(self.b, 0.5 * w2[:, ::2], out=G[i])
+            else:
+                pv = (Gv[i - 2] if i >= 2 else (self.prev if i == 1 else self.prev2))
+                cv = Gv[i - 1] if i >= 1 else self.prev
+                np.multiply(w2, cv, out=Gv[i])
+                Gv[i] -= pv
+        # keep the last two terms (real views) for the next chunk
+        if kc >= 2:
+            self.prev2, self.prev = Gv[kc - 2].copy(), Gv[kc - 1].copy()
+        else:
+            self.prev2, self.prev = self.prev, Gv[0].copy()
+        self.k += kc
+        if n > half:
+            buf[...] = 0.0
+            for a in range(0, n, half):
+                e = min(n, a + half)
+                buf[..., :e - a] += G[..., a:e]
 
 
 def fft_amplitude_work(dirs, red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub,
@@ -132,7 +154,9 @@ def fft_amplitude_work(dirs, red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub
     differ by whole bins share one set of transforms.  Columns c: the
     channels with the full rule, then (``want_sub``) the channels with the
     every-other-point time sub-rule.  ``eps`` is the truncation level of the
-    Jacobi-Anger series relative to sum |b|.
+    Jacobi-Anger series relative to sum |b|.  Work arrays are about
+    ``block_bytes`` (directions in blocks, series terms in chunks) plus a
+    few rows of length Nt per direction of a block.
 
     With u = n.x centred on the path's extent (a phase per direction, which
     leaves |a| unchanged) and |u| <= U, the series is taken in u:
@@ -159,15 +183,19 @@ def fft_amplitude_work(dirs, red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub
     out = np.zeros((J, red.shape[1], ncol))
     if N == 0:
         return out
-    P = dirs @ X.T                               # (N, Nt)
-    lo, hi = P.min(axis=1), P.max(axis=1)
-    P -= 0.5 * (lo + hi)[:, None]
+    # extent of the path along each direction (in row chunks: no N x Nt array)
+    lo = np.empty(N)
+    hi = np.empty(N)
+    rows = int(max(1, 4e6 // (8 * nt)))
+    for a in range(0, N, rows):
+        Pa = dirs[a:a + rows] @ X.T
+        lo[a:a + rows], hi[a:a + rows] = Pa.min(axis=1), Pa.max(axis=1)
+    mid = 0.5 * (lo + hi)
     ext = 0.5 * (hi - lo)
     order = np.argsort(ext)                     # blocks of similar extent share K
     K_all = chebyshev_degree(q_h * float(ext.max()), eps)
-    ne = (nt + 1) // 2
-    per_dir = 16.0 * K_all * 2 * max(half, ne)
-    nb = int(max(1, min(N, block_bytes // max(per_dir, 1.0))))
+    row_bytes = 16.0 * 2 * max(half, (nt + 1) // 2)       # one term, even + odd
+    nb = int(max(1, min(N, block_bytes // (row_bytes * min(K_all, 8)))))
     kk = np.arange(K_all)
     dq = np.asarray(q, float) - q_c
     che = chans[0::2]
@@ -177,28 +205,38 @@ def fft_amplitude_work(dirs, red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub
         m = sel.size
         U = max(float(ext[sel].max()), 1e-300)
         K = chebyshev_degree(q_h * U, eps)
-        u = P[sel]
+        kc = int(max(1, min(K, block_bytes // (row_bytes * m))))
+        u = dirs[sel] @ X.T - mid[sel, None]
         w2e = np.repeat(2.0 / U * u[:, 0::2], 2, axis=1)   # 2 u/U, interleaved storage
         w2o = np.repeat(2.0 / U * u[:, 1::2], 2, axis=1)
         pre = np.exp(-1j * q_c * u)
         pe, po = pre[:, 0::2], pre[:, 1::2]
+        del u, pre
         # coef[k, j] = eps_k (-i)^k J_k((q_j - q_c) U)
         coef = bessel_sequence(dq * U, K) * ((-1j) ** kk[:K])[:, None]
         coef[1:] *= 2.0
         red_b = red[sel]
-        buf = np.empty((2, K, m, half), complex)
+        buf = np.empty((2, kc, m, half), complex)
         for sig in range(S):
-            _chebyshev_signals(buf[0], w2e, pe * che[:, sig][None, :], half)
-            _chebyshev_signals(buf[1], w2o, po * cho[:, sig][None, :], half)
-            F = sfft.ifft(buf, axis=-1, norm="forward", overwrite_x=True)
-            for c, (s_c, sl, odd_ph) in enumerate(reads):
+            even = _ChebyshevSignals(w2e, pe * che[:, sig][None, :], half)
+            odd = _ChebyshevSignals(w2o, po * cho[:, sig][None, :], half)
+            acc = [(np.zeros((m, J), complex), np.zeros((m, J), complex)) for _ in reads]
+            for k0 in range(0, K, kc):
+                k1 = min(K, k0 + kc)
+                bv = buf[:, :k1 - k0]
+                even.fill(bv[0])
+                odd.fill(bv[1])
+                F = sfft.ifft(bv, axis=-1, norm="forward", overwrite_x=True)
+                for (s_c, sl, _), (Ec, Oc) in zip(reads, acc):
+                    if s_c == sig:
+                        Ec += np.einsum("kbj,kj->bj", F[0][..., sl], coef[k0:k1])
+                        Oc += np.einsum("kbj,kj->bj", F[1][..., sl], coef[k0:k1])
+                del F
+            for c, ((s_c, _, odd_ph), (Ec, Oc)) in enumerate(zip(reads, acc)):
                 if s_c != sig:
                     continue
-                Ec = np.einsum("kbj,kj->bj", F[0][..., sl], coef)
-                Oc = np.einsum("kbj,kj->bj", F[1][..., sl], coef)
                 full = Ec + Oc * odd_ph
                 out[:, :, c] += (full.real ** 2 + full.imag ** 2).T @ red_b
                 if want_sub:
                     out[:, :, C + c] += 4.0 * (Ec.real ** 2 + Ec.imag ** 2).T @ red_b
-            del F
     return out

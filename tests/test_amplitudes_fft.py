@@ -80,10 +80,14 @@ def _direct(dirs, red, X, t, chans, q, om, sub=True):
     return R
 
 
-@pytest.mark.parametrize("nt,M", [(801, 900), (801, 500), (800, 220), (1201, 1600)])
-def test_fft_amplitudes_equal_the_direct_double_loop(nt, M):
+@pytest.mark.parametrize("nt,M,block", [(801, 900, 2e6), (801, 500, 2e6), (800, 220, 2e6),
+                                         (1201, 1600, 2e6), (801, 900, 1.0),
+                                         (801, 500, 1.2e5)])
+def test_fft_amplitudes_equal_the_direct_double_loop(nt, M, block):
     """Full and sub-rule sums for a curved 3D path, with the transform longer
-    than the samples (zero padding), shorter (folding), and far shorter."""
+    than the samples (zero padding), shorter (folding), and far shorter; and
+    with work arrays so small that the series terms go in chunks of one
+    and of a few (the recurrence carried across chunks)."""
     rng = np.random.default_rng(7)
     dt = 0.1
     t, X, b = _path(nt, dt)
@@ -96,7 +100,8 @@ def test_fft_amplitudes_equal_the_direct_double_loop(nt, M):
     dirs = rng.normal(size=(9, 3))
     dirs /= np.linalg.norm(dirs, axis=1)[:, None]
     red = np.stack([np.ones(9), rng.uniform(size=9)], axis=1)
-    got = fft_amplitude_work(dirs, red, X, chans, q, M, jb, 2.05, 1.95, 1e-13, True)
+    got = fft_amplitude_work(dirs, red, X, chans, q, M, jb, 2.05, 1.95, 1e-13, True,
+                             block_bytes=block)
     ref = _direct(dirs, red, X, t, chans, q, jb * dw)
     assert np.abs(got - ref).max() < 1e-11 * np.abs(ref).max()
 
