@@ -36,6 +36,10 @@ must be zero.  For a linear path with ``switching = "window"``, ``start`` is
 the window's start time; the linear path then starts at the origin (in a
 uniform gas its start point changes nothing).
 
+Waypoint times and the switching lie within +-1e6 xi/c_s of t = 0,
+waypoints within 1e12 xi of the origin, and the speed and acceleration along
+a spline are at most 1e6 c_s and 1e12 c_s^2/xi (``MAX_*`` below).
+
 Everything here is reached from :func:`probe.config.scenario_from_dict`;
 every bad value raises :class:`probe.errors.InputError` naming its key.
 """
@@ -48,6 +52,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from .engine import MAX_SPEED_OVER_C
 from .errors import InputError
 
 #: Keys added to ``probe.config.SCHEMA`` (example values for messages).
@@ -74,6 +79,21 @@ SWITCHING_NAMES = ("gaussian", "window", "path")
 DEFAULT_TRANSIT_RTOL = 1e-4
 #: chi above this counts as "coupling on" for the reported transit duration
 ON_LEVEL = 1e-3
+
+# The range of a transit handled, in the units of the gas (healing length
+# xi, sound speed c_s, time xi/c_s).  Waypoint times and the switching lie
+# within +-MAX_TIME_OVER_TU xi/c_s of t = 0: the engine's time grid has at
+# least a few nodes per xi/c_s, so a transit of 1e6 xi/c_s already needs
+# millions of them.  Waypoints lie within MAX_DISTANCE_OVER_XI xi of the
+# origin along each axis (the distance covered at the largest speed in the
+# longest time).  Along a spline the speed is at most the engine's
+# MAX_SPEED_OVER_C c_s (as for a linear path) and the acceleration at most
+# MAX_ACCELERATION c_s^2/xi: at both bounds the Doppler shift k v and the
+# chirp sqrt(k a) of a phonon with k ~ 1/xi are ~1e6 c_s/xi.  These checks
+# also keep every number of the transit far inside double precision.
+MAX_TIME_OVER_TU = 1e6
+MAX_DISTANCE_OVER_XI = MAX_SPEED_OVER_C * MAX_TIME_OVER_TU
+MAX_ACCELERATION = MAX_SPEED_OVER_C ** 2
 
 _COLUMNS = ("t", "x", "y", "z")
 _SPLINE_KEYS = {"kind", "waypoints", "file", "order", "max_speed"}
@@ -160,7 +180,11 @@ def _column_values(values, key, kind, unit, unit_key):
                                             f"must be a plain number, got {v!r}")
         if not math.isfinite(v):
             raise InputError(f"{key}[{i}]", f"{v!r} is not finite")
-        out[i] = v * scale
+        si = v * scale
+        if not math.isfinite(si):
+            raise InputError(f"{key}[{i}]", f"{v!r} {unit} is beyond double precision in "
+                                            f"SI units ({'s' if kind == 'time' else 'm'})")
+        out[i] = si
     return out
 
 
@@ -201,7 +225,8 @@ def _inline_waypoints(wp, d):
             raise InputError(f"{key}.{a}", f"has {x.size} entries but t has {t.size}; "
                                            "every column needs one entry per waypoint")
         cols.append(x)
-    bad = np.flatnonzero(np.diff(t) <= 0)
+    # compared, not subtracted: a difference of two finite times can overflow
+    bad = np.flatnonzero(t[1:] <= t[:-1])
     if bad.size:
         i = int(bad[0]) + 1
         raise InputError(f"{key}.t", f"times must be strictly increasing; t[{i}] = "
@@ -226,8 +251,98 @@ def _fit_to_gas(pos, d, key, what):
     return pos[:, :d]
 
 
+def _scales(condensate):
+    """(xi, c_s, xi/c_s) of the gas, SI."""
+    xi, c = condensate.healing_length, condensate.sound_speed
+    return xi, c, xi / c
+
+
+def _check_waypoint_range(times, pos, condensate, where):
+    """InputError unless the waypoints lie within the range handled (module
+    constants).  ``where(column, i)`` gives ``(key, prefix)`` naming waypoint
+    ``i`` (``column`` None: the step from waypoint i - 1 to i)."""
+    xi, c, tu = _scales(condensate)
+    t_lim = MAX_TIME_OVER_TU * tu
+    out = np.flatnonzero(~(np.abs(times) <= t_lim))
+    if out.size:
+        i = int(out[0])
+        key, pre = where("t", i)
+        raise InputError(key, f"{pre}t = {times[i]:.6g} s is outside the times handled: "
+                              f"waypoint times must lie within +-{MAX_TIME_OVER_TU:g} "
+                              f"xi/c_s = +-{t_lim:.4g} s of t = 0 (xi/c_s = "
+                              f"{_fmt_time(tu)} in this gas)")
+    x_lim = MAX_DISTANCE_OVER_XI * xi
+    out = np.argwhere(~(np.abs(pos) <= x_lim))
+    if out.size:
+        i, j = (int(k) for k in out[0])
+        axis = _COLUMNS[1 + j]
+        key, pre = where(axis, i)
+        raise InputError(key, f"{pre}{axis} = {pos[i, j]:.6g} m is outside the positions "
+                              f"handled: waypoints must lie within {MAX_DISTANCE_OVER_XI:g} "
+                              f"xi = {x_lim:.4g} m of the origin along each axis (healing "
+                              f"length xi = {xi:.4g} m in this gas)")
+    # mean speed between neighbouring waypoints, in gas units (the ranges
+    # above keep every difference and square finite)
+    T, X = times / tu, pos / xi
+    dT = T[1:] - T[:-1]
+    dX = np.sqrt(((X[1:] - X[:-1]) ** 2).sum(axis=1))
+    fast = np.flatnonzero(dX > MAX_SPEED_OVER_C * dT)
+    if fast.size:
+        i = int(fast[0]) + 1
+        v = float(dX[i - 1]) / float(dT[i - 1]) if dT[i - 1] > 0 else math.inf
+        key, pre = where(None, i)
+        raise InputError(key, f"{pre}from t = {_fmt_time(times[i - 1])} to "
+                              f"{_fmt_time(times[i])} the probe moves {dX[i - 1] * xi:.4g} m, "
+                              f"a mean speed of {v:.4g} c_s, above the largest speed handled, "
+                              f"{MAX_SPEED_OVER_C:g} c_s (c_s = {c:.4g} m/s in this gas)")
+
+
+def _check_spline_motion(spline, condensate, key, pre):
+    """InputError unless the speed and acceleration along the spline (which
+    can overshoot between waypoints) stay within the range handled."""
+    xi, c, _ = _scales(condensate)
+    t0, t1 = spline.time_span
+    t = np.union1d(np.linspace(t0, t1, 8193), spline.times)
+    speeds = spline.speed(t)
+    i = int(np.argmax(speeds))
+    vmax = max(float(speeds[i]), float(spline.max_speed()))
+    what = (f"{pre}the order-{spline.order} spline through the waypoints (it can "
+            f"overshoot between them)")
+    if vmax > MAX_SPEED_OVER_C * c:
+        raise InputError(key, f"{what} reaches {vmax / c:.4g} c_s near t = "
+                              f"{_fmt_time(t[i])}, above the largest speed handled, "
+                              f"{MAX_SPEED_OVER_C:g} c_s (c_s = {c:.4g} m/s in this gas)")
+    acc = np.linalg.norm(spline.acceleration(t), axis=-1)
+    i = int(np.argmax(acc))
+    a_unit = c * c / xi
+    if acc[i] > MAX_ACCELERATION * a_unit:
+        raise InputError(key, f"{what} accelerates at {acc[i] / a_unit:.4g} c_s^2/xi "
+                              f"({acc[i]:.4g} m/s^2) near t = {_fmt_time(t[i])}, above the "
+                              f"largest acceleration handled, {MAX_ACCELERATION:g} "
+                              f"c_s^2/xi ({MAX_ACCELERATION * a_unit:.4g} m/s^2 in this "
+                              f"gas); space the waypoint times further apart")
+
+
+def _check_switching_range(key, value, support, condensate, stationary):
+    """InputError unless ``support`` (s; the times where chi > 1e-16, or a
+    window's start or stop time) lies within +-MAX_TIME_OVER_TU xi/c_s of
+    t = 0."""
+    _, _, tu = _scales(condensate)
+    lim = MAX_TIME_OVER_TU * tu
+    a, b = support
+    if -lim <= a and b <= lim:
+        return
+    where = (f"is at t = {a:.4g} s" if a == b else
+             f"switches the coupling on from t = {a:.4g} s to {b:.4g} s")
+    hint = ("; for a switching much slower than xi/c_s the probability approaches the "
+            "stationary rate times int chi^2 dt ('probe rates')" if stationary else "")
+    raise InputError(key, f"{value!r} {where}, outside the times handled: the switching "
+                          f"must lie within +-{MAX_TIME_OVER_TU:g} xi/c_s = +-{lim:.4g} s "
+                          f"of t = 0 (xi/c_s = {_fmt_time(tu)} in this gas){hint}")
+
+
 def _build_spline(body, condensate, source):
-    from trajectories import Spline, TrajectoryError, load_waypoints_csv
+    from trajectories import Spline, TrajectoryError, read_waypoints_csv
 
     from .units import parse_quantity
 
@@ -258,25 +373,33 @@ def _build_spline(body, condensate, source):
                                           f"got {name!r}")
         path = name if os.path.isabs(name) else os.path.join(_scenario_dir(source), name)
         try:
-            spline = load_waypoints_csv(path, order=order, max_speed=max_speed)
+            table = read_waypoints_csv(path)
         except TrajectoryError as exc:
-            if exc.key in ("order", "max_speed"):
-                raise _trajectory_error(exc) from None
             raise _trajectory_error(exc, file=name) from None
-        pos = _fit_to_gas(np.asarray(spline.waypoints), d, f"{s}.file", f"{name}: ")
+        times = table.times
+        pos = _fit_to_gas(table.positions, d, f"{s}.file", f"{name}: ")
         info.update(file=name, resolved_file=os.path.abspath(path))
-        times = np.asarray(spline.times)
-        if pos.shape[1] != spline.ndim:
-            spline = None
+
+        def where(col, i):
+            if col is None:
+                return f"{s}.file", f"{name}: lines {table.lines[i - 1]} to {table.lines[i]}: "
+            return f"{s}.file", f"{name}, column {col}: line {table.lines[i]}: "
+        motion_key, motion_pre = f"{s}.file", f"{name}: "
     else:
         times, pos = _inline_waypoints(body["waypoints"], d)
         pos = _fit_to_gas(pos, d, f"{s}.waypoints", None)
-        spline = None
-    if spline is None:
-        try:
-            spline = Spline(times, pos, order=order, max_speed=max_speed)
-        except TrajectoryError as exc:
-            raise _trajectory_error(exc, file=info.get("file")) from None
+
+        def where(col, i):
+            if col is None:
+                return f"{s}.waypoints", f"waypoints {i - 1} to {i}: "
+            return f"{s}.waypoints.{col}[{i}]", ""
+        motion_key, motion_pre = f"{s}.waypoints", ""
+    _check_waypoint_range(times, pos, condensate, where)
+    try:
+        spline = Spline(times, pos, order=order, max_speed=max_speed)
+    except TrajectoryError as exc:
+        raise _trajectory_error(exc, file=info.get("file")) from None
+    _check_spline_motion(spline, condensate, motion_key, motion_pre)
     info["waypoints"] = int(times.size)
     spline.config_info = info
     return spline
@@ -322,7 +445,7 @@ def _project(trajectory, d):
     return p
 
 
-def _build_switching(body, trajectory, kind):
+def _build_switching(body, trajectory, kind, condensate):
     from .switching import Gaussian, PathSpan, Window
 
     cfg = _cfg()
@@ -356,7 +479,12 @@ def _build_switching(body, trajectory, kind):
             centre = 0.5 * sum(trajectory.time_span)
         else:
             centre = 0.0
-        return Gaussian(width, centre)
+        gauss = Gaussian(width, centre)
+        lim = MAX_TIME_OVER_TU * _scales(condensate)[2]
+        k = "switching_centre" if abs(centre) > lim else "switching_width"
+        _check_switching_range(f"{s}.{k}", body.get(k, centre), gauss.support, condensate,
+                               trajectory.stationary)
+        return gauss
     if name == "path":
         if trajectory.time_span is None:
             raise InputError(f"{s}.switching",
@@ -377,6 +505,9 @@ def _build_switching(body, trajectory, kind):
                                        "its start point changes nothing)")
     a = _time(start, f"{s}.start")
     b = _time(cfg._require(body, s, "stop"), f"{s}.stop")
+    for k, v in (("start", a), ("stop", b)):
+        _check_switching_range(f"{s}.{k}", body[k], (v, v), condensate,
+                               trajectory.stationary)
     if not b > a:
         raise InputError(f"{s}.stop", f"must be after start = {start!r}, got "
                                       f"{body['stop']!r}")
@@ -422,7 +553,7 @@ def build_path(body, condensate, source=None):
         if body.get("switching") == "window":
             plain.pop("start", None)         # the window's start time
         trajectory = cfg.build_trajectory(plain, condensate)
-    switching = _build_switching(body, trajectory, kind)
+    switching = _build_switching(body, trajectory, kind, condensate)
     return trajectory, switching
 
 

@@ -343,6 +343,25 @@ def test_spline_invalid(times, positions, order, key, text):
     assert text in info.value.message
 
 
+@pytest.mark.parametrize("times, positions, order, key, fragment", [
+    ([0.0, 1.0, 2.0, 3.0], [0, 1e308, 2, 3], 3, "waypoints", "overflow double precision"),
+    ([0.0, 1.0, 2.0, 3.0], [0, 1e308, 2, 3], 1, "waypoints", "beyond 1e+150 m"),
+    ([0.0, 1.0, 2.0, 3.0], [0, 1e300, -1e300, 3], 3, "waypoints", "position"),
+    ([0.0, 1e-300, 1.0, 2.0], [0, 1, 2, 3], 1, "waypoints", "velocity"),
+    ([0.0, 1.0, 2.0, 1e308], [0, 1, 2, 3], 3, "waypoints.t", "collocation matrix is singular"),
+    ([-1e308, 0.0, 1.0, 1e308], [0, 1, 2, 3], 3, "waypoints.t", "beyond double precision"),
+])
+def test_spline_out_of_double_range_raises_without_warnings(times, positions, order, key,
+                                                            fragment):
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        with raises_key(key) as info:
+            Spline(times, positions, order=order, max_speed=1.0)
+    assert fragment in info.value.message
+
+
 # ----------------------------------------------------------------------------
 # CSV waypoints
 # ----------------------------------------------------------------------------
@@ -415,6 +434,7 @@ def test_csv_speed_limit(tmp_path):
     ("# c\nt [s], x [m]\n0, 0\n\n1\n", "waypoints.file", "line 5"),
     ("t [s], x [m]\n0, 0\n1, 1, 1\n", "waypoints.file", "line 3"),
     ("t [s], x [m]\n0, 0\n1, nan\n", "waypoints.x", "not finite"),
+    ("t [min], x [m]\n0, 0\n1e308, 1\n", "waypoints.t", "line 3: 1e+308 min is beyond double"),
     ("t [s], x [m]\n0, 0\n1, 1\n1, 2\n2, 3\n", "waypoints.t", "line 4"),
 ])
 def test_csv_errors(tmp_path, text, key, fragment):

@@ -184,6 +184,77 @@ def test_bad_transit_keys_exit_2_naming_the_key(tmp_path, body, key, words):
     assert "Traceback" not in r.output
 
 
+_UNITS = 'units = { t = "ms", x = "um" }, '
+_PLAIN = f'waypoints = {{ {_UNITS}t = [0, 1, 2, 3], x = [0, 1, 2, 3] }}\n'
+
+
+@pytest.mark.parametrize("body,key,words", [
+    # huge but finite waypoint coordinates and times: the spline's derivative
+    # coefficients (differences over time steps) overflowed in scipy, and
+    # the speed scan squared them
+    (f'waypoints = {{ {_UNITS}t = [0, 1, 2, 3], x = [0, 1e308, 2, 3] }}',
+     "trajectory.waypoints.x[1]", "within 1e+12 xi"),
+    ('waypoints = { t = ["0 ms", "1 ms", "2 ms", "3 ms"], '
+     + 'x = ["0 um", "1e308 m", "2 um", "3 um"] }', "trajectory.waypoints.x[1]", "within 1e+12 xi"),
+    (f'waypoints = {{ {_UNITS}t = [0, 1, 2, 1e308], x = [0, 1, 2, 3] }}',
+     "trajectory.waypoints.t[3]", "within +-1e+06 xi/c_s"),
+    ('waypoints = { units = { t = "s", x = "um" }, t = [-1e308, 1, 2, 1e308], x = [0, 1, 2, 3] }',
+     "trajectory.waypoints.t[0]", "within +-1e+06 xi/c_s"),
+    ('waypoints = { units = { t = "min", x = "um" }, t = [0, 1, 2, 1e308], x = [0, 1, 2, 3] }',
+     "trajectory.waypoints.t[3]", "beyond double precision"),
+    ('file = "huge_x.csv"', "trajectory.file", "huge_x.csv, column x: line 3: "),
+    ('file = "huge_t.csv"', "trajectory.file", "huge_t.csv, column t: line 5: "),
+    ('file = "huge_min.csv"', "trajectory.file", "huge_min.csv, column t: line 5: "),
+    # finite coordinates, but a mean speed between waypoints above 1e6 c_s
+    (f'waypoints = {{ {_UNITS}t = [0, 1, 2, 3], x = [0, 0, 1e9, 1e9] }}',
+     "trajectory.waypoints", "above the largest speed handled, 1e+06 c_s"),
+    # switching far outside the times handled
+    (_PLAIN + 'switching = "gaussian"\nswitching_width = "1e308 s"',
+     "trajectory.switching_width", "within +-1e+06 xi/c_s"),
+    (_PLAIN + 'switching = "gaussian"\nswitching_width = "1e300 s"',
+     "trajectory.switching_width", "within +-1e+06 xi/c_s"),
+    (_PLAIN + 'switching = "gaussian"\nswitching_width = "1 ms"\nswitching_centre = "1e300 s"',
+     "trajectory.switching_centre", "within +-1e+06 xi/c_s"),
+    (_PLAIN + 'switching = "window"\nstart = "0 s"\nstop = "1e308 s"',
+     "trajectory.stop", "within +-1e+06 xi/c_s"),
+])
+def test_huge_transit_values_give_one_clean_line(tmp_path, body, key, words):
+    """Bad values beyond the range handled end with exactly one line on
+    stderr naming the key and the range, exit status 2, no floating-point
+    warning (warnings are errors here) and no spectrum file."""
+    import warnings
+
+    write(tmp_path, "huge_x.csv", "t [ms], x [um]\n0, 0\n1, 1e308\n2, 2\n3, 3\n")
+    write(tmp_path, "huge_t.csv", "t [s], x [um]\n0, 0\n1, 1\n2, 2\n1e308, 3\n")
+    write(tmp_path, "huge_min.csv", "t [min], x [um]\n0, 0\n1e-5, 1\n2e-5, 2\n1e308, 3\n")
+    cfg = write(tmp_path, "bad.toml", GAS_2D + f'\n[trajectory]\nkind = "spline"\n{body}\n')
+    spec = tmp_path / "spec.csv"
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        r = run("transit", cfg, "--spectrum", spec)
+    assert r.exit_code == 2, (r.exit_code, r.output, r.exception)
+    assert r.stdout == ""
+    lines = r.stderr.splitlines()
+    assert len(lines) == 1, r.stderr
+    assert lines[0].startswith(f"error: {key}: "), lines[0]
+    assert words in lines[0], lines[0]
+    assert not list(tmp_path.glob("spec*"))
+
+
+def test_huge_switching_width_of_a_linear_transit(tmp_path):
+    import warnings
+
+    cfg = write(tmp_path, "l.toml", GAS_2D + '\n[trajectory]\nkind = "linear"\n'
+                'speed = "0.5 c_s"\nswitching = "gaussian"\nswitching_width = "1e308 s"\n')
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        r = run("transit", cfg)
+    assert r.exit_code == 2 and r.stdout == ""
+    line, = r.stderr.splitlines()
+    assert line.startswith("error: trajectory.switching_width: '1e308 s' ")
+    assert "within +-1e+06 xi/c_s" in line and "probe rates" in line
+
+
 def test_rates_and_transit_refuse_each_others_scenarios(tmp_path):
     spline = write(tmp_path, "s.toml", INLINE)
     r = run("rates", spline)

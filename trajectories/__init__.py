@@ -12,7 +12,7 @@ from .analytic import Circular, Linear
 from .base import Trajectory
 from .piecewise import Piecewise
 from .spline import Spline
-from .waypoints import load_waypoints_csv
+from .waypoints import WaypointTable, load_waypoints_csv, read_waypoints_csv
 
 __all__ = [
     "Trajectory",
@@ -21,5 +21,7 @@ __all__ = [
     "Spline",
     "Piecewise",
     "load_waypoints_csv",
+    "read_waypoints_csv",
+    "WaypointTable",
     "TrajectoryError",
 ]

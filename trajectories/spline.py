@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from scipy.interpolate import make_interp_spline
 
@@ -10,6 +12,12 @@ from .base import Trajectory, as_scalar
 
 #: Names of the position columns, in order, used in error keys.
 AXES = ("x", "y", "z")
+
+#: Largest |coefficient| (SI) of the position, velocity and acceleration
+#: splines.  Every value of a B-spline lies within the range of its
+#: coefficients, so below this bound the squares summed in speeds and
+#: norms (at most 3 of them) stay far inside double precision.
+MAX_COEFFICIENT = 1e150
 
 
 class Spline(Trajectory):
@@ -33,6 +41,11 @@ class Spline(Trajectory):
     With ``max_speed`` (m/s) given, the speed along the spline is scanned
     and ``warnings`` lists where it exceeds that limit (interpolating splines
     can overshoot between waypoints); otherwise ``warnings`` is empty.
+
+    Waypoints through which the spline cannot be formed in double precision
+    (a singular collocation matrix, or a position, velocity or acceleration
+    coefficient beyond ``MAX_COEFFICIENT`` in SI units) raise
+    ``TrajectoryError``; no floating-point warning escapes the construction.
     """
 
     stationary = False
@@ -50,9 +63,7 @@ class Spline(Trajectory):
                 f"waypoints, got {self.times.size}")
         self.times.setflags(write=False)
         self.waypoints.setflags(write=False)
-        self._spline = make_interp_spline(self.times, self.waypoints, k=self.order)
-        self._d1 = self._spline.derivative(1)
-        self._d2 = self._spline.derivative(2) if self.order >= 2 else None
+        self._spline, self._d1, self._d2 = self._build(self.times, self.waypoints, self.order)
         self.speed_limit = None
         self.warnings: list[str] = []
         if max_speed is not None:
@@ -80,12 +91,17 @@ class Spline(Trajectory):
         if bad.size:
             i = int(bad[0])
             raise TrajectoryError("waypoints.t", f"times must be finite; t[{i}] = {t[i]}")
-        step = np.flatnonzero(np.diff(t) <= 0)
+        # compared, not subtracted: a difference of two finite times can overflow
+        step = np.flatnonzero(t[1:] <= t[:-1])
         if step.size:
             i = int(step[0]) + 1
             raise TrajectoryError(
                 "waypoints.t", f"times must be strictly increasing; t[{i}]={t[i]:.12g} "
                 f"is not after t[{i - 1}]={t[i - 1]:.12g}")
+        if t.size and not math.isfinite(float(t[-1]) - float(t[0])):
+            raise TrajectoryError(
+                "waypoints.t", f"the duration t[-1] - t[0] from {t[0]:.6g} s to "
+                f"{t[-1]:.6g} s is beyond double precision (about 1.8e308 s)")
         return t
 
     @staticmethod
@@ -108,6 +124,46 @@ class Spline(Trajectory):
                 f"waypoints.{axis}", f"positions must be finite; {axis}[{i}] = {x[i, j]}")
         return x
 
+    @staticmethod
+    def _build(times, positions, order):
+        """The interpolating spline and its first and second derivatives
+        (``None`` for order 1), with every coefficient finite and within
+        ``MAX_COEFFICIENT``.
+
+        The solve and the differentiation (differences of coefficients
+        divided by knot spacings) run with floating-point warnings off; a
+        result that overflowed or cannot be formed is reported here as an
+        input error instead."""
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            try:
+                spline = make_interp_spline(times, positions, k=order)
+            except (np.linalg.LinAlgError, ValueError):
+                steps = times[1:] - times[:-1]
+                raise TrajectoryError(
+                    "waypoints.t", f"no order-{order} spline through these waypoints can be "
+                    f"formed in double precision (its collocation matrix is singular): "
+                    f"the time steps range from {steps.min():.3g} s to {steps.max():.3g} s "
+                    f"between t = {times[0]:.6g} s and {times[-1]:.6g} s; space the "
+                    f"waypoint times more evenly") from None
+            d1 = spline.derivative(1)
+            d2 = spline.derivative(2) if order >= 2 else None
+        for part, what, unit in ((spline, "position", "m"), (d1, "velocity", "m/s"),
+                                 (d2, "acceleration", "m/s^2")):
+            if part is None:
+                continue
+            c = np.abs(part.c)
+            if not np.all(c <= MAX_COEFFICIENT):      # also catches inf and nan
+                largest = float(np.max(np.where(np.isnan(c), np.inf, c)))
+                size = (f"about {largest:.3g} {unit}" if math.isfinite(largest)
+                        else "values that overflow double precision")
+                raise TrajectoryError(
+                    "waypoints", f"the {what} along the order-{order} spline through these "
+                    f"waypoints reaches {size}, beyond {MAX_COEFFICIENT:g} {unit}, where its "
+                    f"speeds and norms can no longer be formed in double precision; the "
+                    f"waypoints move by up to {_largest_step(positions):.3g} m between times "
+                    f"as close as {float(np.min(times[1:] - times[:-1])):.3g} s")
+        return spline, d1, d2
+
     # -- evaluation --------------------------------------------------------------
 
     @property
@@ -129,3 +185,11 @@ class Spline(Trajectory):
         t0, t1 = self.time_span
         return (f"Spline({self.times.size} waypoints, order={self.order}, ndim={self.ndim}, "
                 f"t=[{t0:.6g}, {t1:.6g}] s)")
+
+
+def _largest_step(positions: np.ndarray) -> float:
+    """Largest |change| of one coordinate between neighbouring waypoints
+    (inf if it overflows), without floating-point warnings."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        step = np.abs(positions[1:] - positions[:-1])
+    return float(np.max(step)) if step.size else 0.0

@@ -1,4 +1,5 @@
-"""Reading timed waypoints from a CSV file into a ``Spline``.
+"""Reading timed waypoints from a CSV file into a ``Spline`` (``load_waypoints_csv``)
+or into a table of SI arrays (``read_waypoints_csv``).
 
 File format::
 
@@ -19,6 +20,7 @@ from __future__ import annotations
 import math
 import os
 import re
+from typing import NamedTuple
 
 import numpy as np
 
@@ -45,6 +47,25 @@ def load_waypoints_csv(path, order=3, max_speed=None) -> Spline:
     non-numeric or non-finite value, times not increasing); messages give
     the line number.
     """
+    table = read_waypoints_csv(path)
+    return Spline(table.times, table.positions, order=order, max_speed=max_speed)
+
+
+class WaypointTable(NamedTuple):
+    """The waypoints of a CSV file in SI units."""
+
+    #: times (s), shape (N,), finite and strictly increasing
+    times: np.ndarray
+    #: positions (m), shape (N, ndim), columns x, y, z in that order
+    positions: np.ndarray
+    #: the line of the file each waypoint was read from (1-based)
+    lines: tuple
+
+
+def read_waypoints_csv(path) -> WaypointTable:
+    """Read the waypoints of the CSV file at ``path`` without building a
+    spline: the checks and errors of :func:`load_waypoints_csv` on the file,
+    with the line numbers kept for messages about single waypoints."""
     try:
         with open(os.fspath(path), encoding="utf-8-sig") as handle:
             text = handle.read()
@@ -61,12 +82,21 @@ def load_waypoints_csv(path, order=3, max_speed=None) -> Spline:
         raise TrajectoryError("waypoints.file", f"{os.fspath(path)} has no header row")
 
     header_line, header = lines[0]
-    names, scales = _parse_header(header, header_line)
+    names, scales, units = _parse_header(header, header_line)
     rows, row_lines = _parse_rows(lines[1:], names)
     if not rows:
         raise TrajectoryError("waypoints.file", f"{os.fspath(path)} has a header but no data rows")
 
-    data = np.array(rows) * np.array(scales)
+    # a value finite in the file's unit can overflow in SI (1e308 min)
+    with np.errstate(over="ignore"):
+        data = np.array(rows) * np.array(scales)
+    bad = np.argwhere(~np.isfinite(data))
+    if bad.size:
+        i, j = (int(k) for k in bad[0])
+        si = "s" if names[j] == "t" else "m"
+        raise TrajectoryError(
+            f"waypoints.{names[j]}", f"line {row_lines[i]}: {rows[i][j]:g} {units[j]} is "
+            f"beyond double precision in {si} (at most about 1.8e308 {si})")
     t_col = names.index("t")
     times = data[:, t_col]
     for i in range(1, times.size):
@@ -76,11 +106,11 @@ def load_waypoints_csv(path, order=3, max_speed=None) -> Spline:
                 f"t = {rows[i][t_col]:g} is not after t = {rows[i - 1][t_col]:g} on line "
                 f"{row_lines[i - 1]}")
     axes = [names.index(a) for a in AXES if a in names]
-    return Spline(times, data[:, axes], order=order, max_speed=max_speed)
+    return WaypointTable(times, data[:, axes], tuple(row_lines))
 
 
-def _parse_header(header: str, line: int) -> tuple[list[str], list[float]]:
-    names, scales = [], []
+def _parse_header(header: str, line: int) -> tuple[list[str], list[float], list[str]]:
+    names, scales, units = [], [], []
     for cell in header.split(","):
         match = _HEADER_CELL.match(cell)
         if match is None:
@@ -110,6 +140,7 @@ def _parse_header(header: str, line: int) -> tuple[list[str], list[float]]:
                 f"{allowed}")
         names.append(name)
         scales.append(table[unit])
+        units.append(unit)
     if "t" not in names:
         raise TrajectoryError("waypoints.columns", f"line {line}: a time column 't [unit]' "
                               "is required")
@@ -118,7 +149,7 @@ def _parse_header(header: str, line: int) -> tuple[list[str], list[float]]:
         raise TrajectoryError(
             "waypoints.columns", f"line {line}: position columns must be x, 'x, y' or "
             f"'x, y, z' in that order, got {', '.join(spatial) or 'none'}")
-    return names, scales
+    return names, scales, units
 
 
 def _parse_rows(lines, names) -> tuple[list[list[float]], list[int]]:
