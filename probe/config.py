@@ -458,6 +458,7 @@ class Scenario:
     extra: dict = field(default_factory=dict)
     switching: object = None          # finite transits: probe/transit_config.py
     transit_rtol: float = 1e-4
+    transit_method: str = "auto"
 
     @property
     def is_transit(self):
@@ -538,7 +539,8 @@ def scenario_from_dict(raw, overrides=(), source=None):
                     rtol=rtol, raw=raw, source=source, species=species,
                     probe_mass=probe_mass, probe_species=probe_species,
                     switching=switching,
-                    transit_rtol=_transit.transit_rtol(raw, trajectory))
+                    transit_rtol=_transit.transit_rtol(raw, trajectory),
+                    transit_method=_transit.transit_method(raw))
 
 
 def load_config(path, overrides=()):

@@ -123,7 +123,9 @@ def _rows_switching(scenario, info):
                                  f"({_num(sw['transit_duration'] * w0)} xi/c)"),
             ("effective duration", f"{_fmt_time(sw['effective_duration'])}  "
                                    "(int chi^2 dt)"),
-            ("requested accuracy", f"transit_rtol = {_num(scenario.transit_rtol)}")]
+            ("requested accuracy", f"transit_rtol = {_num(scenario.transit_rtol)}"
+                                   + ("" if scenario.transit_method == "auto" else
+                                      f", transit_method = {scenario.transit_method!r}"))]
 
 
 def _rows_results(scenario, result, extras, files):
@@ -154,7 +156,10 @@ def _rows_results(scenario, result, extras, files):
                                    f"{_num(scenario.transit_rtol)})"),
              ("grid", f"{g.get('n_times')} times x {g.get('n_wavenumbers')} wavenumbers "
                       f"(k_max xi = {_num(g.get('k_max', math.nan) * result.healing_length, 4)})"
-                      f" x up to {g.get('max_directions')} directions")]
+                      f" x up to {g.get('max_directions')} directions"),
+             ("amplitudes", "FFT over time, frequency-uniform nodes (FFT length "
+                            f"{g.get('fft_length')})" if g.get("method") == "fft" else
+              "direct sums, wavenumber-uniform nodes")]
     for label, name in zip(("spectrum file", "directions file"), files):
         rows.append((label, name))
     return rows

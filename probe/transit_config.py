@@ -28,6 +28,7 @@ probabilities (:func:`probe.transit.transit_probabilities`).  Keys, all in
 
     [numerics]
     transit_rtol = 1e-4          # transit accuracy (rates keep rtol = 1e-8)
+    transit_method = "auto"      # amplitudes: "auto", "phasor" (direct sums), "fft"
 
 Times are on the path's own clock: the waypoint times, or ``t`` in
 ``x(t) = start + v t`` for a linear path.  Columns are ``t`` and ``x``,
@@ -71,6 +72,7 @@ SCHEMA_KEYS = {
     },
     "numerics": {
         "transit_rtol": "1e-4",
+        "transit_method": '"auto"',
     },
 }
 
@@ -576,6 +578,20 @@ def transit_rtol(raw, trajectory=None):
     return rtol
 
 
+TRANSIT_METHODS = ("auto", "phasor", "fft")
+
+
+def transit_method(raw):
+    """``numerics.transit_method`` (default "auto"): the amplitude route of
+    the transit engine (:func:`probe.transit.transit_probabilities`)."""
+    key = "numerics.transit_method"
+    value = raw.get("numerics", {}).get("transit_method", "auto")
+    if not isinstance(value, str) or value.strip().lower() not in TRANSIT_METHODS:
+        raise InputError(key, f"must be one of {', '.join(repr(m) for m in TRANSIT_METHODS)} "
+                              f"(\"auto\" picks the cheaper), got {value!r}")
+    return value.strip().lower()
+
+
 def rates_notes(scenario):
     """Notes for ``probe rates`` on a transit scenario; raises for a path
     that has no stationary rate."""
@@ -616,7 +632,8 @@ def run_transit(scenario, spectrum=False, workers=None):
     path = _project(scenario.trajectory, cond.dimension)
     res = transit_probabilities(cond, scenario.probe, path, scenario.switching,
                                 rtol=scenario.transit_rtol, spectrum=spectrum,
-                                workers=workers)
+                                workers=workers,
+                                method=getattr(scenario, "transit_method", "auto"))
     stand_in = types.SimpleNamespace(speed=path_summary(scenario)["max_speed"],
                                      gap=None, up_rate=None, down_rate=None)
     for w in _span_warnings(scenario) + regime_warnings(cond, scenario.probe, stand_in):
@@ -732,5 +749,6 @@ def describe(scenario):
     info = scenario.describe()
     info["trajectory"] = path_summary(scenario)
     info["switching"] = switching_summary(scenario.switching, scenario.raw["trajectory"])
-    info["numerics"] = {"transit_rtol": scenario.transit_rtol}
+    info["numerics"] = {"transit_rtol": scenario.transit_rtol,
+                        "transit_method": getattr(scenario, "transit_method", "auto")}
     return info

@@ -311,10 +311,12 @@ def test_json_has_the_contract_keys_and_table_the_results(tmp_path):
     assert f"{out['up_probability']:.6g}" in table
 
 
-def test_spectrum_files_have_units_and_integrate_to_emitted_phonons(tmp_path):
+@pytest.mark.parametrize("method", ["phasor", "fft"])
+def test_spectrum_files_have_units_and_integrate_to_emitted_phonons(tmp_path, method):
     cfg = write(tmp_path, "s.toml", INLINE)
     spec = tmp_path / "spec.csv"
-    r = run("transit", cfg, "--json", "--spectrum", spec)
+    r = run("transit", cfg, "--json", "--spectrum", spec,
+            "--set", f"numerics.transit_method={method}")
     assert r.exit_code == 0, r.output
     out = json.loads(r.stdout)
     n, err = out["emitted_phonons"], out["emitted_phonons_error"]
@@ -325,8 +327,18 @@ def test_spectrum_files_have_units_and_integrate_to_emitted_phonons(tmp_path):
     assert np.all(np.diff(k) > 0) and np.all(dn_dk >= 0) and np.all(np.diff(energy) > 0)
     # the quadrature weights reproduce the total to the file's 10 digits ...
     assert abs(np.sum(dn_dk * dk) - n) <= 1e-8 * n
-    # ... and the plain uniform sum to within the reported accuracy
-    assert abs(np.sum(dn_dk) * (k[1] - k[0]) - n) <= max(err, out["achieved_rtol"] * n)
+    assert out["grid"]["method"] == method
+    if method == "phasor":
+        # ... and the plain uniform sum to within the reported accuracy
+        assert abs(np.sum(dn_dk) * (k[1] - k[0]) - n) <= max(err, out["achieved_rtol"] * n)
+    else:
+        # nodes uniform in energy: dk = dE / (hbar v_g), with v_g = dE/(hbar dk)
+        # from the file's own columns (interior nodes, where the end
+        # corrections of the weights are 1)
+        dE = np.diff(energy)
+        assert np.allclose(dE, dE[0], rtol=1e-8)
+        vg_dk = (energy[4:-1] - energy[2:-3]) / (k[4:-1] - k[2:-3])
+        assert np.allclose(dk[3:-2], dE[0] / vg_dk, rtol=1e-3)
     dirs = Path(directions_path(spec))
     assert dirs.name == "spec.directions.csv" and out["spectrum_directions_file"] == str(dirs)
     header, data = read_csv(dirs)
@@ -439,3 +451,26 @@ def test_rates_on_all_top_level_examples_in_one_call():
     assert len(json.loads(r.stdout)) == len(files)
     r = run("transit", *sorted((EXAMPLES / "transits").glob("*.toml")), "--json")
     assert r.exit_code == 0, r.output
+
+
+def test_transit_method_key_selects_the_route_and_is_checked(tmp_path):
+    """numerics.transit_method: both routes give the same probabilities
+    (independent evaluations of one integral); an unknown name exits 2."""
+    cfg = write(tmp_path, "s.toml", INLINE)
+    outs = {}
+    for method in ("phasor", "fft", "auto"):
+        r = run("transit", cfg, "--json", "--set", f"numerics.transit_method={method}")
+        assert r.exit_code == 0, r.output
+        outs[method] = json.loads(r.stdout)
+        assert outs[method]["inputs"]["numerics"]["transit_method"] == method
+    assert outs["phasor"]["grid"]["method"] == "phasor"
+    assert outs["fft"]["grid"]["method"] == "fft"
+    for name in ("up_probability", "down_probability"):
+        a, b = outs["phasor"][name], outs["fft"][name]
+        assert b == pytest.approx(a, rel=2 * outs["phasor"]["achieved_rtol"] + 1e-12)
+    table = run("transit", cfg, "--set", "numerics.transit_method=fft").stdout
+    assert "transit_method = 'fft'" in table and "FFT over time" in table
+    bad = run("transit", cfg, "--set", "numerics.transit_method=fast")
+    assert bad.exit_code == 2
+    assert bad.stderr.strip().startswith("error: numerics.transit_method:")
+    assert "'auto', 'phasor', 'fft'" in bad.stderr
