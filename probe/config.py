@@ -366,6 +366,41 @@ def _speed(value, key, sound_speed):
     return speed
 
 
+def _position_limit(condensate):
+    """(limit in xi, limit in m, xi in m): positions are handled within
+    probe.transit_config.MAX_DISTANCE_OVER_XI healing lengths of the origin
+    along each axis, as for spline waypoints."""
+    from .transit_config import MAX_DISTANCE_OVER_XI
+    xi = condensate.healing_length
+    return MAX_DISTANCE_OVER_XI, MAX_DISTANCE_OVER_XI * xi, xi
+
+
+def _check_position(vec, key, what, condensate):
+    """InputError naming ``key[i]`` unless every component of ``vec`` (m)
+    lies within the positions handled (``_position_limit``)."""
+    lim_xi, lim, xi = _position_limit(condensate)
+    out = np.flatnonzero(~(np.abs(vec) <= lim))
+    if out.size:
+        i = int(out[0])
+        raise InputError(f"{key}[{i}]",
+                         f"{vec[i]:.6g} m is outside the positions handled: the "
+                         f"{what} must lie within {lim_xi:g} xi = {lim:.4g} m of the "
+                         f"origin along each axis (healing length xi = {xi:.4g} m "
+                         f"in this gas)")
+
+
+def _check_radius(radius, key, condensate):
+    """InputError for a radius above the positions handled
+    (``_position_limit``); radii <= 0 are left to ``Circular``."""
+    lim_xi, lim, xi = _position_limit(condensate)
+    if radius > lim:
+        raise InputError(key, f"{radius:.6g} m is above the largest radius handled, "
+                              f"{lim_xi:g} xi = {lim:.4g} m (healing length xi = "
+                              f"{xi:.4g} m in this gas); for R >> xi the rate "
+                              f"approaches that of straight motion at the same "
+                              f"speed (kind = \"linear\")")
+
+
 def build_trajectory(body, condensate):
     """A trajectory object from the ``[trajectory]`` table."""
     from trajectories import Circular, Linear, TrajectoryError
@@ -387,11 +422,13 @@ def build_trajectory(body, condensate):
             if "start" in body:
                 start = parse_vector(body["start"], f"{s}.start", "length")
                 _in_gas(start, f"{s}.start", d, "start point")
+                _check_position(start, f"{s}.start", "start point", condensate)
             return Linear(speed, direction=direction, start=start)
         _not_applicable(body, s, set(body) - _CIRCULAR_KEYS,
                         "by a circular trajectory (keys: "
                         + ", ".join(sorted(_CIRCULAR_KEYS)) + ")")
         radius = parse_quantity(_require(body, s, "radius"), f"{s}.radius", "length")
+        _check_radius(radius, f"{s}.radius", condensate)
         if ("speed" in body) == ("angular_frequency" in body):
             raise InputError(f"{s}.speed",
                              "give exactly one of speed (e.g. \"0.5 c_s\") and "
@@ -407,6 +444,7 @@ def build_trajectory(body, condensate):
             centre = parse_vector(body["centre"], f"{s}.centre", "length",
                                   sizes=(2, 3))
             _in_gas(centre, f"{s}.centre", d, "centre")
+            _check_position(centre, f"{s}.centre", "centre", condensate)
         normal = parse_vector(body.get("normal", [0, 0, 1]), f"{s}.normal",
                               "dimensionless", sizes=(3,))
         if d == 2 and np.any(normal[:2] != 0):

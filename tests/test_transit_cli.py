@@ -255,6 +255,36 @@ def test_huge_switching_width_of_a_linear_transit(tmp_path):
     assert "within +-1e+06 xi/c_s" in line and "probe rates" in line
 
 
+@pytest.mark.parametrize("path,key,words", [
+    ('kind = "linear"\nspeed = "0.5 c_s"\nstart = ["1e308 m", "0 m", "0 m"]',
+     "trajectory.start[0]", "within 1e+12 xi"),
+    ('kind = "circular"\nspeed = "0.5 c_s"\nradius = "1e300 m"',
+     "trajectory.radius", "1e+12 xi"),
+    ('kind = "circular"\nspeed = "0.5 c_s"\nradius = "5 um"\ncentre = ["0 m", "1e300 m"]',
+     "trajectory.centre[1]", "within 1e+12 xi"),
+])
+def test_huge_start_radius_or_centre_of_a_switched_path(tmp_path, path, key, words):
+    """A linear or circular transit placed far outside the positions handled
+    (as for spline waypoints, 1e12 xi) ends with one line naming the key:
+    before the check the linear case's positions in units of xi overflowed to
+    inf and the engine stopped on the NaNs that followed, with
+    RuntimeWarnings and a traceback."""
+    import warnings
+
+    cfg = write(tmp_path, "far.toml", GAS_2D + f'\n[trajectory]\n{path}\n'
+                'switching = "gaussian"\nswitching_width = "1 ms"\n')
+    spec = tmp_path / "spec.csv"
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        r = run("transit", cfg, "--spectrum", spec)
+    assert r.exit_code == 2, (r.exit_code, r.output, r.exception)
+    assert r.stdout == ""
+    line, = r.stderr.splitlines()
+    assert line.startswith(f"error: {key}: "), line
+    assert words in line, line
+    assert not list(tmp_path.glob("spec*"))
+
+
 def test_rates_and_transit_refuse_each_others_scenarios(tmp_path):
     spline = write(tmp_path, "s.toml", INLINE)
     r = run("rates", spline)

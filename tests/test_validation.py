@@ -147,6 +147,12 @@ CASES = [
      ["trajectory.kind=circular", "trajectory.radius=3 mm"], []),
     ("slow rotation on a large circle", "2D", None,
      ["trajectory.radius=5 mm", "trajectory.speed=1e-3 c_s"], []),
+    ("linear start beyond 1e12 xi", "3D", None,
+     ['trajectory.start=["1e308 m", "0 m", "0 m"]'], []),
+    ("circle radius above 1e12 xi", "3D", None,
+     ["trajectory.kind=circular", "trajectory.radius=1e300 m"], []),
+    ("circle centre beyond 1e12 xi", "2D", None,
+     ['trajectory.centre=["0 m", "1e300 m"]'], []),
     ("coupling so large the rates overflow", "3D", None, ["probe.coupling_length=1e300 nm"], []),
     ("gas scales underflow", "3D", None, ["condensate.density=1e-320 m^-3"], []),
     ("--output folder does not exist", "3D", None, [], ["--output", "no/such/folder/out.json"]),
@@ -278,6 +284,9 @@ def test_messages_name_value_and_what_is_allowed(tmp_path):
         "transverse frequency missing for d < 3": ("condensate.transverse_frequency", "missing", "kHz"),
         "1D density probe exactly at the sound speed": ("trajectory.speed", "1/sqrt(v - c)", ""),
         "3D circle too costly (R ~ 1e4 xi, 1.5 c_s)": ("trajectory.radius", "Bessel", "linear"),
+        "linear start beyond 1e12 xi": ("trajectory.start[0]", "1e+308 m", "within 1e+12 xi"),
+        "circle radius above 1e12 xi": ("trajectory.radius", "1e+300 m", "1e+12 xi"),
+        "circle centre beyond 1e12 xi": ("trajectory.centre[1]", "1e+300 m", "within 1e+12 xi"),
     }
     by_name = {c[0]: c for c in CASES}
     for name, (key, *texts) in expect.items():
