@@ -234,6 +234,33 @@ def test_long_switching_tends_to_stationary_rate(kind, v, method):
         assert corr[2] < 0.2 * corr[1], (ch, dv)
 
 
+def test_circular_up_channel_tends_to_stationary_rate():
+    """Up-transitions of a probe circling below the sound speed (the
+    circular-motion excitation): with Gaussian switching P_up/(sqrt(pi) tau)
+    -> Gamma_up of the stationary circular engine (an independent route:
+    harmonic sums of the mode functions).  Gamma_up is steep in the gap, so
+    the plain deviation is large at short tau and falls like 1/tau^2; with
+    the second-order smoothing term what is left falls like 1/tau^4."""
+    cond = gas(3)
+    w0, xi, c = cond.frequency_unit, cond.healing_length, cond.sound_speed
+    gap, width, R, v = 0.5, 0.5, 3.0, 0.8
+    probe = two_level(cond, gap, width)
+    path = Circular(R * xi, speed=v * c)
+    fun = lambda g: np.asarray(circular_rates(cond, probe, R * xi, v * c, gap=g * w0,
+                                              rtol=1e-10).up_rate)
+    plain, corr = [], []
+    for tau in (20.0, 40.0, 80.0):
+        res = transit_probabilities(cond, probe, path, Gaussian(tau / w0), rtol=1e-5)
+        g0, g2 = _smoothed_rate(fun, gap, tau)
+        P_rate = res.up_probability * w0 / (math.sqrt(math.pi) * tau)
+        plain.append(abs(P_rate / g0 - 1))
+        corr.append(abs(P_rate / g2 - 1))
+    assert plain[1] < 0.35 * plain[0] and plain[2] < 0.35 * plain[1], plain
+    assert plain[2] < 6e-3, plain
+    assert corr[1] < 0.05 * plain[1] and corr[2] < 0.05 * plain[2], (plain, corr)
+    assert corr[2] < 0.2 * corr[1], corr
+
+
 def test_window_switching_tends_to_rate_times_integral_of_chi_squared():
     """A long smooth window: |chi(f)|^2 -> 2 pi (int chi^2 dt) delta(f), so
     P -> Gamma int chi^2 dt (down channel, supersonic inertial, 3D)."""
