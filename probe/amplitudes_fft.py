@@ -83,10 +83,11 @@ def bessel_sequence(x, K, n_start=None):
     return out
 
 
-def fft_length(m_min):
-    """Smallest even length >= m_min whose half is a fast FFT size."""
-    half = sfft.next_fast_len(max(1, int(math.ceil(m_min / 2.0))))
-    return 2 * half
+def fft_length(m_min, multiple=2):
+    """A length >= m_min, a multiple of ``multiple`` (even) whose quotient is
+    a fast FFT size (so M/2, M/multiple ... are fast too)."""
+    q = sfft.next_fast_len(max(1, int(math.ceil(m_min / float(multiple)))))
+    return int(multiple) * q
 
 
 class _ChebyshevSignals:

@@ -89,12 +89,21 @@ Numerical method (natural units of the gas: q = k xi, t in xi/c)
   (the time step is adjusted to the grid and the window extended by under
   one step; not for a hard cut).  One angular rule, the cover of every
   node's, serves all nodes; the 3D angular check is the cover at 3/4 the
-  degree on every node.  Both routes compute the same sums and are checked
+  degree on every 4th node (a transform of length M/4 of the folded time
+  series gives exactly those frequencies).  Both routes compute the same sums and are checked
   against each other and the closed forms in the tests.  When the
   amplitude is resonant at k -> 0 (|D| T_c < 10: the density probe, or a
   gap inside the switching bandwidth) the integrand has a peak of width
   1/T_c at the start of the frequency grid, which its end-corrected rule
   resolves only after several refinements; the cost model counts them.
+* Lag route (``method="lag"``, and ``"auto"`` whenever it applies): for a
+  path whose separations |x(t + s) - x(t)| depend on the lag s alone (the
+  trajectory's ``separation`` capability: linear, circular) and no
+  direction spectrum, the angular integral is exact --
+  int dOmega |a|^2 = |S^{d-1}| sum_m c_m e^{i(D + w)s_m} j_d(q r(s_m)) with
+  c_m the switching's autocorrelation on the time grid (by FFT) and j_d the
+  isotropic average of e^{-i k.dx} (sin x/x, J_0, cos) -- the same double
+  trapezoid sum regrouped by lag, at cost nodes x lags.
 * If an error estimate exceeds its share of ``rtol`` that part is refined
   (h or dt halved, angular degree x 1.4, q_max x 1.5) and the whole sum
   recomputed, up to ``max_refinements`` times.  ``achieved_rtol`` is the
@@ -141,7 +150,8 @@ _COST_PHASOR = 3.0e-9
 _COST_FFT = 1.0e-9
 _COST_SIGNAL = 4.0e-9
 _COST_BESSEL = 1.5e-9
-_METHODS = ("auto", "phasor", "fft")
+_METHODS = ("auto", "phasor", "fft", "lag")
+_COST_LAG = 2.5e-8   # per (node, lag): a cos/sin pair, a Bessel-type kernel
 _ENDPOINT_RESONANCE = 10.0   # |D| T_c below which a(k -> 0) is resonant
 
 
@@ -669,8 +679,10 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
     spectrum_bins : number of direction bins (3D: 40 in cos theta; 2D: 72)
     method : amplitude route: ``"phasor"`` (direct sums, q-uniform nodes),
         ``"fft"`` (frequency-uniform nodes, one FFT per direction and
-        Jacobi-Anger term) or ``"auto"`` (the cheaper by a cost model; both
-        compute the same sums to rtol)
+        Jacobi-Anger term), ``"lag"`` (linear and circular paths without a
+        direction spectrum: exact angular average over lag sums) or
+        ``"auto"`` (the cheapest by a cost model; all compute the same
+        sums to rtol)
 
     Returns a :class:`TransitResult`.
     """
@@ -905,13 +917,17 @@ def _radial_fft(disp, q_max, Lw, fac_q, dt, pair=None):
     dw divides it exactly and the time step becomes 2 pi/(M dw) <= dt."""
     dw_target = 0.5 * math.pi / Lw / fac_q
     shift = 0
+    # M a multiple of 2 _ANGLE_SAMPLE and the shift of _ANGLE_SAMPLE, so that
+    # the angular check's transform of length M/_ANGLE_SAMPLE lands on
+    # every _ANGLE_SAMPLE-th node
+    a = _ANGLE_SAMPLE
     if pair:
-        shift = int(math.ceil(pair / dw_target))
+        shift = a * int(math.ceil(pair / (a * dw_target)))
         dw = pair / shift
-        M = fft_length(2 * math.pi / (dw * dt))
+        M = fft_length(2 * math.pi / (dw * dt), 2 * a)
         dt = 2 * math.pi / (M * dw)
     else:
-        M = fft_length(2 * math.pi / (dw_target * dt))
+        M = fft_length(2 * math.pi / (dw_target * dt), 2 * a)
         dw = 2 * math.pi / (M * dt)
     w_max = float(disp.omega(q_max))
     nw = max(16, int(math.ceil(w_max / dw)))
@@ -934,25 +950,78 @@ def _cheb_eps(rtol):
     return max(1e-14, 1e-4 * rtol)
 
 
-def _run_fft(runs, X, qn, g, eps_c, shifts, pool, workers):
+def _lag_integrals(chi, wt, wt2, dt, Ds, sep, qn, omega, d, pool, workers):
+    """Angular integrals of |a|^2 on the nodes for a path whose separations
+    depend on the lag alone, r(s) = |x(t + s) - x(t)|:
+
+        int dOmega |a(D, q n)|^2 = |S^{d-1}| sum_m c_m e^{i (D + w) s_m} j_d(q r(s_m)),
+
+    the double trapezoid sum over time pairs regrouped by lag s_m = m dt, with
+    c_m = sum_i b_i b_{i+m} (b = chi w, computed by FFT; c_{-m} = c_m) and
+    the angular average of e^{-i k.dx} over an isotropic gas, j_3 = sin x/x,
+    j_2 = J_0(x), j_1 = cos x.  Columns: each D with the full time rule,
+    then each D with its every-other-point sub-rule (weights wt2)."""
+    from scipy import fft as sfft
+    from scipy.special import j0
+
+    n = chi.size
+    nfft = sfft.next_fast_len(2 * n)
+
+    def autocorr(b):
+        B = sfft.rfft(b, nfft)
+        return sfft.irfft(B * B.conj(), nfft)[:n]
+
+    lag = dt * np.arange(n)
+    mult = np.full(n, 2.0)
+    mult[0] = 1.0
+    cs = [autocorr(chi * wt), autocorr(chi * wt2)]
+    coef = np.stack([mult * c * np.exp(1j * D * lag) for c in cs for D in Ds], axis=1)
+    measure = {1: 2.0, 2: 2 * np.pi, 3: 4 * np.pi}[d]
+    out = np.empty((qn.size, coef.shape[1]))
+    rows = int(max(1, 2e6 // n))
+
+    def block(i0):
+        i1 = min(qn.size, i0 + rows)
+        x = np.outer(qn[i0:i1], sep)
+        if d == 3:
+            kern = np.sinc(x / np.pi)
+        elif d == 2:
+            kern = j0(x)
+        else:
+            kern = np.cos(x)
+        ph = np.outer(omega[i0:i1], lag)
+        G = np.empty(ph.shape, complex)
+        np.multiply(np.cos(ph), kern, out=G.real)
+        np.multiply(np.sin(ph), kern, out=G.imag)
+        out[i0:i1] = measure * (G @ coef).real
+
+    starts = range(0, qn.size, rows)
+    if pool is not None and len(starts) > 1:
+        list(pool.map(block, starts))
+    else:
+        for i0 in starts:
+            block(i0)
+    return out
+
+
+def _run_fft(runs, X, q_h, eps_c, pool, workers):
     """Every FFT-route run (name, rule, reductions, channel columns, with
-    sub-rule) split into direction chunks over the thread pool; returns the
-    summed R[j, r, c] per run name."""
-    q_h = 0.5 * float(qn[-1])
+    sub-rule, nodes, transform length, node bins, channel shifts) split
+    into direction chunks over the thread pool; returns the summed
+    R[j, r, c] per run name."""
     items = []
-    for name, rule, red, chans, want_sub in runs:
-        n = rule.size
+    for run in runs:
+        n = run[1].size
         nchunks = max(1, min(n, 2 * workers if workers > 1 else 1))
         for sl in np.array_split(np.arange(n), nchunks):
             if sl.size:
-                items.append((name, rule, red, chans, want_sub, sl))
-    items.sort(key=lambda it: -it[5].size)
+                items.append((run, sl))
+    items.sort(key=lambda it: -it[1].size * it[0][6])
 
     def job(it):
-        name, rule, red, chans, want_sub, sl = it
-        return name, fft_amplitude_work(rule.dirs[sl], red[sl], X, chans, qn, g["M"],
-                                        g["jbins"], q_h, q_h, eps_c, want_sub,
-                                        shifts=shifts)
+        (name, rule, red, chans, want_sub, qn, M, jbins, shifts), sl = it
+        return name, fft_amplitude_work(rule.dirs[sl], red[sl], X, chans, qn, M, jbins,
+                                        q_h, q_h, eps_c, want_sub, shifts=shifts)
 
     results = pool.map(job, items) if (pool is not None and len(items) > 1) \
         else map(job, items)
@@ -1020,9 +1089,20 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
             built[key] = _make_rule(spec, geom, edges if with_bins else None)
         return built[key]
 
-    # --- radial grids of both amplitude routes, and their costs ---------------
+    # --- radial grids of the amplitude routes, and their costs ----------------
     vg_max = float(disp.group_velocity(q_max))
     grids = {}
+    # a path whose separations depend on the lag alone (linear, circular)
+    # lets the angular integral be done exactly: the lag route
+    sep_fn = getattr(trajectory, "separation", None)
+    lag_ok = (not spectrum and callable(sep_fn)
+              and sep_fn(np.zeros(1)) is not None)
+    if method == "lag" and not lag_ok:
+        raise InputError("method", "the lag route needs a path whose separations "
+                                   "|x(t + s) - x(t)| depend on the lag s alone (linear, "
+                                   "circular) and no direction spectrum; use 'auto'")
+    if method in ("auto", "lag") and lag_ok:
+        grids["lag"] = _radial_phasor(disp, q_max, vg_max * corr + geom.D + 1e-300, fac_q)
     if method in ("auto", "phasor"):
         grids["phasor"] = _radial_phasor(disp, q_max, vg_max * corr + geom.D + 1e-300,
                                          fac_q)
@@ -1036,6 +1116,10 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
         grids["fft"] = _radial_fft(disp, q_max, corr + geom.D / vg_min + 1e-300, fac_q, dt,
                                    pair)
     for name, g in grids.items():
+        if name == "lag":
+            g["cost"] = _COST_LAG * g["qn"].size * t.size
+            g["specs"] = None
+            continue
         # relative accuracy each node's angular integral needs, from its
         # weight q^(d-1) S |F|^2 dq against the largest one (|a|^2 is bounded
         # by (int chi)^2 at every node); the angular check confirms it
@@ -1061,15 +1145,17 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
         else:
             g["top_spec"] = _cover_spec(geom, g["qn"], g["eps_node"], ang_fac, nbins_req)
             g["check_spec"] = _cover_spec(geom, g["qn"], g["eps_node"], 0.75 * ang_fac, 0)
-            ndir = rule_of(g["top_spec"], False).size
-            if d == 3 and g["check_spec"] != g["top_spec"]:
-                ndir += rule_of(g["check_spec"], False).size
             K = chebyshev_degree(0.5 * q_max * 0.5 * geom.extent, _cheb_eps(rtol))
-            M = g["M"]
             nsig = 1 if g["shift"] else nD
-            g["cost"] = ndir * (nsig * K * (_COST_FFT * M * math.log2(max(M, 4))
-                                          + _COST_SIGNAL * t.size)
-                                + _COST_BESSEL * t.size * (2 * K + 0.5 * q_max * geom.extent + 12))
+
+            def per_dir(M):
+                return (nsig * K * (_COST_FFT * M * math.log2(max(M, 4))
+                                    + _COST_SIGNAL * t.size)
+                        + _COST_BESSEL * t.size * (2 * K + 0.5 * q_max * geom.extent + 12))
+            g["cost"] = rule_of(g["top_spec"], False).size * per_dir(g["M"])
+            if d == 3 and g["check_spec"] != g["top_spec"]:
+                g["cost"] += rule_of(g["check_spec"], False).size * per_dir(
+                    g["M"] // _ANGLE_SAMPLE)
             if min(abs(D) for D in Ds) * corr < _ENDPOINT_RESONANCE:
                 # the amplitude is resonant at k -> 0 (density probe, or a
                 # gap inside the switching bandwidth): a peak of width 1/T_c
@@ -1144,6 +1230,13 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
             ang_err_nodes[sel, :nD] = (Ebar[sel, :nD] - Rc[:, 0, :]) * _ANGLE_SAMPLE
         nb_bands = len(bands)
         max_dirs = int(max(sizes)) if sizes else 0
+    elif route == "lag":
+        # angular integral exact: int dOmega |a|^2 = measure x sum over lags
+        # of the switching's autocorrelation times j_d(q r(s)) e^{i(D+w)s}
+        sep = np.asarray(sep_fn(dt * np.arange(t.size) * tu), float) / xi
+        Ebar[:] = _lag_integrals(chi, wt, wt2, dt, Ds, sep, qn, omega, d, pool, workers)
+        nb_bands = 0
+        max_dirs = 0
     else:
         # one rule, that of the most demanding node, serves every node: a
         # direction's FFT yields all of them at once
@@ -1164,22 +1257,30 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
         else:
             shifts = None
             sig = cols[:, :nD]
-        runs = [("main", rule, reductions(rule), sig, True)]
+        M = g["M"]
+        runs = [("main", rule, reductions(rule), sig, True, qn, M, g["jbins"], shifts)]
         if d == 3:
             cspec = g["check_spec"]
             if cspec != g["top_spec"]:
                 crule = rule_of(cspec, False)
+                # on every 4th node: the transform of length M/4 (time
+                # series folded) gives exactly those frequencies
+                sel = slice(0, None, _ANGLE_SAMPLE)
+                cshifts = None if shifts is None else \
+                    [(sg, sh // _ANGLE_SAMPLE) for sg, sh in shifts]
                 runs.append(("check", crule, np.ascontiguousarray(crule.weights[:, None]),
-                             sig, False))
-        outs = _run_fft(runs, X, qn, g, eps_c, shifts, pool, workers)
+                             sig, False, qn[sel], M // _ANGLE_SAMPLE,
+                             g["jbins"][sel] // _ANGLE_SAMPLE, cshifts))
+        outs = _run_fft(runs, X, 0.5 * float(qn[-1]), eps_c, pool, workers)
         R = outs["main"]
         # columns: full per channel, then sub-rule per channel (as cols)
         store(idx_all, R)
         if "check" in outs:
-            ang_err_nodes[:, :nD] = Ebar[:, :nD] - outs["check"][:, 0, :]
+            sel = slice(0, None, _ANGLE_SAMPLE)
+            ang_err_nodes[sel, :nD] = (Ebar[sel, :nD] - outs["check"][:, 0, :]) * _ANGLE_SAMPLE
         nb_bands = 1
         max_dirs = rule.size
-    if d == 2:
+    if d == 2 and route != "lag":
         ang_err_nodes[:, :nD] = Ebar[:, :nD] - Ebar_sub[:, :nD]
 
     # --- assemble channels ----------------------------------------------------

@@ -156,13 +156,20 @@ def _rows_results(scenario, result, extras, files):
                                    f"{_num(scenario.transit_rtol)})"),
              ("grid", f"{g.get('n_times')} times x {g.get('n_wavenumbers')} wavenumbers "
                       f"(k_max xi = {_num(g.get('k_max', math.nan) * result.healing_length, 4)})"
-                      f" x up to {g.get('max_directions')} directions"),
-             ("amplitudes", "FFT over time, frequency-uniform nodes (FFT length "
-                            f"{g.get('fft_length')})" if g.get("method") == "fft" else
-              "direct sums, wavenumber-uniform nodes")]
+                      + (f" x up to {g.get('max_directions')} directions"
+                         if g.get("max_directions") else "")),
+             ("amplitudes", _ROUTES.get(g.get("method"), "").format(**g))]
     for label, name in zip(("spectrum file", "directions file"), files):
         rows.append((label, name))
     return rows
+
+
+_ROUTES = {
+    "phasor": "direct sums, wavenumber-uniform nodes",
+    "fft": "FFT over time, frequency-uniform nodes (FFT length {fft_length})",
+    "lag": "lag sums of the switching's autocorrelation (separations depend on the lag "
+           "alone: angles exact)",
+}
 
 
 def format_transit_table(scenario, result, info, extras, files=()):

@@ -28,7 +28,8 @@ probabilities (:func:`probe.transit.transit_probabilities`).  Keys, all in
 
     [numerics]
     transit_rtol = 1e-4          # transit accuracy (rates keep rtol = 1e-8)
-    transit_method = "auto"      # amplitudes: "auto", "phasor" (direct sums), "fft"
+    transit_method = "auto"      # amplitudes: "auto", "phasor" (direct sums), "fft",
+                                 # "lag" (linear and circular paths, no direction spectrum)
 
 Times are on the path's own clock: the waypoint times, or ``t`` in
 ``x(t) = start + v t`` for a linear path.  Columns are ``t`` and ``x``,
@@ -439,6 +440,9 @@ def _project(trajectory, d):
         def stationary_parameters(self):
             return trajectory.stationary_parameters()
 
+        def separation(self, lag):
+            return trajectory.separation(lag)
+
         def __repr__(self):
             return f"{trajectory!r}[first {d} components]"
 
@@ -578,7 +582,7 @@ def transit_rtol(raw, trajectory=None):
     return rtol
 
 
-TRANSIT_METHODS = ("auto", "phasor", "fft")
+TRANSIT_METHODS = ("auto", "phasor", "fft", "lag")
 
 
 def transit_method(raw):

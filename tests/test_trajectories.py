@@ -597,3 +597,23 @@ def test_max_speed_on_given_grid():
         Linear(1.0).sample_times()
     with raises_key("speed_limit"):
         path.check_speed_limit(0.0)
+
+
+def test_separation_of_stationary_paths_depends_on_the_lag_alone():
+    """Linear: |x(t + s) - x(t)| = v |s|; circular: the chord 2 R |sin(w s/2)|;
+    both checked against positions at several t (the capability the lag
+    route of the transit engine relies on); a spline has none."""
+    from trajectories import Circular, Linear, Spline
+
+    rng = np.random.default_rng(5)
+    s = np.linspace(-3.0, 3.0, 13)
+    paths = [Linear(2.5, (0.6, 0.0, 0.8), start=(1.0, -2.0, 0.5)),
+             Circular(1.7, speed=3.1, centre=(0.3, 0.2, -1.0), normal=(1.0, 1.0, 1.0))]
+    for path in paths:
+        sep = path.separation(s)
+        for t in rng.uniform(-5, 5, 4):
+            d = np.linalg.norm(path.position(t + s) - path.position(np.full(s.shape, t)),
+                               axis=-1)
+            np.testing.assert_allclose(sep, d, rtol=1e-12, atol=1e-12)
+    spline = Spline(np.linspace(0, 1, 6), np.stack([np.linspace(0, 1, 6) ** 2] * 2, axis=1))
+    assert spline.separation(s) is None

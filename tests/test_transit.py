@@ -117,7 +117,7 @@ def gaussian_inertial_probability(cond, gap, width, v, tau, D_sign):
 
 @pytest.mark.parametrize("d", [3, 2, 1])
 @pytest.mark.parametrize("T", [0.0, 0.5])
-@pytest.mark.parametrize("method", ["phasor", "fft"])
+@pytest.mark.parametrize("method", ["phasor", "fft", "lag"])
 def test_gaussian_inertial_closed_form(d, T, method):
     """Engine (both amplitude routes) vs the closed-form angular integral
     (radial by quad) for a sub- and a supersonic speed and several
@@ -195,7 +195,8 @@ def _smoothed_rate(rate_of_gap, gap, tau, h=0.02):
 
 @pytest.mark.parametrize("kind,v,method", [("inertial", 0.5, "auto"), ("inertial", 2.0, "auto"),
                                            ("circular", 0.8, "phasor"),
-                                           ("circular", 0.8, "fft")])
+                                           ("circular", 0.8, "fft"),
+                                           ("circular", 0.8, "lag")])
 def test_long_switching_tends_to_stationary_rate(kind, v, method):
     cond = gas(3)
     w0 = cond.frequency_unit
@@ -325,7 +326,7 @@ def test_planar_path_in_3d_gas_padded_and_too_many_components_rejected():
 # detailed balance (KMS)
 # ---------------------------------------------------------------------------
 @pytest.mark.parametrize("d", [3, 1])
-@pytest.mark.parametrize("method", ["phasor", "fft"])
+@pytest.mark.parametrize("method", ["phasor", "fft", "lag"])
 def test_static_probe_detailed_balance(d, method):
     """A probe at rest in a thermal gas: with long switching
     P_up/P_down -> exp(-hbar Omega/k_B T) (KMS condition of the thermal
@@ -559,8 +560,54 @@ def test_auto_route_follows_the_cost():
     loop = _wobble(cond, 400.0, 2000)
     assert transit_probabilities(cond, probe, loop, PathSpan(loop),
                                  rtol=1e-3).grid["method"] == "fft"
+    # a straight crossing: the lag route (exact angular average); with a
+    # direction spectrum (which needs directions) the direct sums
     line = transit_probabilities(cond, probe, Linear(1.5 * c), Gaussian(10 / w0), rtol=1e-3)
+    assert line.grid["method"] == "lag"
+    line = transit_probabilities(cond, probe, Linear(1.5 * c), Gaussian(10 / w0), rtol=1e-3,
+                                 spectrum=True)
     assert line.grid["method"] == "phasor"
     with pytest.raises(InputError) as e:
         transit_probabilities(cond, probe, Linear(1.5 * c), Gaussian(10 / w0), method="fast")
     assert e.value.key == "method"
+    for kwargs in ({"trajectory": loop, "switching": PathSpan(loop)},
+                   {"trajectory": Linear(1.5 * c), "switching": Gaussian(10 / w0),
+                    "spectrum": True}):
+        with pytest.raises(InputError) as e:
+            transit_probabilities(cond, probe, method="lag", **kwargs)
+        assert e.value.key == "method" and "lag" in e.value.message
+
+
+@pytest.mark.parametrize("kind,d,T,model", [
+    (kind, d, T, model) for kind in ("linear", "circular")
+    for d, T, model in [(3, 0.0, "two_level"), (3, 0.3, "density"), (2, 0.3, "two_level"),
+                        (1, 0.3, "two_level")]
+    if not (kind == "circular" and d == 1)])
+def test_lag_route_agrees_with_both_direction_routes(kind, d, T, model):
+    """For linear and circular paths |x(t + s) - x(t)| depends on s alone, so
+    the angular integral is the isotropic average j_d(q r(s)) of a lag sum
+    over the switching's autocorrelation: the same integral as the direction
+    sums of the phasor and FFT routes (independent evaluations)."""
+    cond = gas(d, T)
+    xi, c, w0 = cond.healing_length, cond.sound_speed, cond.frequency_unit
+    probe = two_level(cond, 0.5, 0.7) if model == "two_level" else \
+        DensityProbe(COUPLING, 0.7 * xi)
+    if kind == "linear":
+        path = Linear(1.4 * c, (0.6, 0.8, 0.0)[:d] if d > 1 else (1.0,))
+    else:
+        path = Circular(2.0 * xi, speed=0.8 * c)
+        if d == 2:
+            from probe.transit_config import _project
+            path = _project(path, 2)
+    sw = Gaussian(8.0 / w0)
+    rtol = 1e-5
+    runs = {m: transit_probabilities(cond, probe, path, sw, rtol=rtol, method=m)
+            for m in ("lag", "phasor", "fft")}
+    assert runs["lag"].grid["method"] == "lag"
+    names = ["up_probability", "down_probability"] if model == "two_level" else \
+        ["emitted_phonons", "absorbed_phonons"]
+    for name in names:
+        ref = getattr(runs["lag"], name)
+        for m in ("phasor", "fft"):
+            assert getattr(runs[m], name) == pytest.approx(ref, rel=3 * rtol), (name, m)
+    assert runs["lag"].achieved_rtol < rtol

@@ -64,6 +64,11 @@ class Linear(Trajectory):
     def _constant_speed(self):
         return self._speed
 
+    def separation(self, lag):
+        """|x(t + s) - x(t)| = v |s|."""
+        self._check_evaluable()
+        return float(self._speed) * np.abs(np.asarray(lag, float))
+
     def stationary_parameters(self) -> dict:
         """``{"speed": v}`` in m/s."""
         return {"speed": _plain(self._speed)}
@@ -212,6 +217,12 @@ class Circular(Trajectory):
 
     def _constant_speed(self):
         return self._speed
+
+    def separation(self, lag):
+        """|x(t + s) - x(t)| = 2 R |sin(w s / 2)| (the chord)."""
+        self._check_evaluable()
+        return 2.0 * float(self._radius) * np.abs(
+            np.sin(0.5 * float(self._omega) * np.asarray(lag, float)))
 
     def stationary_parameters(self) -> dict:
         """``{"speed": v, "radius": R, "angular_frequency": w}`` in SI units."""

@@ -196,6 +196,13 @@ class Trajectory(abc.ABC):
             f"{type(self).__name__} is not a stationary trajectory (the rate along it "
             "depends on time); only Linear and Circular have stationary parameters")
 
+    def separation(self, lag):
+        """Distance |x(t + lag) - x(t)| (m) for an array of lags (s) when it
+        is the same at every time t (a capability of stationary paths, whose
+        two-point functions then depend on the lag alone); ``None`` for a
+        path where it depends on t."""
+        return None
+
     # -- speed scans and limits ---------------------------------------------
 
     def sample_times(self, n: int = DEFAULT_SAMPLES) -> np.ndarray:
