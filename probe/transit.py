@@ -978,7 +978,7 @@ def _lag_integrals(chi, wt, wt2, dt, Ds, sep, qn, omega, d, pool, workers):
     coef = np.stack([mult * c * np.exp(1j * D * lag) for c in cs for D in Ds], axis=1)
     measure = {1: 2.0, 2: 2 * np.pi, 3: 4 * np.pi}[d]
     out = np.empty((qn.size, coef.shape[1]))
-    rows = int(max(1, 2e6 // n))
+    rows = int(max(1, 4e5 // n))          # blocks of ~4e5 (node, lag) pairs
 
     def block(i0):
         i1 = min(qn.size, i0 + rows)
