@@ -30,6 +30,7 @@ _LAZY = {
     "load_config": "config",
     "rates_from_config": "config",
     "override": "config",
+    "unset": "config",
     "Scenario": "config",
     "species_mass": "config",
     "parse_quantity": "units",

@@ -278,17 +278,20 @@ def cli():
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE",
               help="Override a configuration entry, e.g. --set 'trajectory.speed=2 c_s'. "
                    "Repeatable; applied to every CONFIG.")
+@click.option("--unset", "removals", multiple=True, metavar="KEY",
+              help="Remove a configuration entry, e.g. --unset probe.gap (before any "
+                   "--set). Repeatable; applied to every CONFIG.")
 @click.option("-o", "--output", "output", default=None, metavar="FILE",
               help="Write the table (or JSON) to FILE instead of the terminal; "
                    "FILE is written whole or left untouched.")
-def rates(configs, as_json, overrides, output):
+def rates(configs, as_json, overrides, removals, output):
     """Stationary up/down (or emission) rates for each scenario file CONFIG."""
     from .config import load_config
 
     errors = _input_errors()
     done = []
     try:
-        scenarios = [load_config(path, overrides) for path in configs]
+        scenarios = [load_config(path, overrides, removals=removals) for path in configs]
         with warnings.catch_warnings():
             # numpy's overflow/invalid-value warnings are not for the reader:
             # every result passes the engine's guard (no NaN, inf or negative

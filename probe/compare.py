@@ -277,17 +277,20 @@ def _variants(raw, base, varied, wanted, gap, width, temperature):
 
 
 def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=None,
-            temperature=None, workers=1, scheduler=None, tolerance=TOLERANCE):
+            temperature=None, workers=1, scheduler=None, tolerance=TOLERANCE,
+            removals=()):
     """Evaluate the grid for the configured model and its variants.
 
     ``models``: a list from ``COMPARISONS`` (default: all that apply; those
     that cannot apply are listed in ``notes``).  ``gap``, ``width`` and
     ``temperature`` (strings with units) supply the parameter of a variant
-    that the configuration does not have.  Returns a :class:`Comparison`.
+    that the configuration does not have.  ``removals`` ("section.key") and
+    ``overrides`` ("section.key=value") edit the configuration first, as
+    ``--unset`` and ``--set``.  Returns a :class:`Comparison`.
     """
     from .config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides)
+    raw, source = _raw_config(config, overrides, removals=removals)
     plan = plan_sweep(raw, vary, log, source=source)
     base = plan.scenario
     varied = {a.key for a in plan.axes}

@@ -19,9 +19,9 @@ Example::
     speed = "1.5 c_s"
 
 Every physical quantity is a string with units (see ``probe.units``).
-``load_config`` reads a file, applies ``--set`` style overrides, validates
-every key and builds the library objects; ``rates_from_config`` goes on to
-compute the rates.
+``load_config`` reads a file, removes the ``--unset`` keys, applies
+``--set`` style overrides, validates every key and builds the library
+objects; ``rates_from_config`` goes on to compute the rates.
 """
 from __future__ import annotations
 
@@ -185,6 +185,57 @@ def override(config, assignment):
         raise InputError(section, f"must be a table [{section}], got {body!r}")
     body[key] = _toml_value(text)
     return out
+
+
+def unset(config, dotted):
+    """Return a copy of ``config`` without the key ``"section.key"``.
+
+    The key must be a known SECTION.KEY (as for :func:`override`) and be
+    present in ``config``; removing a key that is not there is an error
+    naming it.  A section left empty stays (as an empty table).
+    """
+    if not isinstance(config, dict):
+        raise InputError("config", f"must be a table of sections, got {config!r}")
+    if not isinstance(dotted, str):
+        raise InputError("--unset", f"expected KEY such as 'probe.gap', got {dotted!r}")
+    dotted = dotted.strip()
+    if "=" in dotted:
+        raise InputError("--unset", f"expected KEY such as 'probe.gap' (no '=value'; "
+                                    f"use --set to change a value), got {dotted!r}")
+    parts = dotted.split(".")
+    if len(parts) != 2 or not all(parts):
+        raise InputError("--unset", f"key {dotted!r} must be SECTION.KEY, e.g. "
+                                    "'probe.gap'")
+    section, key = parts
+    _check_key(section, key)
+    body = config.get(section)
+    if body is not None and not isinstance(body, dict):
+        raise InputError(section, f"must be a table [{section}], got {body!r}")
+    if body is None or key not in body:
+        raise InputError(dotted, "not in the scenario, nothing to unset")
+    out = copy.deepcopy(config)
+    del out[section][key]
+    return out
+
+
+def apply_edits(config, overrides=(), removals=()):
+    """``config`` with the ``removals`` ("section.key", as ``--unset``)
+    taken out first, then the ``overrides`` ("section.key=value", as
+    ``--set``) applied; a single string counts as one entry."""
+    if isinstance(removals, str):
+        removals = (removals,)
+    if isinstance(overrides, str):
+        overrides = (overrides,)
+    removed = set()
+    for dotted in removals:
+        name = dotted.strip() if isinstance(dotted, str) else dotted
+        if name in removed:
+            raise InputError(name, "given twice to --unset")
+        config = unset(config, dotted)
+        removed.add(name)
+    for assignment in overrides:
+        config = override(config, assignment)
+    return config
 
 
 # ---------------------------------------------------------------------------
@@ -563,10 +614,10 @@ class Scenario:
         return result
 
 
-def scenario_from_dict(raw, overrides=(), source=None):
-    """Validate a configuration dict (after overrides) and build a Scenario."""
-    for assignment in overrides:
-        raw = override(raw, assignment)
+def scenario_from_dict(raw, overrides=(), source=None, removals=()):
+    """Validate a configuration dict (after removing the ``removals`` keys
+    and applying the ``overrides``) and build a Scenario."""
+    raw = apply_edits(raw, overrides, removals)
     validate_keys(raw)
     raw = copy.deepcopy(raw)
     cond, species = build_condensate(raw["condensate"])
@@ -581,21 +632,22 @@ def scenario_from_dict(raw, overrides=(), source=None):
                     transit_method=_transit.transit_method(raw))
 
 
-def load_config(path, overrides=()):
-    """Read a TOML scenario file, apply ``overrides`` ("section.key=value"
-    strings) and return the validated :class:`Scenario`."""
-    if isinstance(overrides, str):
-        overrides = (overrides,)
+def load_config(path, overrides=(), removals=()):
+    """Read a TOML scenario file, remove the ``removals`` keys
+    ("section.key" strings, as ``--unset``), then apply ``overrides``
+    ("section.key=value" strings, as ``--set``) and return the validated
+    :class:`Scenario`."""
     raw = read_toml(path)
-    return scenario_from_dict(raw, overrides, source=os.fspath(path))
+    return scenario_from_dict(raw, overrides, source=os.fspath(path),
+                              removals=removals)
 
 
-def rates_from_config(path_or_dict, overrides=()):
+def rates_from_config(path_or_dict, overrides=(), removals=()):
     """Rates (:class:`RateResult`) for a scenario file path or dict."""
     if isinstance(path_or_dict, dict):
-        scenario = scenario_from_dict(path_or_dict, overrides)
+        scenario = scenario_from_dict(path_or_dict, overrides, removals=removals)
     else:
-        scenario = load_config(path_or_dict, overrides)
+        scenario = load_config(path_or_dict, overrides, removals=removals)
     return scenario.rates()
 
 

@@ -114,13 +114,14 @@ def _speed_display(values):
     return display_unit("speed", "m/s", values)
 
 
-def threshold_table(config, vary=(), log=(), overrides=()):
+def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
     """The threshold table for the gaps of ``vary`` (a ``probe.gap`` entry
     as for :func:`probe.sweep.sweep`), by default a decade either side of
-    the configured gap (41 points, logarithmic)."""
+    the configured gap (41 points, logarithmic).  ``removals`` and
+    ``overrides`` edit the configuration first (as ``--unset``, ``--set``)."""
     from .config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides)
+    raw, source = _raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)
     if not base.probe.has_gap:
         raise InputError("probe.model", "the density probe has no gap and no "
@@ -280,19 +281,21 @@ def _configured_value(raw, key, scenario):
         return None
 
 
-def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINTS):
+def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINTS,
+          removals=()):
     """The value of ``key`` (within ``bounds`` ``"LO:HI"`` with units) at
     which ``target`` (``"up_rate=50"``, ``"up_rate=50 1/s"``) is reached.
 
     The range is scanned on a grid (vectorised where the engine allows);
     the first sign change of ``result - target`` is refined with
     :func:`scipy.optimize.brentq`.  Raises InputError when no value in the
-    range reaches the target."""
+    range reaches the target.  ``removals`` and ``overrides`` edit the
+    configuration first (as ``--unset`` and ``--set``)."""
     from scipy.optimize import brentq
 
     from .config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides)
+    raw, source = _raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)
     key = check_numeric_key(key, "--for")
     if bounds is not None:

@@ -19,6 +19,8 @@ _VARY_HELP = ("Grid over a numeric key, START and STOP with units, e.g. "
               "(the first key varies slowest).")
 _SET_HELP = ("Override a configuration entry, e.g. --set 'trajectory.speed=2 c_s'. "
              "Repeatable.")
+_UNSET_HELP = ("Remove a configuration entry, e.g. --unset probe.gap (before any --set). "
+               "Repeatable.")
 
 
 def _command_line():
@@ -73,6 +75,7 @@ def _interrupted(out):
 @click.option("--out", "out", required=True, metavar="FILE.csv",
               help="CSV to write; a JSON sidecar FILE.json records config and versions.")
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
+@click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)
 @click.option("--resume", is_flag=True,
               help="Continue an interrupted sweep from FILE.csv.partial.")
 @click.option("--workers", type=int, default=1, show_default=True, metavar="N",
@@ -84,7 +87,8 @@ def _interrupted(out):
 @click.option("--quantity", metavar="NAME", default=None,
               help="Column to plot (default: up/down rates or probabilities, or "
                    "the emission rate).")
-def sweep(config, vary, log, out, overrides, resume, workers, scheduler, plot, quantity):
+def sweep(config, vary, log, out, overrides, removals, resume, workers, scheduler, plot,
+          quantity):
     """Rates (probabilities for a switched transit) on a 1D or 2D grid over
     numeric configuration keys, written to a CSV whose header names every
     column with its unit."""
@@ -93,7 +97,7 @@ def sweep(config, vary, log, out, overrides, resume, workers, scheduler, plot, q
     errors = _errors()
     try:
         _check_plot(plot)
-        plan = plan_sweep(config, vary, log, overrides)
+        plan = plan_sweep(config, vary, log, overrides, removals=removals)
         if plot is not None and quantity is not None:
             from .plots import check_quantity
             check_quantity(plan.columns, quantity)
@@ -101,7 +105,7 @@ def sweep(config, vary, log, out, overrides, resume, workers, scheduler, plot, q
         try:
             result = run(plan, vary, log, overrides, out=out, resume=resume,
                          workers=workers, scheduler=scheduler, progress=bar,
-                         command=_command_line())
+                         command=_command_line(), removals=removals)
         except KeyboardInterrupt:
             bar.close()
             _interrupted(out)
@@ -151,12 +155,13 @@ def sweep(config, vary, log, out, overrides, resume, workers, scheduler, plot, q
 @click.option("--plot", "plot", default=None, metavar="FILE",
               help="Overlaid plot of the models (PNG, PDF or SVG).")
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
+@click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)
 @click.option("--workers", type=int, default=1, show_default=True, metavar="N",
               help="Local processes to split each grid over.")
 @click.option("--scheduler", metavar="ADDRESS", default=None,
               help="Run on a Dask distributed scheduler.")
 def compare(config, vary, log, models, gap, width, temperature, out, plot,
-            overrides, workers, scheduler):
+            overrides, removals, workers, scheduler):
     """Evaluate the same grid for several detector-response models and state
     where they differ."""
     from .compare import compare as run
@@ -166,7 +171,7 @@ def compare(config, vary, log, models, gap, width, temperature, out, plot,
         _check_plot(plot)
         names = None if models is None else [m.strip() for m in models.split(",") if m.strip()]
         result = run(config, vary, log=log, models=names, overrides=overrides,
-                     gap=gap, width=width, temperature=temperature,
+                     removals=removals, gap=gap, width=width, temperature=temperature,
                      workers=workers, scheduler=scheduler)
         if out is not None:
             result.to_csv(out)
@@ -200,7 +205,8 @@ def _report_written(*paths):
 @click.option("--plot", "plot", default=None, metavar="FILE",
               help="Plot threshold speed and sound speed versus gap.")
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
-def threshold(config, vary, log, out, plot, overrides):
+@click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)
+def threshold(config, vary, log, out, plot, overrides, removals):
     """Up-transition threshold speed of straight motion versus the gap, with
     the sound speed."""
     from .design import threshold_table
@@ -208,7 +214,8 @@ def threshold(config, vary, log, out, plot, overrides):
     errors = _errors()
     try:
         _check_plot(plot)
-        table = threshold_table(config, vary=vary, log=log, overrides=overrides)
+        table = threshold_table(config, vary=vary, log=log, overrides=overrides,
+                                removals=removals)
         if out is not None:
             table.to_csv(out)
         if plot is not None:
@@ -232,14 +239,16 @@ def threshold(config, vary, log, out, plot, overrides):
 @click.option("--range", "bounds", default=None, metavar="LO:HI",
               help="Allowed values of KEY with units, e.g. 0.5c_s:3c_s.")
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
-def solve(config, key, target, bounds, overrides):
+@click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)
+def solve(config, key, target, bounds, overrides, removals):
     """Find the value of KEY at which a result reaches a target (scan for a
     bracket, then Brent's method)."""
     from .design import solve as run
 
     errors = _errors()
     try:
-        sol = run(config, key, target, bounds=bounds, overrides=overrides)
+        sol = run(config, key, target, bounds=bounds, overrides=overrides,
+                  removals=removals)
     except errors as exc:
         _fail(exc)
     click.echo(sol.summary())

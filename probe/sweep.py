@@ -323,18 +323,18 @@ def _vary_entries(vary):
 # ---------------------------------------------------------------------------
 # Planning
 # ---------------------------------------------------------------------------
-def _raw_config(config, overrides=(), source=None):
-    """(raw dict after overrides, source) for a path or a dict (whose
-    ``source``, the file it came from, locates relative paths in it)."""
-    from .config import override, read_toml
+def _raw_config(config, overrides=(), source=None, removals=()):
+    """(raw dict after removals and overrides, source) for a path or a dict
+    (whose ``source``, the file it came from, locates relative paths in
+    it).  ``removals`` ("section.key", as ``--unset``) are taken out before
+    the ``overrides`` ("section.key=value", as ``--set``) are applied."""
+    from .config import apply_edits, read_toml
 
     if isinstance(config, dict):
         raw = copy.deepcopy(config)
     else:
         raw, source = read_toml(config), os.fspath(config)
-    for assignment in overrides:
-        raw = override(raw, assignment)
-    return raw, source
+    return apply_edits(raw, overrides, removals), source
 
 
 @dataclass
@@ -382,13 +382,14 @@ def _vector_keys(raw, scenario):
     return {k: VECTOR_KEYS[k] for k in keys}
 
 
-def plan_sweep(config, vary, log=(), overrides=(), source=None):
+def plan_sweep(config, vary, log=(), overrides=(), source=None, removals=()):
     """Check a sweep request and return its :class:`Plan` (nothing is
     computed).  Raises InputError for any bad key, value or combination.
-    ``source`` names the file a dict ``config`` came from."""
+    ``source`` names the file a dict ``config`` came from; ``removals`` and
+    ``overrides`` edit it first (as ``--unset`` and ``--set``)."""
     from .config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides, source)
+    raw, source = _raw_config(config, overrides, source, removals)
     base = scenario_from_dict(raw, source=source)
     entries = _vary_entries(vary)
     if not entries:
@@ -1066,18 +1067,20 @@ class _Partial:
 # ---------------------------------------------------------------------------
 def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
           workers=1, scheduler=None, progress=None, chunk_size=None,
-          command=None, source=None):
+          command=None, source=None, removals=()):
     """Evaluate the rates on a grid.
 
     Parameters
     ----------
     config : path of a scenario file, or its dict (or a :class:`Plan` from
-        :func:`plan_sweep`, in which case ``vary``, ``log`` and ``overrides``
-        are taken from it)
+        :func:`plan_sweep`, in which case ``vary``, ``log``, ``overrides``
+        and ``removals`` are taken from it)
     vary : list of ``(KEY, START, STOP, NUM)`` or ``"KEY=START:STOP:NUM"``
         (one or two entries); START/STOP strings with units
     log : keys spaced geometrically
     overrides : ``"section.key=value"`` strings applied first (as ``--set``)
+    removals : ``"section.key"`` strings removed before the overrides are
+        applied (as ``--unset``)
     out : CSV path; rows are kept in ``out + ".partial"`` until the end
     resume : continue the partial file of an interrupted run of the same sweep
     workers : local processes (1: in this process); a script that uses
@@ -1092,7 +1095,8 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
     Returns a :class:`SweepResult` (SI units).
     """
     plan = config if isinstance(config, Plan) else plan_sweep(config, vary, log, overrides,
-                                                              source=source)
+                                                              source=source,
+                                                              removals=removals)
     workers = 1 if workers is None else int(workers)
     if workers < 1:
         raise InputError("--workers", f"must be at least 1, got {workers}")
@@ -1229,13 +1233,14 @@ def read_sweep(path):
 # ---------------------------------------------------------------------------
 # Single evaluations (used by solve)
 # ---------------------------------------------------------------------------
-def evaluate_point(config, values, overrides=(), source=None):
+def evaluate_point(config, values, overrides=(), source=None, removals=()):
     """Rates for one point: ``values`` maps numeric keys to configuration
-    values (strings with units or SI floats).  Returns ``(columns, units,
-    row, warnings)`` like one row of a sweep."""
+    values (strings with units or SI floats), after ``removals`` and
+    ``overrides`` (as ``--unset`` and ``--set``).  Returns ``(columns,
+    units, row, warnings)`` like one row of a sweep."""
     from .config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides, source)
+    raw, source = _raw_config(config, overrides, source, removals)
     for key in values:
         check_numeric_key(key)
     sc_ = scenario_from_dict(assign(raw, values), source=source)

@@ -46,6 +46,8 @@ from .transit_config import _fmt_time, check_transit, describe
 
 _SET_HELP = ("Override a configuration entry, e.g. --set 'trajectory.switching_width=3 ms'. "
              "Repeatable; applied to every CONFIG.")
+_UNSET_HELP = ("Remove a configuration entry, e.g. --unset trajectory.switching_centre "
+               "(before any --set). Repeatable; applied to every CONFIG.")
 
 
 # ---------------------------------------------------------------------------
@@ -325,7 +327,8 @@ def write_spectrum(path, scenario, result):
               help="Write the emitted-phonon distribution over k to FILE.csv and over "
                    "directions to FILE.directions.csv (one CONFIG only).")
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
-def transit(configs, as_json, spectrum, overrides):
+@click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)
+def transit(configs, as_json, spectrum, overrides, removals):
     """First-order transition probabilities of finite transits: a spline path
     through waypoints, or a linear or circular path with a switching function."""
     from .config import load_config
@@ -338,7 +341,7 @@ def transit(configs, as_json, spectrum, overrides):
                 raise InputError("--spectrum", f"writes the files of one scenario; give "
                                                f"one CONFIG (got {len(configs)})")
             _check_writable(spectrum)
-        scenarios = [load_config(path, overrides) for path in configs]
+        scenarios = [load_config(path, overrides, removals=removals) for path in configs]
         for scenario in scenarios:
             check_transit(scenario)
         for scenario in scenarios:

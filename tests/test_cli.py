@@ -225,3 +225,170 @@ def test_installed_console_script(files):
     for key in CONTRACT_KEYS:
         assert key in data
     assert isinstance(data["up_rate"], float)
+
+
+# --- --unset -------------------------------------------------------------------------------
+EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
+BOX = str(EXAMPLES / "box3d_supersonic.toml")
+
+
+def _without_gap_as_density(tmp_path):
+    """The box example written as a density-probe file (no gap)."""
+    text = Path(BOX).read_text()
+    assert 'model = "two-level"' in text and 'gap = "150 Hz"' in text
+    text = text.replace('model = "two-level"', 'model = "density"')
+    text = "\n".join(ln for ln in text.splitlines() if not ln.startswith("gap ="))
+    path = tmp_path / "box_density.toml"
+    path.write_text(text + "\n")
+    return str(path)
+
+
+def test_unset_switches_a_two_level_file_to_the_density_model(tmp_path):
+    # --set alone cannot: the file's gap is not allowed for the density model
+    r = run("rates", BOX, "--set", "probe.model=density")
+    assert r.exit_code == 2 and r.stderr.startswith("error: probe.gap: not used")
+    r = run("rates", "--json", BOX, "--unset", "probe.gap", "--set", "probe.model=density")
+    assert r.exit_code == 0, r.output
+    got = json.loads(r.stdout)
+    assert got["model"] == "density" and got["inputs"]["probe"]["gap"] is None
+    assert got["up_rate"] is None and got["emission_rate"] > 0 and got["drag_force"] > 0
+    # the same numbers as a file written for the density probe
+    want = json.loads(run("rates", "--json", _without_gap_as_density(tmp_path)).stdout)
+    for key in ("emission_rate", "absorption_rate", "drag_force", "power"):
+        assert got[key] == pytest.approx(want[key], rel=1e-12), key
+    table = run("rates", BOX, "--unset", "probe.gap", "--set", "probe.model=density")
+    assert table.exit_code == 0 and "emission rate" in table.stdout
+    assert "gap Omega/(2 pi)" not in table.stdout
+
+
+def test_unset_comes_before_set_whatever_the_order(files):
+    r = run("rates", "--json", files["two_level"], "--set", "probe.gap=300 Hz",
+            "--unset", "probe.gap")
+    assert r.exit_code == 0, r.output
+    gap = json.loads(r.stdout)["inputs"]["probe"]["gap"]
+    assert gap == pytest.approx(2 * math.pi * 300, rel=1e-12)
+
+
+def test_unset_of_an_optional_key_restores_its_default(files):
+    r = run("rates", "--json", BOX, "--unset", "probe.width")
+    assert r.exit_code == 0, r.output
+    got = json.loads(r.stdout)
+    want = json.loads(run("rates", "--json", BOX, "--set", "probe.width=0 um").stdout)
+    assert got["inputs"]["probe"]["width"] == 0
+    assert got["up_rate"] == pytest.approx(want["up_rate"], rel=1e-12)
+
+
+@pytest.mark.parametrize("args, expected", [
+    (("--unset", "condensate.temperature"),
+     "error: condensate.temperature: not in the scenario, nothing to unset"),
+    (("--unset", "numerics.rtol"), "error: numerics.rtol: not in the scenario, nothing to unset"),
+    (("--unset", "numeric.rtol"), "error: numeric: unknown section; did you mean 'numerics'?"),
+    (("--unset", "probe.gpa"), "error: probe.gpa: unknown key; did you mean 'gap'?"),
+    (("--unset", "gap"), "error: --unset: key 'gap' must be SECTION.KEY"),
+    (("--unset", "probe."), "error: --unset: key 'probe.' must be SECTION.KEY"),
+    (("--unset", "probe.gap=1 Hz"), "error: --unset: expected KEY such as 'probe.gap'"),
+    (("--unset", "probe.gap", "--unset", "probe.gap"),
+     "error: probe.gap: given twice to --unset"),
+    # a required key: the normal message for a missing key
+    (("--unset", "condensate.density"),
+     'error: condensate.density: missing; add e.g. density = "1.2e20 m^-3"'),
+    (("--unset", "probe.gap"), 'error: probe.gap: missing; add e.g. gap = "200 Hz"'),
+])
+def test_bad_unset_exits_2_with_one_error_line(files, args, expected):
+    r = run("rates", files["two_level"], *args)
+    assert r.exit_code == 2, r.output
+    assert r.stdout == ""
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith(expected), lines
+    assert "Traceback" not in r.output
+
+
+def test_unset_reaches_every_config_and_fails_before_any_output(files, tmp_path):
+    out = tmp_path / "out.json"
+    r = run("rates", "--json", files["two_level"], files["circular"],
+            "--unset", "probe.gap", "--set", "probe.model=density")
+    assert r.exit_code == 0, r.output
+    assert [o["model"] for o in json.loads(r.stdout)] == ["density", "density"]
+    # the 1D file has no gap: nothing is written, and the key is named
+    r = run("rates", "--json", files["two_level"], files["density"],
+            "--unset", "probe.gap", "--set", "probe.model=density", "-o", str(out))
+    assert r.exit_code == 2 and not out.exists()
+    assert r.stderr.strip() == "error: probe.gap: not in the scenario, nothing to unset"
+
+
+def test_every_command_with_set_has_unset():
+    for name in ("rates", "transit", "sweep", "compare", "threshold", "solve"):
+        r = run(name, "--help")
+        assert r.exit_code == 0, name
+        text = " ".join(r.stdout.split())
+        assert "--set KEY=VALUE" in text and "--unset KEY" in text, name
+        assert "Remove a configuration entry, e.g. --unset" in text, name
+        assert "(before any --set). Repeatable" in text, name
+
+
+def test_sweep_with_unset_matches_rates(tmp_path):
+    out = tmp_path / "s.csv"
+    r = run("sweep", BOX, "--vary", "trajectory.speed=0.5c_s:3c_s:4", "--out", str(out),
+            "--unset", "probe.gap", "--set", "probe.model=density")
+    assert r.exit_code == 0, r.output
+    from probe.sweep import read_sweep
+    res = read_sweep(out)
+    assert "emission_rate" in res.columns and "up_rate" not in res.columns
+    assert "gap" not in res.meta["config"]["probe"]
+    assert res.meta["config"]["probe"]["model"] == "density"
+    last = json.loads(run("rates", "--json", BOX, "--unset", "probe.gap", "--set",
+                          "probe.model=density", "--set", "trajectory.speed=3 c_s").stdout)
+    assert res.column("emission_rate")[-1] == pytest.approx(last["emission_rate"], rel=1e-9)
+    # a key not in the file: exit 2, no CSV, no sidecar, no partial file
+    bad = tmp_path / "bad.csv"
+    r = run("sweep", BOX, "--vary", "trajectory.speed=0.5c_s:3c_s:4", "--out", str(bad),
+            "--unset", "condensate.size")
+    assert r.exit_code == 2
+    assert r.stderr.strip() == "error: condensate.size: not in the scenario, nothing to unset"
+    assert list(tmp_path.glob("bad*")) == []
+
+
+def test_compare_threshold_and_solve_take_unset(tmp_path):
+    r = run("compare", BOX, "--vary", "trajectory.speed=0.5c_s:3c_s:4", "--models", "width",
+            "--width", "0.3 um", "--unset", "probe.width")
+    assert r.exit_code == 0, r.output
+    assert "point probe" in r.stdout          # the configured variant lost its width
+    r = run("compare", BOX, "--vary", "trajectory.speed=0.5c_s:3c_s:4",
+            "--unset", "probe.nope")
+    assert r.exit_code == 2 and r.stderr.startswith("error: probe.nope: unknown key")
+    r = run("threshold", BOX, "--unset", "probe.gap", "--set", "probe.model=density")
+    assert r.exit_code == 2 and r.stderr.startswith("error: probe.model: the density probe")
+    r = run("solve", BOX, "--for", "trajectory.speed", "--target", "up_rate=10 1/s",
+            "--unset", "probe.width")
+    assert r.exit_code == 0, r.output
+    ref = run("solve", BOX, "--for", "trajectory.speed", "--target", "up_rate=10 1/s",
+              "--set", "probe.width=0 um")
+    assert r.stdout == ref.stdout
+    r = run("solve", BOX, "--for", "trajectory.speed", "--target", "up_rate=10 1/s",
+            "--unset", "trajectory.start")
+    assert r.exit_code == 2
+    assert r.stderr.strip() == "error: trajectory.start: not in the scenario, nothing to unset"
+
+
+def test_python_api_takes_removals(tmp_path):
+    from probe.compare import compare
+    from probe.config import load_config
+    from probe.sweep import sweep
+
+    sc_ = load_config(BOX, ["probe.model=density"], removals=["probe.gap"])
+    assert sc_.probe.name == "density"
+    assert load_config(BOX, "probe.model=density", removals="probe.gap").probe.name == "density"
+    # the existing signatures are unchanged
+    assert load_config(BOX, ["trajectory.speed=2 c_s"]).raw["trajectory"]["speed"] == "2 c_s"
+    res = probe.rates_from_config(BOX, removals=["probe.width"])
+    assert res.up_rate == pytest.approx(
+        probe.rates_from_config(BOX, ["probe.width=0 um"]).up_rate, rel=1e-12)
+    grid = [("trajectory.speed", "1 c_s", "2 c_s", 3)]
+    s = sweep(BOX, grid, overrides=["probe.model=density"], removals=["probe.gap"])
+    assert "emission_rate" in s.columns
+    cmp = compare(BOX, grid, models=["width"], width="0.3 um", removals=["probe.width"])
+    assert cmp.variants[0].name == "configured"
+    assert "width" not in cmp.variants[0].raw["probe"]
+    with pytest.raises(probe.InputError) as exc:
+        load_config(BOX, removals=["condensate.size"])
+    assert exc.value.key == "condensate.size"

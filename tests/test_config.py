@@ -303,6 +303,45 @@ def test_override_suggestion():
         override(BASE, "trajectory.sped=2 c_s")
 
 
+def test_unset_removes_a_copy_of_the_key():
+    from probe.config import unset
+    raw = copy.deepcopy(BASE)
+    new = unset(raw, "probe.gap")
+    assert "gap" not in new["probe"] and raw["probe"]["gap"] == BASE["probe"]["gap"]
+    assert unset(raw, " probe.gap ")["probe"] == new["probe"]
+
+
+@pytest.mark.parametrize("dotted, key, words", [
+    ("condensate.temperature", "condensate.temperature", "not in the scenario"),
+    ("numerics.rtol", "numerics.rtol", "not in the scenario"),
+    ("probe.gpa", "probe.gpa", "did you mean 'gap'"),
+    ("numeric.rtol", "numeric", "unknown section"),
+    ("gap", "--unset", "SECTION.KEY"),
+    ("a.b.c", "--unset", "SECTION.KEY"),
+    ("probe.gap=1 Hz", "--unset", "use --set"),
+    (3, "--unset", "expected KEY"),
+])
+def test_unset_rejects_missing_and_bad_keys(dotted, key, words):
+    from probe.config import unset
+    with pytest.raises(InputError) as err:
+        unset(BASE, dotted)
+    assert err.value.key == key and words in err.value.message
+
+
+def test_removals_come_before_overrides():
+    from probe.config import apply_edits
+    out = apply_edits(BASE, ["probe.gap=300 Hz"], ["probe.gap"])
+    assert out["probe"]["gap"] == "300 Hz"
+    s = scenario_from_dict(BASE, ["probe.model=density"], removals=["probe.gap"])
+    assert isinstance(s.probe, DensityProbe)
+    with pytest.raises(InputError) as err:
+        scenario_from_dict(BASE, removals=["probe.gap"])
+    assert err.value.key == "probe.gap" and "missing" in err.value.message
+    with pytest.raises(InputError) as err:
+        apply_edits(BASE, (), ["probe.gap", "probe.gap"])
+    assert err.value.key == "probe.gap" and "twice" in err.value.message
+
+
 # --- files --------------------------------------------------------------------------
 def test_load_config_file(tmp_path):
     path = tmp_path / "s.toml"

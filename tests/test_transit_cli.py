@@ -504,3 +504,41 @@ def test_transit_method_key_selects_the_route_and_is_checked(tmp_path):
     assert bad.exit_code == 2
     assert bad.stderr.strip().startswith("error: numerics.transit_method:")
     assert "'auto', 'phasor', 'fft'" in bad.stderr
+
+
+# ---------------------------------------------------------------------------
+# --unset
+# ---------------------------------------------------------------------------
+def test_transit_unset_switches_model_and_restores_defaults(tmp_path):
+    cross = EXAMPLES / "cross3d_gaussian.toml"
+    base = json.loads(run("transit", cross, "--json").stdout)
+    # switching_centre = "0 ms" is the default of a linear path: same result
+    r = run("transit", cross, "--json", "--unset", "trajectory.switching_centre")
+    assert r.exit_code == 0, r.output
+    assert json.loads(r.stdout)["down_probability"] == base["down_probability"]
+    # a two-level transit turned into the density probe's
+    r = run("transit", cross, "--json", "--unset", "probe.gap", "--set", "probe.model=density")
+    assert r.exit_code == 0, r.output
+    dens = json.loads(r.stdout)
+    assert dens["model"] == "density" and dens["up_probability"] is None
+    text = cross.read_text().replace('model = "two-level"', 'model = "density"')
+    text = text.replace('gap = "150 Hz"\n', "")
+    want = json.loads(run("transit", write(tmp_path, "d.toml", text), "--json").stdout)
+    assert dens["emitted_phonons"] == pytest.approx(want["emitted_phonons"], rel=1e-12)
+    assert dens["emitted_phonons"] > 0
+
+
+@pytest.mark.parametrize("args, expected", [
+    (("--unset", "trajectory.ramp"), "error: trajectory.ramp: not in the scenario, nothing to unset"),
+    (("--unset", "switching_width"), "error: --unset: key 'switching_width' must be SECTION.KEY"),
+    (("--unset", "trajectory.switching_width"),
+     "error: trajectory.switching_width: missing; add e.g. switching_width"),
+])
+def test_transit_bad_unset_exits_2(tmp_path, args, expected):
+    spec = tmp_path / "spec.csv"
+    r = run("transit", EXAMPLES / "cross3d_gaussian.toml", "--spectrum", spec, *args)
+    assert r.exit_code == 2, r.output
+    assert r.stdout == ""
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith(expected), lines
+    assert list(tmp_path.iterdir()) == []

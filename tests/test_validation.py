@@ -76,7 +76,8 @@ speed = "1.5 c_s"
 
 BASES = {"3D": GAS3, "2D": GAS2, "1D": GAS1}
 
-# (what is wrong, base, file text change or None, --set arguments, extra CLI args)
+# (what is wrong, base, file text change or None, --set arguments, extra CLI args
+#  such as --unset)
 CASES = [
     # --- files ---------------------------------------------------------------------------
     ("file does not exist", "3D", "MISSING", [], []),
@@ -89,6 +90,8 @@ CASES = [
     ("--set without '='", "3D", None, ["trajectory.speed"], []),
     ("--set key without section", "3D", None, ["speed=2 c_s"], []),
     ("--set with an empty value", "3D", None, ["probe.gap="], []),
+    ("--unset of a key not in the file", "3D", None, [], ["--unset", "condensate.temperature"]),
+    ("--unset key without section", "3D", None, [], ["--unset", "gap"]),
     # --- missing keys ---------------------------------------------------------------------
     ("missing key", "3D", ('density = "1.2e20 m^-3"\n', ""), [], []),
     ("neither species nor mass", "3D", ('species = "87Rb"\n', ""), [], []),
