@@ -141,7 +141,7 @@ class _ChebyshevSignals:
 
 
 def fft_amplitude_work(dirs, red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub,
-                       shifts=None, block_bytes=2e6):
+                       shifts=None, block_bytes=8e6):
     """Reductions R[j, r, c] = sum_n red[n, r] |a_c(q_j, n)|^2.
 
     dirs (N, d) unit directions; red (N, r) their reduction weights; X
