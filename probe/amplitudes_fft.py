@@ -8,30 +8,33 @@ with b_m = chi(t_m) w_m e^{i D t_m} (trapezoid weights w_m on the uniform
 time grid t_m = t_0 + m dt).  When the nodes are uniform in frequency,
 w_j = j dw with dw = 2 pi/(M dt), the sum over m is a length-M discrete
 Fourier transform -- except for the factor e^{-i q_j u_m}, which couples
-the node to the time.  That factor has low rank on the path: with
-q = q_c + q_h tau (tau in [-1, 1]) and the Jacobi-Anger expansion
+the node to the time.  That factor has low rank on the path: with u
+centred on the path's extent along n (a phase per direction, which leaves
+|a| unchanged), |u| <= U, q = q_c + (q - q_c) and the Jacobi-Anger
+expansion in the path coordinate
 
-    e^{-i q_h tau u} = sum_k eps_k (-i)^k J_k(q_h u) T_k(tau),
-    eps_0 = 1, eps_k = 2,
+    e^{-i (q - q_c) u} = sum_k eps_k (-i)^k J_k((q - q_c) U) T_k(u/U),
+    eps_0 = 1, eps_k = 2
 
-(Abramowitz and Stegun 9.1.44-45, Chebyshev polynomials T_k), so
+(Abramowitz and Stegun 9.1.44-45, Chebyshev polynomials T_k),
 
-    a(q_j) = sum_k eps_k (-i)^k T_k(tau_j) FFT_m[b_m e^{-i q_c u_m} J_k(q_h u_m)](j).
+    a(q_j) = sum_k eps_k (-i)^k J_k((q_j - q_c) U) FFT_m[b_m e^{-i q_c u_m} T_k(u_m/U)](j).
 
-The expansion is cut where the Bessel tail (q_h |u|/2)^k/k! falls below the
-requested level; K is about q_h |u|_max + a few, so for a path of bounded
-size (a loop, a stirring motion) the cost per direction is K FFTs of length
-M instead of one multiply-add per (time, node): the gain grows with the
-transit's duration.  J_k(x) for k < K comes from the ratios
-r_k = J_k/J_{k-1} = x/(2k - x r_{k+1}), run downward from r_N = 0 (the
-continued fraction for the minimal solution, stable and free of overflow),
-times J_0 (scipy's j0).
+The Bessel functions are needed on the nodes only (a downward ratio
+recurrence r_k = J_k/J_{k-1} = x/(2k - x r_{k+1}) from r_N = 0, the
+continued fraction for the minimal solution, stable and free of overflow,
+times scipy's j0); the time signals follow from T_{k+1} = 2u T_k - T_{k-1}.
+The series is cut where its tail, bounded by 2 (x/2)^k/k!, falls below the
+requested level: K is about q_h U + a few (q_h the half-width of the node
+range), so for a path of bounded size (a loop, a stirring motion) the cost
+per direction is K FFTs of length M instead of one multiply-add per (time,
+node): the gain grows with the transit's duration.
 
 The even and odd time samples are transformed separately (length M/2 each):
 their sum is the full trapezoid sum and twice the even part is the
 every-other-point sub-rule (step 2 dt) that estimates the time-step error,
-so the check costs nothing extra.  A time series longer than M (or M/2) is
-folded, which leaves the sums at the grid frequencies exact.
+so the check costs nothing extra.  A time series longer than the transform
+is folded, which leaves the sums at the grid frequencies exact.
 """
 from __future__ import annotations
 
@@ -106,7 +109,7 @@ class _ChebyshevSignals:
             b = np.concatenate([b, np.zeros(b.shape[:-1] + (pad,), complex)], axis=-1)
             w2 = np.concatenate([w2, np.zeros(w2.shape[:-1] + (2 * pad,))], axis=-1)
         self.w2, self.b, self.half = w2, b, half
-        self.prev = self.cur = None
+        self.prev = self.prev2 = None
         self.k = 0
 
     def fill(self, buf):

@@ -950,7 +950,7 @@ def _cheb_eps(rtol):
     return max(1e-14, 1e-4 * rtol)
 
 
-def _lag_integrals(chi, wt, wt2, dt, Ds, sep, qn, omega, d, pool, workers):
+def _lag_integrals(chi, wt, wt2, dt, Ds, sep, qn, omega, d, pool):
     """Angular integrals of |a|^2 on the nodes for a path whose separations
     depend on the lag alone, r(s) = |x(t + s) - x(t)|:
 
@@ -1234,7 +1234,7 @@ def _evaluate(condensate, probe, trajectory, switching, d, disp, xi, c, tu, s, T
         # angular integral exact: int dOmega |a|^2 = measure x sum over lags
         # of the switching's autocorrelation times j_d(q r(s)) e^{i(D+w)s}
         sep = np.asarray(sep_fn(dt * np.arange(t.size) * tu), float) / xi
-        Ebar[:] = _lag_integrals(chi, wt, wt2, dt, Ds, sep, qn, omega, d, pool, workers)
+        Ebar[:] = _lag_integrals(chi, wt, wt2, dt, Ds, sep, qn, omega, d, pool)
         nb_bands = 0
         max_dirs = 0
     else:
