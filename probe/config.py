@@ -171,12 +171,7 @@ def override(config, assignment):
                                   f"'trajectory.speed=2 c_s', got {assignment!r}")
     dotted, text = assignment.split("=", 1)
     dotted = dotted.strip()
-    parts = dotted.split(".")
-    if len(parts) != 2 or not all(parts):
-        raise InputError("--set", f"key {dotted!r} must be SECTION.KEY, e.g. "
-                                  "'trajectory.speed'")
-    section, key = parts
-    _check_key(section, key)
+    section, key = _section_key(dotted, "--set", "trajectory.speed")
     if not text.strip():
         raise InputError(dotted, "--set needs a value after '='")
     out = copy.deepcopy(config)
@@ -185,6 +180,16 @@ def override(config, assignment):
         raise InputError(section, f"must be a table [{section}], got {body!r}")
     body[key] = _toml_value(text)
     return out
+
+
+def _section_key(dotted, option, example):
+    """(section, key) of a known ``"section.key"`` named on ``option``."""
+    parts = dotted.split(".")
+    if len(parts) != 2 or not all(parts):
+        raise InputError(option, f"key {dotted!r} must be SECTION.KEY, e.g. '{example}'")
+    section, key = parts
+    _check_key(section, key)
+    return section, key
 
 
 def unset(config, dotted):
@@ -202,12 +207,7 @@ def unset(config, dotted):
     if "=" in dotted:
         raise InputError("--unset", f"expected KEY such as 'probe.gap' (no '=value'; "
                                     f"use --set to change a value), got {dotted!r}")
-    parts = dotted.split(".")
-    if len(parts) != 2 or not all(parts):
-        raise InputError("--unset", f"key {dotted!r} must be SECTION.KEY, e.g. "
-                                    "'probe.gap'")
-    section, key = parts
-    _check_key(section, key)
+    section, key = _section_key(dotted, "--unset", "probe.gap")
     body = config.get(section)
     if body is not None and not isinstance(body, dict):
         raise InputError(section, f"must be a table [{section}], got {body!r}")

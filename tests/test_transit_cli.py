@@ -188,6 +188,24 @@ _UNITS = 'units = { t = "ms", x = "um" }, '
 _PLAIN = f'waypoints = {{ {_UNITS}t = [0, 1, 2, 3], x = [0, 1, 2, 3] }}\n'
 
 
+def _one_clean_error(folder, cfg, key, words):
+    """`probe transit --spectrum` with warnings as errors: exit 2, nothing on
+    stdout, exactly one stderr line naming the key, no spectrum file."""
+    import warnings
+
+    spec = folder / "spec.csv"
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        r = run("transit", cfg, "--spectrum", spec)
+    assert r.exit_code == 2, (r.exit_code, r.output, r.exception)
+    assert r.stdout == ""
+    lines = r.stderr.splitlines()
+    assert len(lines) == 1, r.stderr
+    assert lines[0].startswith(f"error: {key}: "), lines[0]
+    assert words in lines[0], lines[0]
+    assert not list(folder.glob("spec*"))
+
+
 @pytest.mark.parametrize("body,key,words", [
     # huge but finite waypoint coordinates and times: the spline's derivative
     # coefficients (differences over time steps) overflowed in scipy, and
@@ -222,23 +240,11 @@ def test_huge_transit_values_give_one_clean_line(tmp_path, body, key, words):
     """Bad values beyond the range handled end with exactly one line on
     stderr naming the key and the range, exit status 2, no floating-point
     warning (warnings are errors here) and no spectrum file."""
-    import warnings
-
     write(tmp_path, "huge_x.csv", "t [ms], x [um]\n0, 0\n1, 1e308\n2, 2\n3, 3\n")
     write(tmp_path, "huge_t.csv", "t [s], x [um]\n0, 0\n1, 1\n2, 2\n1e308, 3\n")
     write(tmp_path, "huge_min.csv", "t [min], x [um]\n0, 0\n1e-5, 1\n2e-5, 2\n1e308, 3\n")
     cfg = write(tmp_path, "bad.toml", GAS_2D + f'\n[trajectory]\nkind = "spline"\n{body}\n')
-    spec = tmp_path / "spec.csv"
-    with warnings.catch_warnings():
-        warnings.simplefilter("error")
-        r = run("transit", cfg, "--spectrum", spec)
-    assert r.exit_code == 2, (r.exit_code, r.output, r.exception)
-    assert r.stdout == ""
-    lines = r.stderr.splitlines()
-    assert len(lines) == 1, r.stderr
-    assert lines[0].startswith(f"error: {key}: "), lines[0]
-    assert words in lines[0], lines[0]
-    assert not list(tmp_path.glob("spec*"))
+    _one_clean_error(tmp_path, cfg, key, words)
 
 
 def test_huge_switching_width_of_a_linear_transit(tmp_path):
@@ -269,20 +275,9 @@ def test_huge_start_radius_or_centre_of_a_switched_path(tmp_path, path, key, wor
     before the check the linear case's positions in units of xi overflowed to
     inf and the engine stopped on the NaNs that followed, with
     RuntimeWarnings and a traceback."""
-    import warnings
-
     cfg = write(tmp_path, "far.toml", GAS_2D + f'\n[trajectory]\n{path}\n'
                 'switching = "gaussian"\nswitching_width = "1 ms"\n')
-    spec = tmp_path / "spec.csv"
-    with warnings.catch_warnings():
-        warnings.simplefilter("error")
-        r = run("transit", cfg, "--spectrum", spec)
-    assert r.exit_code == 2, (r.exit_code, r.output, r.exception)
-    assert r.stdout == ""
-    line, = r.stderr.splitlines()
-    assert line.startswith(f"error: {key}: "), line
-    assert words in line, line
-    assert not list(tmp_path.glob("spec*"))
+    _one_clean_error(tmp_path, cfg, key, words)
 
 
 def test_rates_and_transit_refuse_each_others_scenarios(tmp_path):
