@@ -67,7 +67,7 @@ CASES["sweep_density_drag"] = (
 CASES["compare_ring"] = (
     "compare examples/ring2d_circular.toml --vary trajectory.speed=0.4c_s:1.6c_s:7", [])
 
-_VOLATILE_JSON = {"libraries", "platform", "created", "command", "version"}
+_VOLATILE_JSON = {"libraries", "platform", "created", "command", "version", "seconds"}
 _NUMBER = re.compile(r"[-+]?(?:\d+\.\d*|\.\d+|\d+)(?:[eE][-+]?\d+)?")
 
 
