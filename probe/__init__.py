@@ -14,12 +14,15 @@ The configuration layer (``load_config``, ``rates_from_config``,
 from importlib import import_module
 from importlib.metadata import PackageNotFoundError, version as _version
 
-from .condensate import Condensate
-from .errors import InputError, ModelError
-from .probes import (DensityProbe, PROBE_MODELS, TwoLevelProbe,
-                     coupling_from_scattering_length)
-from .regime import regime_warnings
-from .results import RateResult
+from probe import _aliases
+from probe.detectors.models import (PROBE_MODELS, DensityProbe, TwoLevelProbe,
+                                    coupling_from_scattering_length)
+from probe.engines.regime import regime_warnings
+from probe.engines.results import RateResult
+from probe.errors import InputError, ModelError
+from probe.gas.condensate import Condensate
+
+_aliases.install()
 
 try:
     __version__ = _version("condensate-probe")
@@ -27,16 +30,16 @@ except PackageNotFoundError:  # running from a source tree that is not installed
     __version__ = "0.1.0"
 
 _LAZY = {
-    "load_config": "config",
-    "rates_from_config": "config",
-    "override": "config",
-    "unset": "config",
-    "Scenario": "config",
-    "species_mass": "config",
-    "parse_quantity": "units",
-    "parse_vector": "units",
-    "ureg": "units",
-    "stationary_rates": "engine",
+    "load_config": "probe.scenarios.config",
+    "rates_from_config": "probe.scenarios.config",
+    "override": "probe.scenarios.config",
+    "unset": "probe.scenarios.config",
+    "Scenario": "probe.scenarios.config",
+    "species_mass": "probe.scenarios.config",
+    "parse_quantity": "probe.scenarios.units",
+    "parse_vector": "probe.scenarios.units",
+    "ureg": "probe.scenarios.units",
+    "stationary_rates": "probe.engines.stationary",
 }
 
 __all__ = ["Condensate", "InputError", "ModelError", "DensityProbe",
@@ -46,5 +49,5 @@ __all__ = ["Condensate", "InputError", "ModelError", "DensityProbe",
 
 def __getattr__(name):
     if name in _LAZY:
-        return getattr(import_module(f".{_LAZY[name]}", __name__), name)
+        return getattr(import_module(_LAZY[name]), name)
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

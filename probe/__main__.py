@@ -1,6 +1,6 @@
 """``python -m probe`` runs the command-line tool."""
 import sys
 
-from .cli import main
+from probe.cli import main
 
 sys.exit(main())

@@ -27,9 +27,9 @@ from scipy import constants as sc  # noqa: E402
 from scipy.integrate import quad  # noqa: E402
 from scipy.optimize import brentq  # noqa: E402
 
-from probe.condensate import Condensate  # noqa: E402
-from probe.engine import circular_rates, inertial_rates  # noqa: E402
-from probe.probes import TwoLevelProbe  # noqa: E402
+from probe.gas.condensate import Condensate  # noqa: E402
+from probe.engines.stationary import circular_rates, inertial_rates  # noqa: E402
+from probe.detectors.models import TwoLevelProbe  # noqa: E402
 
 M_RB = 86.909180531 * sc.atomic_mass
 

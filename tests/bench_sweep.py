@@ -22,7 +22,7 @@ import tempfile  # noqa: E402
 import time  # noqa: E402
 from pathlib import Path  # noqa: E402
 
-from probe.sweep import sweep  # noqa: E402
+from probe.design.sweep import sweep  # noqa: E402
 
 RING = str(Path(__file__).resolve().parent.parent / "examples" / "ring2d_circular.toml")
 

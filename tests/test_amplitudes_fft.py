@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from scipy.special import jv
 
-from probe.amplitudes_fft import (bessel_sequence, chebyshev_degree, fft_amplitude_work,
+from probe.engines.fft_kernel import (bessel_sequence, chebyshev_degree, fft_amplitude_work,
                                   fft_length)
 
 

@@ -3,7 +3,7 @@ and against its own symmetry J_{-m} = (-1)^m J_m."""
 import mpmath as mp
 import numpy as np
 
-from probe.bessel import jv_int
+from probe.engines.bessel import jv_int
 
 
 def test_against_mpmath_all_regions():

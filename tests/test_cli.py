@@ -331,7 +331,7 @@ def test_sweep_with_unset_matches_rates(tmp_path):
     r = run("sweep", BOX, "--vary", "trajectory.speed=0.5c_s:3c_s:4", "--out", str(out),
             "--unset", "probe.gap", "--set", "probe.model=density")
     assert r.exit_code == 0, r.output
-    from probe.sweep import read_sweep
+    from probe.design.sweep import read_sweep
     res = read_sweep(out)
     assert "emission_rate" in res.columns and "up_rate" not in res.columns
     assert "gap" not in res.meta["config"]["probe"]
@@ -371,9 +371,9 @@ def test_compare_threshold_and_solve_take_unset(tmp_path):
 
 
 def test_python_api_takes_removals(tmp_path):
-    from probe.compare import compare
-    from probe.config import load_config
-    from probe.sweep import sweep
+    from probe.design.compare import compare
+    from probe.scenarios.config import load_config
+    from probe.design.sweep import sweep
 
     sc_ = load_config(BOX, ["probe.model=density"], removals=["probe.gap"])
     assert sc_.probe.name == "density"

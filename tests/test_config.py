@@ -5,11 +5,11 @@ import numpy as np
 import pytest
 from scipy import constants as sc
 
-from probe.condensate import Condensate
-from probe.config import (load_config, override, rates_from_config, read_toml,
+from probe.gas.condensate import Condensate
+from probe.scenarios.config import (load_config, override, rates_from_config, read_toml,
                           scenario_from_dict, species_mass)
 from probe.errors import InputError
-from probe.probes import DensityProbe, TwoLevelProbe
+from probe.detectors.models import DensityProbe, TwoLevelProbe
 
 U = sc.atomic_mass
 HBAR = sc.hbar
@@ -304,7 +304,7 @@ def test_override_suggestion():
 
 
 def test_unset_removes_a_copy_of_the_key():
-    from probe.config import unset
+    from probe.scenarios.config import unset
     raw = copy.deepcopy(BASE)
     new = unset(raw, "probe.gap")
     assert "gap" not in new["probe"] and raw["probe"]["gap"] == BASE["probe"]["gap"]
@@ -322,14 +322,14 @@ def test_unset_removes_a_copy_of_the_key():
     (3, "--unset", "expected KEY"),
 ])
 def test_unset_rejects_missing_and_bad_keys(dotted, key, words):
-    from probe.config import unset
+    from probe.scenarios.config import unset
     with pytest.raises(InputError) as err:
         unset(BASE, dotted)
     assert err.value.key == key and words in err.value.message
 
 
 def test_removals_come_before_overrides():
-    from probe.config import apply_edits
+    from probe.scenarios.config import apply_edits
     out = apply_edits(BASE, ["probe.gap=300 Hz"], ["probe.gap"])
     assert out["probe"]["gap"] == "300 Hz"
     s = scenario_from_dict(BASE, ["probe.model=density"], removals=["probe.gap"])

@@ -9,7 +9,7 @@ from click.testing import CliRunner
 distributed = pytest.importorskip("distributed")
 
 from probe.cli import cli  # noqa: E402
-from probe.sweep import read_sweep, sweep  # noqa: E402
+from probe.design.sweep import read_sweep, sweep  # noqa: E402
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 RING = str(EXAMPLES / "ring2d_circular.toml")

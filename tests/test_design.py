@@ -12,12 +12,12 @@ from click.testing import CliRunner
 from scipy.optimize import minimize_scalar
 
 from probe.cli import cli
-from probe.compare import compare
-from probe.config import load_config
-from probe.design import solve, threshold_table
-from probe.engine import inertial_rates
+from probe.design.compare import compare
+from probe.scenarios.config import load_config
+from probe.design.solver import solve, threshold_table
+from probe.engines.stationary import inertial_rates
 from probe.errors import InputError
-from probe.sweep import sweep
+from probe.design.sweep import sweep
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 BOX = str(EXAMPLES / "box3d_supersonic.toml")

@@ -24,11 +24,11 @@ from scipy.integrate import quad
 from scipy.optimize import brentq, minimize_scalar
 from scipy.special import j0, spherical_jn
 
-from probe.condensate import Condensate
-from probe.dispersion import Bogoliubov
-from probe.engine import circular_rates, inertial_rates, stationary_rates
+from probe.gas.condensate import Condensate
+from probe.gas.dispersion import Bogoliubov
+from probe.engines.stationary import circular_rates, inertial_rates, stationary_rates
 from probe.errors import ModelError
-from probe.probes import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
+from probe.detectors.models import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
 from trajectories import Circular, Linear
 
 HBAR, KB = sc.hbar, sc.k

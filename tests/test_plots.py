@@ -10,13 +10,13 @@ from click.testing import CliRunner
 from matplotlib.image import imread
 
 from probe.cli import cli
-from probe.compare import compare
-from probe.config import load_config
-from probe.design import threshold_table
+from probe.design.compare import compare
+from probe.scenarios.config import load_config
+from probe.design.solver import threshold_table
 from probe.errors import InputError
-from probe.plots import (check_plot_path, plot_comparison, plot_emission_pattern,
+from probe.design.plots import (check_plot_path, plot_comparison, plot_emission_pattern,
                          plot_emission_spectrum, plot_sweep, plot_threshold)
-from probe.sweep import sweep
+from probe.design.sweep import sweep
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = ROOT / "examples"
@@ -116,8 +116,8 @@ def test_two_dimensional_comparison(tmp_path):
 
 
 def test_emission_pattern_and_spectrum(tmp_path):
-    from probe.switching import Gaussian
-    from probe.transit import transit_probabilities
+    from probe.detectors.switching import Gaussian
+    from probe.engines.transit import transit_probabilities
     from trajectories import Linear
 
     sc_ = load_config(RING, ["probe.coupling_length=0.5 nm"])

@@ -28,11 +28,11 @@ from hypothesis import strategies as st
 from scipy import constants as sc
 
 from probe.cli import cli
-from probe.condensate import Condensate
-from probe.config import scenario_from_dict
-from probe.engine import circular_rates, inertial_rates
+from probe.gas.condensate import Condensate
+from probe.scenarios.config import scenario_from_dict
+from probe.engines.stationary import circular_rates, inertial_rates
 from probe.errors import ModelError
-from probe.probes import DensityProbe, TwoLevelProbe
+from probe.detectors.models import DensityProbe, TwoLevelProbe
 
 HBAR, KB = sc.hbar, sc.k
 M_RB = 86.909180531 * sc.atomic_mass   # 87Rb, atomic mass evaluation (from memory)
@@ -271,7 +271,7 @@ def test_transit_through_the_cloud_is_rotation_invariant(axis, angle, start):
     raw["trajectory"]["start"] = [f"{float(x)!r} um" for x in rot @ np.array(start)]
     raw["trajectory"]["direction"] = (rot @ base_dir).tolist()
     s2 = scenario_from_dict(raw)
-    from probe.regime import transit_summary
+    from probe.engines.regime import transit_summary
     r1, r2 = s1.rates(), s2.rates()
     t1 = transit_summary(s1.condensate, s1.trajectory, r1)
     t2 = transit_summary(s2.condensate, s2.trajectory, r2)

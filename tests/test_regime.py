@@ -4,10 +4,10 @@ import numpy as np
 from scipy import constants as sc
 from scipy.special import zeta
 
-from probe.condensate import Condensate
-from probe.probes import DensityProbe, TwoLevelProbe
-from probe.regime import regime_warnings
-from probe.results import RateResult
+from probe.gas.condensate import Condensate
+from probe.detectors.models import DensityProbe, TwoLevelProbe
+from probe.engines.regime import regime_warnings
+from probe.engines.results import RateResult
 
 U = sc.atomic_mass
 M_RB = 86.909180531 * U      # 87Rb (AME2016, from memory)

@@ -26,11 +26,11 @@ import numpy as np
 import pytest
 from scipy import constants as sc
 
-from probe.condensate import Condensate
-from probe.engine import (GAP_RANGE, MAX_SPEED_OVER_C, STATIC_SPEED, circular_rates,
+from probe.gas.condensate import Condensate
+from probe.engines.stationary import (GAP_RANGE, MAX_SPEED_OVER_C, STATIC_SPEED, circular_rates,
                           inertial_rates)
 from probe.errors import ModelError
-from probe.probes import DensityProbe, TwoLevelProbe
+from probe.detectors.models import DensityProbe, TwoLevelProbe
 
 pytestmark = pytest.mark.filterwarnings("error::RuntimeWarning")
 

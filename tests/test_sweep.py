@@ -16,9 +16,9 @@ import pytest
 from click.testing import CliRunner
 
 from probe.cli import cli
-from probe.config import load_config
+from probe.scenarios.config import load_config
 from probe.errors import InputError
-from probe.sweep import (_Partial, plan_sweep, read_sweep, sidecar_path, sweep)
+from probe.design.sweep import (_Partial, plan_sweep, read_sweep, sidecar_path, sweep)
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 BOX = str(EXAMPLES / "box3d_supersonic.toml")
@@ -356,7 +356,7 @@ def test_cli_missing_output_directory(tmp_path):
 
 
 def test_progress_bar_only_on_a_terminal(monkeypatch):
-    from probe import design_cli
+    from probe.cli import design as design_cli
 
     class Terminal(io.StringIO):
         def isatty(self):
@@ -398,7 +398,7 @@ CROSS = EXAMPLES / "cross3d_gaussian.toml"
 
 
 def _transit_scenarios():
-    from probe.config import Scenario
+    from probe.scenarios.config import Scenario
     if not hasattr(Scenario, "is_transit") or not CROSS.exists():
         pytest.skip("scenario files do not describe switched transits here")
 

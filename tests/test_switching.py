@@ -8,7 +8,7 @@ import pytest
 from scipy import integrate
 
 from probe.errors import InputError
-from probe.switching import (HARD_CUT_WARNING, Gaussian, PathSpan, Window,
+from probe.detectors.switching import (HARD_CUT_WARNING, Gaussian, PathSpan, Window,
                              smooth_step)
 from trajectories import Linear, Spline
 

@@ -14,12 +14,12 @@ import pytest
 from scipy import constants as sc
 from scipy import integrate, special
 
-from probe.condensate import Condensate
-from probe.engine import circular_rates, inertial_rates
+from probe.gas.condensate import Condensate
+from probe.engines.stationary import circular_rates, inertial_rates
 from probe.errors import InputError, ModelError
-from probe.probes import DensityProbe, TwoLevelProbe
-from probe.switching import Gaussian, PathSpan, Window
-from probe.transit import transit_probabilities
+from probe.detectors.models import DensityProbe, TwoLevelProbe
+from probe.detectors.switching import Gaussian, PathSpan, Window
+from probe.engines.transit import transit_probabilities
 from trajectories import Circular, Linear, Spline
 
 HBAR, KB = sc.hbar, sc.k
@@ -597,7 +597,7 @@ def test_lag_route_agrees_with_both_direction_routes(kind, d, T, model):
     else:
         path = Circular(2.0 * xi, speed=0.8 * c)
         if d == 2:
-            from probe.transit_config import _project
+            from probe.scenarios.transit import _project
             path = _project(path, 2)
     sw = Gaussian(8.0 / w0)
     rtol = 1e-5

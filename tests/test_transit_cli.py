@@ -15,8 +15,8 @@ import pytest
 from click.testing import CliRunner
 
 from probe.cli import cli
-from probe.config import load_config, scenario_from_dict
-from probe.transit_cli import directions_path
+from probe.scenarios.config import load_config, scenario_from_dict
+from probe.cli.transit import directions_path
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 

@@ -5,7 +5,7 @@ import pytest
 from scipy import constants as sc
 
 from probe.errors import InputError
-from probe.units import parse_quantity, parse_vector
+from probe.scenarios.units import parse_quantity, parse_vector
 
 TWO_PI = 2 * math.pi
 

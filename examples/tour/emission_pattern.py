@@ -10,9 +10,9 @@ The direction histogram uses 120 bins in cos(theta).
 """
 from _where import output, scenario
 
-from probe.config import load_config
-from probe.plots import plot_emission_pattern
-from probe.transit import transit_probabilities
+from probe.scenarios.config import load_config
+from probe.design.plots import plot_emission_pattern
+from probe.engines.transit import transit_probabilities
 
 
 def main(argv=None):

@@ -9,8 +9,8 @@ The same numbers: probe transit examples/cross3d_gaussian.toml --spectrum ...
 """
 from _where import output, scenario
 
-from probe.config import load_config
-from probe.plots import plot_emission_spectrum
+from probe.scenarios.config import load_config
+from probe.design.plots import plot_emission_spectrum
 
 
 def main(argv=None):

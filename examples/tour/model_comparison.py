@@ -10,8 +10,8 @@ Same as: probe compare examples/box3d_supersonic.toml
 """
 from _where import output, scenario
 
-from probe.compare import compare
-from probe.plots import plot_comparison
+from probe.design.compare import compare
+from probe.design.plots import plot_comparison
 
 
 def main(argv=None):

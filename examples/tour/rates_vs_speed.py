@@ -8,8 +8,8 @@ Same as: probe sweep examples/box3d_supersonic.toml
 """
 from _where import output, scenario
 
-from probe.plots import plot_sweep
-from probe.sweep import sweep
+from probe.design.plots import plot_sweep
+from probe.design.sweep import sweep
 
 
 def main(argv=None):

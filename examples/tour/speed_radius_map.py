@@ -10,8 +10,8 @@ Same as: probe sweep examples/ring2d_circular.toml
 """
 from _where import output, scenario
 
-from probe.plots import plot_sweep
-from probe.sweep import sweep
+from probe.design.plots import plot_sweep
+from probe.design.sweep import sweep
 
 
 def main(argv=None):

@@ -7,8 +7,8 @@ Same as: probe threshold examples/box3d_supersonic.toml --plot threshold_vs_gap.
 """
 from _where import output, scenario
 
-from probe.design import threshold_table
-from probe.plots import plot_threshold
+from probe.design.solver import threshold_table
+from probe.design.plots import plot_threshold
 
 
 def main(argv=None):

@@ -22,8 +22,8 @@ import numpy as np
 from scipy import constants as sc
 from scipy.special import zeta
 
-from .dispersion import DISPERSIONS, Dispersion
-from .errors import InputError
+from probe.gas.dispersion import DISPERSIONS, Dispersion
+from probe.errors import InputError
 
 HBAR = sc.hbar
 KB = sc.k

@@ -2,7 +2,7 @@
 
 Python use::
 
-    from probe.sweep import sweep
+    from probe.design.sweep import sweep
     res = sweep("examples/ring2d_circular.toml",
                 vary=[("trajectory.speed", "0.2 c_s", "2 c_s", 40),
                       ("trajectory.radius", "2 um", "50 um", 30)],
@@ -63,7 +63,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError, ModelError
+from probe.errors import InputError, ModelError
 
 # ---------------------------------------------------------------------------
 # Keys and units
@@ -132,7 +132,7 @@ def _suggest(word, choices):
 
 def check_numeric_key(key, option="--vary"):
     """``key`` if it is a numeric configuration key, else InputError."""
-    from .config import SCHEMA
+    from probe.scenarios.config import SCHEMA
 
     if not isinstance(key, str) or key.count(".") != 1 or not all(key.split(".")):
         raise InputError(option, f"key {key!r} must be SECTION.KEY, e.g. "
@@ -152,7 +152,7 @@ def check_numeric_key(key, option="--vary"):
 
 def _is_relative_speed(text):
     """True if a speed string is written in units of the sound speed."""
-    from .units import ureg
+    from probe.scenarios.units import ureg
 
     if not isinstance(text, str):
         return False
@@ -270,7 +270,7 @@ def _num(key, num):
 def make_axis(key, start, stop, num, log, scenario):
     """An :class:`Axis` for ``key`` from START/STOP strings, checked against
     the base scenario (for the gas dimension and sound speed)."""
-    from .units import parse_quantity
+    from probe.scenarios.units import parse_quantity
 
     kind = NUMERIC_KEYS[key]
     n = _num(key, num)
@@ -328,7 +328,7 @@ def _raw_config(config, overrides=(), source=None, removals=()):
     (whose ``source``, the file it came from, locates relative paths in
     it).  ``removals`` ("section.key", as ``--unset``) are taken out before
     the ``overrides`` ("section.key=value", as ``--set``) are applied."""
-    from .config import apply_edits, read_toml
+    from probe.scenarios.config import apply_edits, read_toml
 
     if isinstance(config, dict):
         raw = copy.deepcopy(config)
@@ -358,7 +358,7 @@ class Plan:
         return int(np.prod(self.shape)) if self.axes else 1
 
     def fingerprint(self):
-        from . import __version__
+        from probe import __version__
         blob = json.dumps({"config": self.raw, "axes": [a.to_dict() for a in self.axes],
                            "columns": self.columns, "units": self.units,
                            "version": __version__}, sort_keys=True, default=str)
@@ -387,7 +387,7 @@ def plan_sweep(config, vary, log=(), overrides=(), source=None, removals=()):
     computed).  Raises InputError for any bad key, value or combination.
     ``source`` names the file a dict ``config`` came from; ``removals`` and
     ``overrides`` edit it first (as ``--unset`` and ``--set``)."""
-    from .config import scenario_from_dict
+    from probe.scenarios.config import scenario_from_dict
 
     raw, source = _raw_config(config, overrides, source, removals)
     base = scenario_from_dict(raw, source=source)
@@ -469,7 +469,7 @@ class RatesEvaluator:
 
     @staticmethod
     def _call(scenario, probe, speed, radius, gap):
-        from .engine import circular_rates, inertial_rates
+        from probe.engines.stationary import circular_rates, inertial_rates
 
         cond = scenario.condensate
         g = gap if probe.has_gap else None
@@ -480,8 +480,8 @@ class RatesEvaluator:
     def evaluate(self, scenario, arrays, n):
         """Rows (n, columns) and per-point warning lists for ``n`` points;
         ``arrays`` maps engine arguments (speed, radius, gap) to SI arrays."""
-        from .probes import TwoLevelProbe
-        from .regime import regime_warnings
+        from probe.detectors.models import TwoLevelProbe
+        from probe.engines.regime import regime_warnings
 
         cond, probe = scenario.condensate, scenario.probe
         params = dict(scenario.trajectory.stationary_parameters())
@@ -628,7 +628,7 @@ _SCENARIO_LOCK = threading.Lock()
 
 @functools.lru_cache(maxsize=64)
 def _scenario(raw_json, source, group):
-    from .config import scenario_from_dict
+    from probe.scenarios.config import scenario_from_dict
 
     raw = json.loads(raw_json)
     return scenario_from_dict(assign(raw, dict(group)), source=source)
@@ -932,7 +932,7 @@ def library_versions(extra=()):
 
 
 def _jsonable_scenario(scenario):
-    from .results import _jsonable
+    from probe.engines.results import _jsonable
 
     desc = scenario.describe()
     return json.loads(json.dumps(desc, default=lambda x: _jsonable(x)))
@@ -1169,7 +1169,7 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
 
 def sweep_meta(plan, workers=1, scheduler=None, elapsed=None, resumed=0, command=None):
     """The sidecar record of a sweep."""
-    from . import __version__
+    from probe import __version__
 
     extra = ("dask", "distributed") if scheduler is not None else ()
     return {
@@ -1238,7 +1238,7 @@ def evaluate_point(config, values, overrides=(), source=None, removals=()):
     values (strings with units or SI floats), after ``removals`` and
     ``overrides`` (as ``--unset`` and ``--set``).  Returns ``(columns,
     units, row, warnings)`` like one row of a sweep."""
-    from .config import scenario_from_dict
+    from probe.scenarios.config import scenario_from_dict
 
     raw, source = _raw_config(config, overrides, source, removals)
     for key in values:
@@ -1287,7 +1287,7 @@ def display_unit(kind, si_unit_text, values):
     keeps the largest magnitude below 1000.  Frequencies of kind
     ``"frequency"`` (gaps, trap frequencies, stored in rad/s) are shown as
     ordinary frequencies Omega/(2 pi) in Hz, kHz or MHz."""
-    from .units import ureg
+    from probe.scenarios.units import ureg
 
     a = np.asarray(values, float)
     a = np.abs(a[np.isfinite(a) & (a != 0)])

@@ -1,4 +1,4 @@
-"""Command-line interface: ``probe rates CONFIG [CONFIG ...]``.
+"""``probe rates CONFIG [CONFIG ...]``: stationary rates as a table or JSON.
 
 Bad input of any kind (unreadable file, TOML syntax, unknown key, wrong
 units, impossible request) ends with one line ``error: <key>: <message>`` on
@@ -10,83 +10,14 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import re
-import tempfile
 import warnings
 
 import click
 import numpy as np
 from scipy import constants as sc
 
-from . import __version__
-from .errors import InputError, ModelError
-
-EXIT_INPUT = 2
-
-
-class ProbeError(click.ClickException):
-    """Bad input, reported as ``error: <key>: <message>`` with status 2."""
-
-    exit_code = EXIT_INPUT
-
-    def show(self, file=None):
-        click.echo(f"error: {self.message}", err=True, file=file)
-
-
-def _input_errors():
-    from trajectories import TrajectoryError
-    return (InputError, ModelError, TrajectoryError)
-
-
-_CONTROL = re.compile(r"[\x00-\x1f\x7f]")
-
-
-def _fail(exc):
-    key = getattr(exc, "key", None)
-    message = getattr(exc, "message", None) or str(exc)
-    if key and not message.startswith(f"{key}:"):
-        message = f"{key}: {message}"
-    # one line whatever the input: control characters (a newline inside a
-    # quoted TOML key, say) are shown escaped
-    message = _CONTROL.sub(lambda m: m.group(0).encode("unicode_escape").decode(),
-                           message)
-    raise ProbeError(message) from None
-
-
-# ---------------------------------------------------------------------------
-# Formatting
-# ---------------------------------------------------------------------------
-def _num(x, digits=6):
-    """A number with ``digits`` significant digits; arrays element-wise."""
-    if x is None:
-        return "-"
-    a = np.asarray(x)
-    if a.ndim:
-        return "[" + ", ".join(_num(v, digits) for v in a.ravel()) + "]"
-    x = float(a)
-    if math.isnan(x):
-        return "nan"
-    if math.isinf(x):
-        return "inf" if x > 0 else "-inf"
-    return f"{x:.{digits}g}"
-
-
-def _q(x, unit, scale=1.0):
-    """``x / scale`` followed by its display unit."""
-    if x is None:
-        return "-"
-    a = np.asarray(x, dtype=float)
-    return f"{_num(a / scale)} {unit}".rstrip()
-
-
-def _rate(rate, err):
-    if rate is None:
-        return "-"
-    text = _q(rate, "s^-1")
-    if err is not None:
-        text += f"  (+/- {_num(err, 2)} s^-1)"
-    return text
+from probe.cli.app import cli
+from probe.cli.common import fail, input_errors, num as _num, q as _q, rate as _rate, write_atomic, json_value as _json_value
 
 
 def _rows_inputs(sc_, info):
@@ -184,7 +115,7 @@ def _teff(teff):
 
 def _transit(scenario, result):
     """The straight transit through the uniform region, or None."""
-    from .regime import transit_summary
+    from probe.engines.regime import transit_summary
     if not getattr(scenario.trajectory, "stationary", False):
         return None
     return transit_summary(scenario.condensate, scenario.trajectory, result)
@@ -229,47 +160,6 @@ def result_json(scenario, result):
     return out
 
 
-def _json_value(x):
-    if x is None:
-        return None
-    a = np.asarray(x, float)
-    if a.ndim:
-        return [None if not math.isfinite(v) else v for v in a.tolist()]
-    v = float(a)
-    return v if math.isfinite(v) else None
-
-
-def write_atomic(path, text):
-    """Write ``text`` to ``path`` whole or not at all: a temporary file in the
-    same folder, renamed over ``path`` once complete.  InputError (key
-    ``--output``) when the file cannot be written."""
-    target = os.fspath(path)
-    folder = os.path.dirname(os.path.abspath(target))
-    tmp = None
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{os.path.basename(target)}.",
-                                   suffix=".tmp", dir=folder)
-        with os.fdopen(fd, "w") as fh:
-            fh.write(text)
-        os.replace(tmp, target)
-        tmp = None
-    except OSError as exc:
-        raise InputError("--output", f"cannot write {target!r}: "
-                                     f"{exc.strerror or exc}") from None
-    finally:
-        if tmp is not None and os.path.exists(tmp):
-            os.unlink(tmp)
-
-
-# ---------------------------------------------------------------------------
-# Commands
-# ---------------------------------------------------------------------------
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
-@click.version_option(__version__, "--version", prog_name="probe")
-def cli():
-    """Golden-rule transition rates of a probe moving through a
-    Bose-Einstein condensate."""
-
 
 @cli.command()
 @click.argument("configs", nargs=-1, required=True, metavar="CONFIG [CONFIG ...]")
@@ -286,9 +176,9 @@ def cli():
                    "FILE is written whole or left untouched.")
 def rates(configs, as_json, overrides, removals, output):
     """Stationary up/down (or emission) rates for each scenario file CONFIG."""
-    from .config import load_config
+    from probe.scenarios.config import load_config
 
-    errors = _input_errors()
+    errors = input_errors()
     done = []
     try:
         scenarios = [load_config(path, overrides, removals=removals) for path in configs]
@@ -308,17 +198,6 @@ def rates(configs, as_json, overrides, removals, output):
         if output is not None:
             write_atomic(output, text + "\n")
     except errors as exc:
-        _fail(exc)
+        fail(exc)
     if output is None:
         click.echo(text)
-
-
-def main(argv=None):
-    """Console entry point of ``probe``."""
-    return cli.main(args=argv, prog_name="probe")
-
-
-# the commands defined in other modules register themselves on ``cli``
-from . import design_cli  # noqa: E402,F401
-from . import transit_cli  # noqa: E402,F401
-

@@ -19,7 +19,7 @@ configured model.
 
 Python use::
 
-    from probe.compare import compare
+    from probe.design.compare import compare
     cmp = compare("examples/box3d_supersonic.toml",
                   vary=[("trajectory.speed", "0.5 c_s", "3 c_s", 51)])
     cmp.columns, cmp.units, cmp.data      # the side-by-side table (SI)
@@ -32,8 +32,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import InputError
-from .sweep import _fmt, _raw_config, axis_value_text, plan_sweep, sweep, write_csv
+from probe.errors import InputError
+from probe.design.sweep import _fmt, _raw_config, axis_value_text, plan_sweep, sweep, write_csv
 
 COMPARISONS = ("probe", "dispersion", "width", "temperature")
 #: relative difference above which two models are said to differ
@@ -195,7 +195,7 @@ class Comparison:
 # building the variants
 # ---------------------------------------------------------------------------
 def _describe(raw, scenario):
-    from .sweep import format_value
+    from probe.design.sweep import format_value
 
     p, cond = scenario.probe, scenario.condensate
     parts = [f"{p.name} probe"]
@@ -288,7 +288,7 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
     ``overrides`` ("section.key=value") edit the configuration first, as
     ``--unset`` and ``--set``.  Returns a :class:`Comparison`.
     """
-    from .config import scenario_from_dict
+    from probe.scenarios.config import scenario_from_dict
 
     raw, source = _raw_config(config, overrides, removals=removals)
     plan = plan_sweep(raw, vary, log, source=source)

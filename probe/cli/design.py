@@ -11,7 +11,8 @@ import sys
 
 import click
 
-from .cli import EXIT_INPUT, _fail, _input_errors, cli
+from probe.cli.app import cli
+from probe.cli.common import EXIT_INPUT, fail as _fail, input_errors as _input_errors
 
 _VARY_HELP = ("Grid over a numeric key, START and STOP with units, e.g. "
               "'trajectory.speed=0.5c_s:3c_s:101' or "
@@ -33,7 +34,7 @@ def _errors():
 
 def _check_plot(path):
     if path is not None:
-        from .plots import check_plot_path
+        from probe.design.plots import check_plot_path
         check_plot_path(path)
 
 
@@ -92,14 +93,14 @@ def sweep(config, vary, log, out, overrides, removals, resume, workers, schedule
     """Rates (probabilities for a switched transit) on a 1D or 2D grid over
     numeric configuration keys, written to a CSV whose header names every
     column with its unit."""
-    from .sweep import plan_sweep, sidecar_path, sweep as run
+    from probe.design.sweep import plan_sweep, sidecar_path, sweep as run
 
     errors = _errors()
     try:
         _check_plot(plot)
         plan = plan_sweep(config, vary, log, overrides, removals=removals)
         if plot is not None and quantity is not None:
-            from .plots import check_quantity
+            from probe.design.plots import check_quantity
             check_quantity(plan.columns, quantity)
         bar = _Progress(plan.size, "sweep")
         try:
@@ -111,7 +112,7 @@ def sweep(config, vary, log, out, overrides, removals, resume, workers, schedule
             _interrupted(out)
         bar.close()
         if plot is not None:
-            from .plots import plot_sweep
+            from probe.design.plots import plot_sweep
             plot_sweep(result, plot, quantity=quantity)
     except errors as exc:
         _fail(exc)
@@ -164,7 +165,7 @@ def compare(config, vary, log, models, gap, width, temperature, out, plot,
             overrides, removals, workers, scheduler):
     """Evaluate the same grid for several detector-response models and state
     where they differ."""
-    from .compare import compare as run
+    from probe.design.compare import compare as run
 
     errors = _errors()
     try:
@@ -176,7 +177,7 @@ def compare(config, vary, log, models, gap, width, temperature, out, plot,
         if out is not None:
             result.to_csv(out)
         if plot is not None:
-            from .plots import plot_comparison
+            from probe.design.plots import plot_comparison
             plot_comparison(result, plot)
     except errors as exc:
         _fail(exc)
@@ -209,7 +210,7 @@ def _report_written(*paths):
 def threshold(config, vary, log, out, plot, overrides, removals):
     """Up-transition threshold speed of straight motion versus the gap, with
     the sound speed."""
-    from .design import threshold_table
+    from probe.design.solver import threshold_table
 
     errors = _errors()
     try:
@@ -219,7 +220,7 @@ def threshold(config, vary, log, out, plot, overrides, removals):
         if out is not None:
             table.to_csv(out)
         if plot is not None:
-            from .plots import plot_threshold
+            from probe.design.plots import plot_threshold
             plot_threshold(table, plot)
     except errors as exc:
         _fail(exc)
@@ -243,7 +244,7 @@ def threshold(config, vary, log, out, plot, overrides, removals):
 def solve(config, key, target, bounds, overrides, removals):
     """Find the value of KEY at which a result reaches a target (scan for a
     bracket, then Brent's method)."""
-    from .design import solve as run
+    from probe.design.solver import solve as run
 
     errors = _errors()
     try:

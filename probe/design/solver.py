@@ -3,7 +3,7 @@ the value of a key at which a result reaches a target.
 
 Python use::
 
-    from probe.design import threshold_table, solve
+    from probe.design.solver import threshold_table, solve
     tab = threshold_table("examples/box3d_supersonic.toml")
     tab.column("up_threshold_speed")      # m/s, one per gap in tab.column("probe.gap")
     sol = solve("examples/box3d_supersonic.toml", "trajectory.speed", "up_rate=50")
@@ -16,8 +16,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import InputError
-from .sweep import (NUMERIC_KEYS, _fmt, _raw_config, check_numeric_key,
+from probe.errors import InputError
+from probe.design.sweep import (NUMERIC_KEYS, _fmt, _raw_config, check_numeric_key,
                     column_kind, evaluate_point, format_value, plan_sweep, si_unit,
                     sweep, write_csv)
 
@@ -110,7 +110,7 @@ class ThresholdTable:
 
 
 def _speed_display(values):
-    from .sweep import display_unit
+    from probe.design.sweep import display_unit
     return display_unit("speed", "m/s", values)
 
 
@@ -119,7 +119,7 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
     as for :func:`probe.sweep.sweep`), by default a decade either side of
     the configured gap (41 points, logarithmic).  ``removals`` and
     ``overrides`` edit the configuration first (as ``--unset``, ``--set``)."""
-    from .config import scenario_from_dict
+    from probe.scenarios.config import scenario_from_dict
 
     raw, source = _raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)
@@ -231,7 +231,7 @@ class Solution:
 
 def parse_target(text, columns, units):
     """``"NAME=VALUE [unit]"`` -> (name, SI value) for a result column."""
-    from .units import ureg
+    from probe.scenarios.units import ureg
 
     if not isinstance(text, str) or "=" not in text:
         raise InputError("--target", f"expected QUANTITY=VALUE such as 'up_rate=50' "
@@ -266,8 +266,8 @@ def parse_target(text, columns, units):
 
 
 def _configured_value(raw, key, scenario):
-    from .sweep import NUMERIC_KEYS
-    from .units import parse_quantity
+    from probe.design.sweep import NUMERIC_KEYS
+    from probe.scenarios.units import parse_quantity
 
     section, name = key.split(".")
     body = raw.get(section, {})
@@ -293,7 +293,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
     configuration first (as ``--unset`` and ``--set``)."""
     from scipy.optimize import brentq
 
-    from .config import scenario_from_dict
+    from probe.scenarios.config import scenario_from_dict
 
     raw, source = _raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)

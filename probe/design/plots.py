@@ -14,8 +14,8 @@ where positive values span more than two decades.
 
 Python use::
 
-    from probe.sweep import sweep
-    from probe.plots import plot_sweep
+    from probe.design.sweep import sweep
+    from probe.design.plots import plot_sweep
     res = sweep("examples/box3d_supersonic.toml",
                 vary=[("trajectory.speed", "0.5 c_s", "3 c_s", 101)])
     fig = plot_sweep(res, "rates.png")      # returns the Figure
@@ -28,8 +28,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError
-from .sweep import column_kind, display_unit
+from probe.errors import InputError
+from probe.design.sweep import column_kind, display_unit
 
 SUFFIXES = (".png", ".pdf", ".svg")
 

@@ -25,7 +25,7 @@ from functools import lru_cache
 import numpy as np
 from scipy.optimize import brentq
 
-from .errors import InputError
+from probe.errors import InputError
 
 #: chi is below this outside ``support``
 SUPPORT_LEVEL = 1e-16

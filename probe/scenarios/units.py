@@ -28,7 +28,7 @@ import numpy as np
 import pint
 from scipy import constants as sc
 
-from .errors import InputError
+from probe.errors import InputError
 
 #: The one unit registry of the project.
 ureg = pint.UnitRegistry()

@@ -28,12 +28,12 @@ import math
 
 import numpy as np
 from scipy import constants as sc
-from .bessel import jv_int as jv
+from probe.engines.bessel import jv_int as jv
 
-from .dispersion import Bogoliubov, Phonon
-from .errors import InputError, ModelError
-from .quadrature import integrate
-from .results import RateResult
+from probe.gas.dispersion import Bogoliubov, Phonon
+from probe.errors import InputError, ModelError
+from probe.engines.quadrature import integrate
+from probe.engines.results import RateResult
 
 HBAR = sc.hbar
 KB = sc.k
@@ -1102,7 +1102,7 @@ def stationary_rates(condensate, probe, trajectory, rtol=1e-8):
         res = circular_rates(condensate, probe, p["radius"], p["speed"], rtol=rtol)
     else:
         raise InputError("trajectory.kind", f"no stationary engine for {kind!r}")
-    from .regime import path_warnings
+    from probe.engines.regime import path_warnings
     for w in path_warnings(condensate, probe, trajectory, res):
         if w not in res.warnings:
             res.warnings.append(w)
@@ -1112,7 +1112,7 @@ def stationary_rates(condensate, probe, trajectory, rtol=1e-8):
 def _with_regime(condensate, probe, res, rtol=None):
     """Check the result (``_guard``) and attach the regime-of-validity
     warnings (no duplicates)."""
-    from .regime import regime_warnings
+    from probe.engines.regime import regime_warnings
     _guard(condensate, probe, res)
     for w in regime_warnings(condensate, probe, res, rtol=rtol):
         if w not in res.warnings:

@@ -35,10 +35,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import constants as sc
 
-from .condensate import Condensate
-from .errors import InputError
-from .probes import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
-from .units import parse_quantity, parse_vector
+from probe.gas.condensate import Condensate
+from probe.errors import InputError
+from probe.detectors.models import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
+from probe.scenarios.units import parse_quantity, parse_vector
 
 # ---------------------------------------------------------------------------
 # Schema: section -> key -> example value (used in "missing key" messages)
@@ -421,7 +421,7 @@ def _position_limit(condensate):
     """(limit in xi, limit in m, xi in m): positions are handled within
     probe.transit_config.MAX_DISTANCE_OVER_XI healing lengths of the origin
     along each axis, as for spline waypoints."""
-    from .transit_config import MAX_DISTANCE_OVER_XI
+    from probe.scenarios.transit import MAX_DISTANCE_OVER_XI
     xi = condensate.healing_length
     return MAX_DISTANCE_OVER_XI, MAX_DISTANCE_OVER_XI * xi, xi
 
@@ -600,8 +600,8 @@ class Scenario:
 
     def rates(self):
         """Golden-rule rates (a :class:`RateResult`) with regime warnings."""
-        from .engine import stationary_rates
-        from .regime import regime_warnings
+        from probe.engines.stationary import stationary_rates
+        from probe.engines.regime import regime_warnings
 
         notes = _transit.rates_notes(self)   # raises for a path with no rate
         result = stationary_rates(self.condensate, self.probe, self.trajectory,
@@ -652,7 +652,7 @@ def rates_from_config(path_or_dict, overrides=(), removals=()):
 
 
 # Finite transits (spline paths, switching): keys and builders in transit_config
-from . import transit_config as _transit  # noqa: E402
+from probe.scenarios import transit as _transit  # noqa: E402
 
 for _section, _keys in _transit.SCHEMA_KEYS.items():
     SCHEMA[_section].update(_keys)

@@ -54,8 +54,8 @@ from functools import lru_cache
 
 import numpy as np
 
-from .engine import MAX_SPEED_OVER_C
-from .errors import InputError
+from probe.engines.stationary import MAX_SPEED_OVER_C
+from probe.errors import InputError
 
 #: Keys added to ``probe.config.SCHEMA`` (example values for messages).
 SCHEMA_KEYS = {
@@ -110,7 +110,7 @@ _USES = {  # switching -> keys it reads
 
 
 def _cfg():
-    from . import config
+    from probe.scenarios import config as config
     return config
 
 
@@ -118,7 +118,7 @@ def _cfg():
 # small readers
 # ---------------------------------------------------------------------------
 def _time(value, key):
-    from .units import parse_quantity
+    from probe.scenarios.units import parse_quantity
     return parse_quantity(value, key, "time")
 
 
@@ -163,7 +163,7 @@ def _trajectory_error(exc, file=None):
 # ---------------------------------------------------------------------------
 def _column_values(values, key, kind, unit, unit_key):
     """SI floats of one waypoint column."""
-    from .units import parse_quantity
+    from probe.scenarios.units import parse_quantity
 
     example = '["0 ms", "1 ms"]' if kind == "time" else '["0 um", "5 um"]'
     if not isinstance(values, list) or not values:
@@ -347,7 +347,7 @@ def _check_switching_range(key, value, support, condensate, stationary):
 def _build_spline(body, condensate, source):
     from trajectories import Spline, TrajectoryError, read_waypoints_csv
 
-    from .units import parse_quantity
+    from probe.scenarios.units import parse_quantity
 
     s = "trajectory"
     d = condensate.dimension
@@ -452,7 +452,7 @@ def _project(trajectory, d):
 
 
 def _build_switching(body, trajectory, kind, condensate):
-    from .switching import Gaussian, PathSpan, Window
+    from probe.detectors.switching import Gaussian, PathSpan, Window
 
     cfg = _cfg()
     s = "trajectory"
@@ -575,7 +575,7 @@ def transit_rtol(raw, trajectory=None):
     value = body.get("transit_rtol", DEFAULT_TRANSIT_RTOL)
     if isinstance(value, bool) or not isinstance(value, (int, float, str)):
         raise InputError(key, f"must be a number such as 1e-4, got {value!r}")
-    from .units import parse_quantity
+    from probe.scenarios.units import parse_quantity
     rtol = parse_quantity(value, key, "dimensionless")
     if not 1e-10 <= rtol <= 0.1:
         raise InputError(key, f"must be between 1e-10 and 0.1 (e.g. 1e-4), got {rtol!r}")
@@ -628,8 +628,8 @@ def check_transit(scenario):
 def run_transit(scenario, spectrum=False, workers=None):
     """The :class:`probe.transit.TransitResult` of a transit scenario, with
     the regime-of-validity warnings of the gas and the path."""
-    from .regime import regime_warnings
-    from .transit import transit_probabilities
+    from probe.engines.regime import regime_warnings
+    from probe.engines.transit import transit_probabilities
 
     check_transit(scenario)
     cond = scenario.condensate
@@ -674,7 +674,7 @@ def chi2_integral(switching):
     for slow switching of a stationary path."""
     from scipy.integrate import trapezoid
 
-    from .switching import Gaussian, Window
+    from probe.detectors.switching import Gaussian, Window
 
     if isinstance(switching, Gaussian):
         return math.sqrt(math.pi) * switching.width
@@ -695,7 +695,7 @@ def _psi2():
     """int_0^1 psi(x)^2 dx for the smooth step psi of the window ramps."""
     from scipy.integrate import quad
 
-    from .switching import smooth_step
+    from probe.detectors.switching import smooth_step
     return quad(lambda x: float(smooth_step(x)) ** 2, 0, 1, epsabs=1e-14, epsrel=1e-13)[0]
 
 
@@ -731,7 +731,7 @@ def path_summary(scenario):
 
 def switching_summary(switching, raw_trajectory):
     """The switching function's parameters and durations (SI)."""
-    from .switching import Gaussian, PathSpan
+    from probe.detectors.switching import Gaussian, PathSpan
 
     name = raw_trajectory.get("switching", "path")
     out = {"kind": name}

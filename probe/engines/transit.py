@@ -125,10 +125,10 @@ from scipy.integrate import lebedev_rule
 from scipy.optimize import brentq
 from scipy.special import roots_legendre
 
-from .amplitudes_fft import chebyshev_degree, fft_amplitude_work, fft_length
-from .errors import InputError, ModelError
-from .results import _jsonable
-from .switching import Switching
+from probe.engines.fft_kernel import chebyshev_degree, fft_amplitude_work, fft_length
+from probe.errors import InputError, ModelError
+from probe.engines.results import _jsonable
+from probe.detectors.switching import Switching
 
 HBAR = sc.hbar
 KB = sc.k

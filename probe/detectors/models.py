@@ -14,7 +14,7 @@ import math
 import numpy as np
 from scipy import constants as sc
 
-from .errors import InputError
+from probe.errors import InputError
 
 HBAR = sc.hbar
 

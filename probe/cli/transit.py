@@ -40,9 +40,11 @@ from pathlib import Path
 import click
 from scipy import constants as sc
 
-from .cli import _fail, _input_errors, _num, _q, _rows_derived, _rows_inputs, cli
-from .errors import InputError
-from .transit_config import _fmt_time, check_transit, describe
+from probe.cli.app import cli
+from probe.cli.common import fail as _fail, input_errors as _input_errors, num as _num, q as _q
+from probe.cli.rates import _rows_derived, _rows_inputs
+from probe.errors import InputError
+from probe.scenarios.transit import _fmt_time, check_transit, describe
 
 _SET_HELP = ("Override a configuration entry, e.g. --set 'trajectory.switching_width=3 ms'. "
              "Repeatable; applied to every CONFIG.")
@@ -331,7 +333,7 @@ def write_spectrum(path, scenario, result):
 def transit(configs, as_json, spectrum, overrides, removals):
     """First-order transition probabilities of finite transits: a spline path
     through waypoints, or a linear or circular path with a switching function."""
-    from .config import load_config
+    from probe.scenarios.config import load_config
 
     errors = _input_errors()
     done = []
