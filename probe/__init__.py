@@ -15,7 +15,7 @@ from importlib import import_module
 from importlib.metadata import PackageNotFoundError, version as _version
 
 from probe import _aliases
-from probe.detectors.models import (PROBE_MODELS, DensityProbe, TwoLevelProbe,
+from probe.detectors import (PROBE_MODELS, DensityProbe, TwoLevelProbe,
                                     coupling_from_scattering_length)
 from probe.engines.regime import regime_warnings
 from probe.engines.results import RateResult

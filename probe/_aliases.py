@@ -23,7 +23,7 @@ ALIASES = {
     "regime": "probe.engines.regime",
     "condensate": "probe.gas.condensate",
     "dispersion": "probe.gas.dispersion",
-    "probes": "probe.detectors.models",
+    "probes": "probe.detectors",
     "switching": "probe.detectors.switching",
     "units": "probe.scenarios.units",
     "config": "probe.scenarios.config",

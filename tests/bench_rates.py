@@ -29,7 +29,7 @@ from scipy.optimize import brentq  # noqa: E402
 
 from probe.gas.condensate import Condensate  # noqa: E402
 from probe.engines.stationary import circular_rates, inertial_rates  # noqa: E402
-from probe.detectors.models import TwoLevelProbe  # noqa: E402
+from probe.detectors import TwoLevelProbe  # noqa: E402
 
 M_RB = 86.909180531 * sc.atomic_mass
 

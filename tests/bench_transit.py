@@ -47,7 +47,7 @@ from scipy import constants as sc  # noqa: E402
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from probe.gas.condensate import Condensate  # noqa: E402
-from probe.detectors.models import TwoLevelProbe  # noqa: E402
+from probe.detectors import TwoLevelProbe  # noqa: E402
 from probe.detectors.switching import PathSpan  # noqa: E402
 from probe.engines.transit import transit_probabilities  # noqa: E402
 from trajectories import Spline  # noqa: E402

@@ -9,7 +9,7 @@ from probe.gas.condensate import Condensate
 from probe.scenarios.config import (load_config, override, rates_from_config, read_toml,
                           scenario_from_dict, species_mass)
 from probe.errors import InputError
-from probe.detectors.models import DensityProbe, TwoLevelProbe
+from probe.detectors import DensityProbe, TwoLevelProbe
 
 U = sc.atomic_mass
 HBAR = sc.hbar

@@ -28,7 +28,7 @@ from probe.gas.condensate import Condensate
 from probe.gas.dispersion import Bogoliubov
 from probe.engines.stationary import circular_rates, inertial_rates, stationary_rates
 from probe.errors import ModelError
-from probe.detectors.models import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
+from probe.detectors import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
 from trajectories import Circular, Linear
 
 HBAR, KB = sc.hbar, sc.k

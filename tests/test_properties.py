@@ -32,7 +32,7 @@ from probe.gas.condensate import Condensate
 from probe.scenarios.config import scenario_from_dict
 from probe.engines.stationary import circular_rates, inertial_rates
 from probe.errors import ModelError
-from probe.detectors.models import DensityProbe, TwoLevelProbe
+from probe.detectors import DensityProbe, TwoLevelProbe
 
 HBAR, KB = sc.hbar, sc.k
 M_RB = 86.909180531 * sc.atomic_mass   # 87Rb, atomic mass evaluation (from memory)

@@ -5,7 +5,7 @@ from scipy import constants as sc
 from scipy.special import zeta
 
 from probe.gas.condensate import Condensate
-from probe.detectors.models import DensityProbe, TwoLevelProbe
+from probe.detectors import DensityProbe, TwoLevelProbe
 from probe.engines.regime import regime_warnings
 from probe.engines.results import RateResult
 

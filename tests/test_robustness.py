@@ -30,7 +30,7 @@ from probe.gas.condensate import Condensate
 from probe.engines.stationary import (GAP_RANGE, MAX_SPEED_OVER_C, STATIC_SPEED, circular_rates,
                           inertial_rates)
 from probe.errors import ModelError
-from probe.detectors.models import DensityProbe, TwoLevelProbe
+from probe.detectors import DensityProbe, TwoLevelProbe
 
 pytestmark = pytest.mark.filterwarnings("error::RuntimeWarning")
 

@@ -17,7 +17,7 @@ from scipy import integrate, special
 from probe.gas.condensate import Condensate
 from probe.engines.stationary import circular_rates, inertial_rates
 from probe.errors import InputError, ModelError
-from probe.detectors.models import DensityProbe, TwoLevelProbe
+from probe.detectors import DensityProbe, TwoLevelProbe
 from probe.detectors.switching import Gaussian, PathSpan, Window
 from probe.engines.transit import transit_probabilities
 from trajectories import Circular, Linear, Spline

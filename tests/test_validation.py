@@ -21,7 +21,7 @@ from probe.gas.condensate import Condensate
 from probe.scenarios.config import load_config, override, scenario_from_dict
 from probe.engines.stationary import circular_rates, inertial_rates
 from probe.errors import InputError
-from probe.detectors.models import DensityProbe, TwoLevelProbe
+from probe.detectors import DensityProbe, TwoLevelProbe
 from probe.scenarios.units import parse_quantity, parse_vector
 
 DOC = Path(__file__).resolve().parents[1] / "docs" / "bad_inputs.md"

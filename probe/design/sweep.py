@@ -480,7 +480,7 @@ class RatesEvaluator:
     def evaluate(self, scenario, arrays, n):
         """Rows (n, columns) and per-point warning lists for ``n`` points;
         ``arrays`` maps engine arguments (speed, radius, gap) to SI arrays."""
-        from probe.detectors.models import TwoLevelProbe
+        from probe.detectors import TwoLevelProbe
         from probe.engines.regime import regime_warnings
 
         cond, probe = scenario.condensate, scenario.probe

@@ -1,8 +1,16 @@
-"""Detectors: how the probe couples to the gas (probe models, registered in
-``PROBE_MODELS``) and how its coupling is switched on and off in time
-(``switching``)."""
-from probe.detectors.models import (PROBE_MODELS, DensityProbe, ProbeModel, TwoLevelProbe,
-                                    coupling_from_scattering_length)
+"""Detectors: how the probe couples to the gas.
 
-__all__ = ["PROBE_MODELS", "DensityProbe", "ProbeModel", "TwoLevelProbe",
-           "coupling_from_scattering_length"]
+Each probe model is one module with one subclass of
+:class:`probe.detectors.base.ProbeModel` and one entry in ``PROBE_MODELS``
+(the scenario key ``probe.model``); ``switching`` holds the functions that
+switch the coupling on and off in time.
+"""
+from probe.detectors.base import Channel, ProbeModel, RateContext, coupling_from_scattering_length
+from probe.detectors.density import DensityProbe
+from probe.detectors.two_level import TwoLevelProbe, effective_temperature
+
+#: ``probe.model`` name -> class
+PROBE_MODELS = {"two-level": TwoLevelProbe, "density": DensityProbe}
+
+__all__ = ["PROBE_MODELS", "Channel", "DensityProbe", "ProbeModel", "RateContext",
+           "TwoLevelProbe", "coupling_from_scattering_length", "effective_temperature"]

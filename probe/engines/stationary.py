@@ -33,7 +33,9 @@ from probe.engines.bessel import jv_int as jv
 from probe.gas.dispersion import Bogoliubov, Phonon
 from probe.errors import InputError, ModelError
 from probe.engines.quadrature import integrate
+from probe.detectors.base import RateContext
 from probe.engines.results import RateResult
+from probe.quantities import guarded_names
 
 HBAR = sc.hbar
 KB = sc.k
@@ -687,10 +689,10 @@ def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=2_00
 # ---------------------------------------------------------------------------
 # SI layer
 # ---------------------------------------------------------------------------
-def _prefactor(cond, probe):
+def _prefactor(cond, coupling):
     """A xi^-d / (c/xi): converts dimensionless integrals to 1/s."""
     try:
-        A = (probe.coupling / HBAR) ** 2 * cond.density
+        A = (coupling / HBAR) ** 2 * cond.density
         pref = A * cond.healing_length ** (-cond.dimension) / cond.frequency_unit
     except OverflowError:
         pref = math.inf
@@ -698,7 +700,7 @@ def _prefactor(cond, probe):
         raise ModelError(
             "probe.coupling",
             f"the rate scale (kappa/hbar)^2 n xi^-d / (c/xi) = {pref:.4g} s^-1 "
-            f"for kappa = {probe.coupling:.4g} J m^{cond.dimension} and density "
+            f"for kappa = {coupling:.4g} J m^{cond.dimension} and density "
             f"n = {cond.density:.4g} m^-{cond.dimension} is not a finite positive "
             "number; coupling or density is far outside the range of first-order "
             "perturbation theory in a dilute gas")
@@ -706,8 +708,6 @@ def _prefactor(cond, probe):
 
 
 def _gas(cond, probe):
-    if cond.dimension == 1 and probe.width > 0:
-        pass
     return _Gas(cond.dispersion, cond.dimension, probe.width / cond.healing_length,
                 KB * cond.temperature / cond.energy_unit)
 
@@ -721,31 +721,21 @@ def _check_array(name, x, allow_zero=True):
     return x
 
 
-def _finish_two_level(cond, gap, up, down, up_err=None, down_err=None,
-                      up_positive=False):
-    """Effective temperature hbar Omega / (k_B ln(down/up)) and excited
-    population.  Where ln(down/up) is not larger than 4 times its own error
-    (from the rates' error estimates) the effective temperature is not
-    determined and is NaN (the regime warnings say so and give a bound).
-    ``up_positive`` marks points whose up rate cannot vanish (a warm gas, or
-    circular motion): there an up rate of 0 has underflowed, and the
-    effective temperature is NaN too, not 0."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = down / up
-        log = np.log(ratio)
-        teff = HBAR * gap / (KB * log)
-        if up_err is not None:
-            unc = 4.0 * (up_err / up + down_err / down)
-            teff = np.where((up > 0) & ~(np.abs(log) > unc), np.nan, teff)
-        zero = up == 0
-        teff = np.where(zero, np.where(up_positive & (down > 0), np.nan, 0.0), teff)
-        pop = np.where(up + down > 0, up / (up + down), 0.0)
-    return teff, pop
+def _channels(probe, gap):
+    """The probe model's channels with their detunings checked as arrays."""
+    out = []
+    for ch in probe.channels(gap):
+        det = np.asarray(ch.detuning, float)
+        if ch.gapped:
+            det = _check_array(ch.key, det, allow_zero=False)
+        out.append((ch, det))
+    return out
 
 
-def _range_checks(condensate, probe, speed, gap=None, radius=None):
+def _range_checks(condensate, speed, gaps=(), radius=None):
     """ModelError where an input leaves the range the engine is checked over
-    (MAX_SPEED_OVER_C, GAP_RANGE, MIN_RADIUS_OVER_XI)."""
+    (MAX_SPEED_OVER_C, GAP_RANGE, MIN_RADIUS_OVER_XI); ``gaps`` are
+    ``(key, detuning)`` pairs of the gapped channels."""
     c, xi, w0 = condensate.sound_speed, condensate.healing_length, condensate.frequency_unit
     v = np.asarray(speed, float) / c
     if np.any(v > MAX_SPEED_OVER_C):
@@ -755,23 +745,8 @@ def _range_checks(condensate, probe, speed, gap=None, radius=None):
             f"{_at(bad)}the speed {np.max(v):.4g} c_s ({np.max(v) * c:.4g} m/s) is "
             f"above the largest the engine handles, {MAX_SPEED_OVER_C:g} c_s "
             f"({MAX_SPEED_OVER_C * c:.4g} m/s)")
-    if gap is not None:
-        W = np.asarray(gap, float) / w0
-        lo, hi = GAP_RANGE
-        if np.any(W < lo):
-            raise ModelError(
-                "probe.gap",
-                f"{_at(W < lo)}the gap Omega = {np.min(W):.4g} c/xi "
-                f"({np.min(W) * w0:.4g} rad/s) is below {lo:g} c/xi: there the "
-                "two-level probe is the structureless one (up and down rates "
-                "agree); use probe.model = \"density\"")
-        if np.any(W > hi):
-            raise ModelError(
-                "probe.gap",
-                f"{_at(W > hi)}the gap Omega = {np.max(W):.4g} c/xi "
-                f"({np.max(W) * w0:.4g} rad/s) is above {hi:g} c/xi, where the "
-                "resonant k xi exceeds 1e6 and the contact-coupled Bogoliubov "
-                "gas is no model")
+    for key, gap in gaps:
+        _gap_range_check(key, np.asarray(gap, float) / w0, w0)
     if radius is not None:
         R = np.asarray(radius, float) / xi
         if np.any(R < MIN_RADIUS_OVER_XI):
@@ -783,6 +758,24 @@ def _range_checks(condensate, probe, speed, gap=None, radius=None):
                 "speed 0)")
 
 
+def _gap_range_check(key, W, w0):
+    lo, hi = GAP_RANGE
+    if np.any(W < lo):
+        raise ModelError(
+            key,
+            f"{_at(W < lo)}the gap Omega = {np.min(W):.4g} c/xi "
+            f"({np.min(W) * w0:.4g} rad/s) is below {lo:g} c/xi: there the "
+            "two-level probe is the structureless one (up and down rates "
+            "agree); use probe.model = \"density\"")
+    if np.any(W > hi):
+        raise ModelError(
+            key,
+            f"{_at(W > hi)}the gap Omega = {np.max(W):.4g} c/xi "
+            f"({np.max(W) * w0:.4g} rad/s) is above {hi:g} c/xi, where the "
+            "resonant k xi exceeds 1e6 and the contact-coupled Bogoliubov "
+            "gas is no model")
+
+
 def _at(mask):
     """'at N of M grid points, ' for an array mask, '' for a scalar."""
     mask = np.asarray(mask)
@@ -791,53 +784,57 @@ def _at(mask):
     return f"at {int(np.count_nonzero(mask))} of {mask.size} grid points, "
 
 
-def _threshold_checks(condensate, probe, vv, WW):
+def _threshold_checks(condensate, gapped, vv, WW):
     """ModelError at a speed where a rate is singular: exactly (within
     rounding, AT_THRESHOLD) at the up threshold in 1D (the rate diverges as
     1/sqrt(v - v_th): the two up-window edges merge, a caustic) and 2D (the up
-    rate jumps from 0 to a finite value), at the sound speed for the 1D
-    density probe (1/sqrt(v - c)) and for the 1D phonon dispersion."""
+    rate jumps from 0 to a finite value), at the sound speed for a 1D channel
+    without detuning (1/sqrt(v - c)) and for the 1D phonon dispersion."""
     d = condensate.dimension
-    disp = condensate.dispersion
     if d == 3:
         return
     v = np.asarray(vv, float).ravel()
     W = np.asarray(WW, float).ravel()
-    if probe.has_gap:
-        if disp.bounded_windows:
-            vt, _ = disp.threshold(W)
-            near = np.abs(v - vt) <= AT_THRESHOLD * vt
-            how = {1: "the 1D up rate diverges as 1/sqrt(v - v_th) there (the "
-                      "two edges of the resonant window merge)",
-                   2: "the 2D up rate jumps there from 0 to a finite value"}[d]
-            if np.any(near):
-                i = int(np.argmax(near))
-                raise ModelError(
-                    "trajectory.speed",
-                    f"{_at(near)}the speed {v[i]:.15g} c_s is the up-transition "
-                    f"threshold speed v_th = {vt[i]:.15g} c_s (to within "
-                    f"{AT_THRESHOLD:g} relative, the rounding of both): {how}, so "
-                    "the rate is undefined; give a speed further from v_th")
-        elif d == 1:
-            near = np.abs(v - 1.0) <= AT_THRESHOLD
-            if np.any(near):
-                raise ModelError(
-                    "trajectory.speed",
-                    f"{_at(near)}with the 'phonon' dispersion in 1D the rates "
-                    "diverge as (v - c)^-2 at the sound speed, and the speed "
-                    "is the sound speed (to within rounding); give another "
-                    "speed or use 'bogoliubov'")
+    if gapped:
+        _gapped_threshold_check(condensate.dispersion, d, v, W)
     elif d == 1:
         near = np.abs(v - 1.0) <= AT_THRESHOLD
         if np.any(near):
             why = ("the 1D emission rate is zero below the sound speed and "
-                   "diverges as 1/sqrt(v - c) above it" if disp.bounded_windows
+                   "diverges as 1/sqrt(v - c) above it"
+                   if condensate.dispersion.bounded_windows
                    else "with the 'phonon' dispersion every wavenumber is "
                    "resonant at the sound speed")
             raise ModelError(
                 "trajectory.speed",
                 f"{_at(near)}the speed is the sound speed (to within rounding): "
                 f"{why}, so at v = c it is undefined; give another speed")
+
+
+def _gapped_threshold_check(disp, d, v, W):
+    if disp.bounded_windows:
+        vt, _ = disp.threshold(W)
+        near = np.abs(v - vt) <= AT_THRESHOLD * vt
+        how = {1: "the 1D up rate diverges as 1/sqrt(v - v_th) there (the "
+                  "two edges of the resonant window merge)",
+               2: "the 2D up rate jumps there from 0 to a finite value"}[d]
+        if np.any(near):
+            i = int(np.argmax(near))
+            raise ModelError(
+                "trajectory.speed",
+                f"{_at(near)}the speed {v[i]:.15g} c_s is the up-transition "
+                f"threshold speed v_th = {vt[i]:.15g} c_s (to within "
+                f"{AT_THRESHOLD:g} relative, the rounding of both): {how}, so "
+                "the rate is undefined; give a speed further from v_th")
+    elif d == 1:
+        near = np.abs(v - 1.0) <= AT_THRESHOLD
+        if np.any(near):
+            raise ModelError(
+                "trajectory.speed",
+                f"{_at(near)}with the 'phonon' dispersion in 1D the rates "
+                "diverge as (v - c)^-2 at the sound speed, and the speed "
+                "is the sound speed (to within rounding); give another "
+                "speed or use 'bogoliubov'")
 
 
 def _error_check(name, value, error, key="trajectory.speed"):
@@ -858,16 +855,12 @@ def _error_check(name, value, error, key="trajectory.speed"):
             "rate diverges; give a speed further from it")
 
 
-_GUARDED = ("up_rate", "down_rate", "up_rate_error", "down_rate_error",
-            "emission_rate", "emission_rate_error", "absorption_rate",
-            "power", "drag_force")
-
-
 def _guard(condensate, probe, res):
     """Never hand back a silent NaN, inf or negative rate: ModelError naming
-    the quantity and the inputs (in the gas's units) instead."""
-    for name in _GUARDED:
-        value = getattr(res, name)
+    the quantity and the inputs (in the gas's units) instead.  Which
+    quantities are guarded is declared in the quantity registry."""
+    for name in guarded_names():
+        value = getattr(res, name, None)
         if value is None:
             continue
         a = np.asarray(value, float)
@@ -878,8 +871,8 @@ def _guard(condensate, probe, res):
             inputs = (f"speed {_max_of(res.speed) / condensate.sound_speed:.4g} c_s, "
                       f"temperature {KB * condensate.temperature / condensate.energy_unit:.4g} "
                       f"mu/k_B, width {probe.width / condensate.healing_length:.4g} xi")
-            if probe.has_gap:
-                inputs += f", gap {_max_of(res.gap if res.gap is not None else probe.gap) / w0:.4g} c/xi"
+            if res.gap is not None:
+                inputs += f", gap {_max_of(res.gap) / w0:.4g} c/xi"
             raise ModelError(
                 "inputs",
                 f"{_at(bad)}the {name.replace('_', ' ')} is {what} ({float(a[bad].flat[0])!r}) "
@@ -905,6 +898,42 @@ def _shape(x, shape):
     return float(x) if x.ndim == 0 else x
 
 
+#: processes of a channel with a detuning (up, down) and without (emission,
+#: absorption, and the energy moment that gives the power)
+_GAPPED = ("up", "down")
+_GAPLESS = ("emission", "absorption", "energy")
+
+
+def _si_channel(cond, ch, out, keys=None):
+    """Dimensionless kernel output of one channel -> SI (value, error) per
+    process: rates in 1/s, the energy moment as a power in W."""
+    pref = _prefactor(cond, ch.coupling)
+    raw = {}
+    for k in keys or (_GAPPED if ch.gapped else _GAPLESS):
+        val, err = (np.asarray(x, float) for x in out[k])
+        if k == "energy":
+            raw["power"] = (val * pref * HBAR * cond.frequency_unit, err * pref)
+        else:
+            raw[k] = (val * pref, _tiny_floor((val, err)) * pref)
+    return raw
+
+
+def _build_result(condensate, probe, kind, raw, speed, detunings, shape, up_cannot_vanish):
+    """RateResult from the SI channel results: the probe model names and
+    combines them into its outputs."""
+    res = RateResult(kind=kind, model=probe.name, sound_speed=condensate.sound_speed,
+                     healing_length=condensate.healing_length,
+                     chemical_potential=condensate.chemical_potential)
+    ctx = RateContext(kind, condensate, speed, detunings, up_cannot_vanish)
+    for name, value in probe.rate_results(raw, ctx).items():
+        setattr(res, name, _shape(value, shape))
+    res.speed = _shape(speed, shape)
+    gapped = [d for d in detunings.values() if np.all(d > 0)]
+    if gapped:
+        res.gap = _shape(gapped[0], shape)
+    return res
+
+
 def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
     """Golden-rule rates for uniform straight motion at ``speed`` (m/s).
 
@@ -912,53 +941,24 @@ def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
     Returns a :class:`RateResult` with arrays of the broadcast shape.
     """
     speed = _check_array("trajectory.speed", speed)
-    c, xi, w0 = condensate.sound_speed, condensate.healing_length, condensate.frequency_unit
+    c, w0 = condensate.sound_speed, condensate.frequency_unit
     gas = _gas(condensate, probe)
-    pref = _prefactor(condensate, probe)
-    res = RateResult(kind="inertial", model=probe.name, sound_speed=c,
-                     healing_length=xi, chemical_potential=condensate.chemical_potential)
-    if probe.has_gap:
-        gap = _check_array("probe.gap", probe.gap if gap is None else gap, allow_zero=False)
-        _range_checks(condensate, probe, speed, gap)
-        vv, WW = np.broadcast_arrays(speed / c, gap / w0)
-        shape = vv.shape
-        _threshold_checks(condensate, probe, vv, WW)
-        out = inertial_kernel(gas, vv, WW, gas.s, rtol=rtol)
-        _error_check("up rate", out["up"][0], out["up"][1])
-        _error_check("down rate", out["down"][0], out["down"][1])
-        up, dn = out["up"][0] * pref, out["down"][0] * pref
-        up_err = _tiny_floor(out["up"]) * pref
-        dn_err = _tiny_floor(out["down"]) * pref
-        res.up_rate, res.down_rate = _shape(up, shape), _shape(dn, shape)
-        res.up_rate_error = _shape(up_err, shape)
-        res.down_rate_error = _shape(dn_err, shape)
-        teff, pop = _finish_two_level(condensate, WW.ravel() * w0, up, dn,
-                                      up_err, dn_err,
-                                      up_positive=condensate.temperature > 0)
-        res.effective_temperature = _shape(teff, shape)
-        res.excited_population = _shape(pop, shape)
-        vt, _ = condensate.dispersion.threshold(WW.ravel())
-        res.up_threshold_speed = _shape(vt * c, shape)
-        res.speed = _shape(vv.ravel() * c, shape)
-        res.gap = _shape(WW.ravel() * w0, shape)
-    else:
-        _range_checks(condensate, probe, speed)
-        vv = np.asarray(speed / c, float)
-        shape = vv.shape
-        _threshold_checks(condensate, probe, vv, np.zeros(shape))
-        out = inertial_kernel(gas, vv, np.zeros(shape), gas.s, rtol=rtol, energy=True)
-        _error_check("emission rate", out["emission"][0], out["emission"][1])
-        res.emission_rate = _shape(out["emission"][0] * pref, shape)
-        res.emission_rate_error = _shape(_tiny_floor(out["emission"]) * pref, shape)
-        res.absorption_rate = _shape(out["absorption"][0] * pref, shape)
-        # net energy per unit time: (1+n) - n = 1 weight, hbar w per quantum
-        power = out["energy"][0] * pref * HBAR * w0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            drag = np.where(vv.ravel() > 0, power / (vv.ravel() * c), 0.0)
-        res.power = _shape(power, shape)
-        res.drag_force = _shape(drag, shape)
-        res.speed = _shape(vv.ravel() * c, shape)
-    return _with_regime(condensate, probe, res, rtol=rtol)
+    channels = _channels(probe, gap)
+    _range_checks(condensate, speed, [(ch.key, det) for ch, det in channels if ch.gapped])
+    shape = np.broadcast_shapes(np.shape(speed), *(np.shape(det) for _, det in channels))
+    vv = np.broadcast_to(speed / c, shape)
+    raw, detunings = {}, {}
+    for ch, det in channels:
+        WW = np.broadcast_to(det / w0, shape)
+        _threshold_checks(condensate, ch.gapped, vv, WW)
+        out = inertial_kernel(gas, vv, WW, gas.s, rtol=rtol, energy=not ch.gapped)
+        for k in (_GAPPED if ch.gapped else _GAPLESS[:1]):
+            _error_check(f"{'emission' if k == 'emission' else k} rate", out[k][0], out[k][1])
+        raw[ch.label] = _si_channel(condensate, ch, out)
+        detunings[ch.label] = WW.ravel() * w0
+    return _with_regime(condensate, probe, _build_result(
+        condensate, probe, "inertial", raw, vv.ravel() * c, detunings, shape,
+        up_cannot_vanish=condensate.temperature > 0), rtol=rtol)
 
 
 def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
@@ -969,33 +969,49 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
     A point whose harmonic sum is predicted (``circular_work``) to need more
     than ``max_bessel_evaluations`` Bessel functions (about 0.4 us each) is
     refused with a ModelError before any work; raise the limit to wait."""
-    d = condensate.dimension
-    if d == 1:
+    if condensate.dimension == 1:
         raise InputError("trajectory.kind",
                          "a circular path needs a 2D or 3D gas; this gas is 1D")
     radius = _check_array("trajectory.radius", radius, allow_zero=False)
     speed = _check_array("trajectory.speed", speed)
     c, xi, w0 = condensate.sound_speed, condensate.healing_length, condensate.frequency_unit
     gas = _gas(condensate, probe)
-    pref = _prefactor(condensate, probe)
-    res = RateResult(kind="circular", model=probe.name, sound_speed=c,
-                     healing_length=xi, chemical_potential=condensate.chemical_potential)
-    gapv = probe.gap if gap is None else gap
-    if probe.has_gap:
-        gapv = _check_array("probe.gap", gapv, allow_zero=False)
-    _range_checks(condensate, probe, speed, gapv if probe.has_gap else None, radius)
-    RR, vv, WW = np.broadcast_arrays(radius / xi, speed / c, np.asarray(gapv, float) / w0)
-    shape = RR.shape
-    Rf, vf, Wf = RR.ravel(), vv.ravel(), WW.ravel()
+    channels = _channels(probe, gap)
+    _range_checks(condensate, speed, [(ch.key, det) for ch, det in channels if ch.gapped],
+                  radius)
+    shape = np.broadcast_shapes(np.shape(radius), np.shape(speed),
+                                *(np.shape(det) for _, det in channels))
+    Rf = np.broadcast_to(radius / xi, shape).ravel()
+    vf = np.broadcast_to(speed / c, shape).ravel()
+    raw, detunings = {}, {}
+    harmonics = np.zeros(Rf.size, dtype=int)
+    for ch, det in channels:
+        Wf = np.broadcast_to(det / w0, shape).ravel()
+        vals, errs, count = _circular_points(gas, Rf, vf, Wf, ch.gapped, rtol,
+                                             max_bessel_evaluations)
+        harmonics += count
+        keys = _GAPPED if ch.gapped else _GAPLESS
+        raw[ch.label] = _si_channel(condensate, ch, {k: (vals[k], errs[k]) for k in keys})
+        detunings[ch.label] = Wf * w0
+    res = _build_result(condensate, probe, "circular", raw, vf * c, detunings, shape,
+                        up_cannot_vanish=vf > 0)
+    res.radius = _shape(Rf * xi, shape)
+    res.harmonics = harmonics.reshape(shape) if shape else int(harmonics[0])
+    return _with_regime(condensate, probe, res, rtol=rtol)
+
+
+def _circular_points(gas, Rf, vf, Wf, gapped, rtol, max_bessel_evaluations):
+    """The circular kernel point by point (a probe at rest by the inertial
+    kernel): dimensionless values and errors per process, harmonics used."""
     n = Rf.size
-    keys = ("up", "down") if probe.has_gap else ("emission", "absorption", "energy")
+    keys = _GAPPED if gapped else _GAPLESS
     vals = {k: np.zeros(n) for k in keys}
     errs = {k: np.zeros(n) for k in keys}
     harmonics = np.zeros(n, dtype=int)
     for i in range(n):
         if vf[i] == 0:
             o = inertial_kernel(gas, np.array([0.0]), np.array([Wf[i]]), gas.s,
-                                rtol=rtol, energy=not probe.has_gap)
+                                rtol=rtol, energy=not gapped)
             for k in keys:
                 vals[k][i] = o[k][0][0]
                 errs[k][i] = o[k][1][0]
@@ -1003,36 +1019,12 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
         _work_check(gas, Rf[i], vf[i], Wf[i], float(gas.s), rtol,
                     max_bessel_evaluations, n)
         o = circular_kernel(gas, Rf[i], vf[i], Wf[i], float(gas.s), rtol=rtol,
-                            energy=not probe.has_gap,
+                            energy=not gapped,
                             max_evaluations=2 * max_bessel_evaluations)
         for k in keys:
             vals[k][i], errs[k][i] = o[k]
         harmonics[i] = o["harmonics"]
-    res.speed = _shape(vf * c, shape)
-    res.radius = _shape(Rf * xi, shape)
-    res.harmonics = harmonics.reshape(shape) if shape else int(harmonics[0])
-    if probe.has_gap:
-        up, dn = vals["up"] * pref, vals["down"] * pref
-        up_err = _tiny_floor((vals["up"], errs["up"])) * pref
-        dn_err = _tiny_floor((vals["down"], errs["down"])) * pref
-        res.up_rate, res.down_rate = _shape(up, shape), _shape(dn, shape)
-        res.up_rate_error = _shape(up_err, shape)
-        res.down_rate_error = _shape(dn_err, shape)
-        teff, pop = _finish_two_level(condensate, Wf * w0, up, dn, up_err, dn_err,
-                                      up_positive=vf > 0)
-        res.effective_temperature = _shape(teff, shape)
-        res.excited_population = _shape(pop, shape)
-        res.gap = _shape(Wf * w0, shape)
-    else:
-        res.emission_rate = _shape(vals["emission"] * pref, shape)
-        res.emission_rate_error = _shape(
-            _tiny_floor((vals["emission"], errs["emission"])) * pref, shape)
-        res.absorption_rate = _shape(vals["absorption"] * pref, shape)
-        power = vals["energy"] * pref * HBAR * w0
-        res.power = _shape(power, shape)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            res.drag_force = _shape(np.where(vf > 0, power / (vf * c), 0.0), shape)
-    return _with_regime(condensate, probe, res, rtol=rtol)
+    return vals, errs, harmonics
 
 
 def _clearly_cheap(gas, R, v, W, s, limit):

@@ -703,10 +703,11 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
     tu = 1.0 / w0                                   # time unit xi/c, s
     s = probe.width / xi
     Tdl = KB * condensate.temperature / condensate.energy_unit
-    if probe.has_gap:
-        gap = np.asarray(probe.gap, float)
+    (channel,) = probe.channels()
+    if channel.gapped:
+        gap = np.asarray(channel.detuning, float)
         if gap.ndim:
-            raise InputError("probe.gap", "a transit needs a single gap, got an array")
+            raise InputError(channel.key, "a transit needs a single gap, got an array")
         Om = float(gap) / w0
         Ds = (Om, -Om)
     else:
@@ -808,7 +809,7 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
             pool.shutdown()
 
     # --- SI results -------------------------------------------------------
-    A = (probe.coupling / HBAR) ** 2 * condensate.density
+    A = (channel.coupling / HBAR) ** 2 * condensate.density
     pref = A * xi ** (-d) * tu ** 2
     vals = {k: v * pref for k, v in out["values"].items()}
     err_total = {ch: sum(out["errors"][k][ch] for k in out["errors"]) * pref
@@ -816,22 +817,17 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
     res = TransitResult(model=probe.name, dimension=d, sound_speed=c,
                         healing_length=xi,
                         chemical_potential=condensate.chemical_potential)
-    if probe.has_gap:
+    if channel.gapped:
         res.gap = Om * w0
-        res.up_probability = vals["up"]
-        res.down_probability = vals["down"]
-        res.up_probability_error = err_total["up"]
-        res.down_probability_error = err_total["down"]
-        res.emitted_phonons = vals["up_emission"]
-        res.emitted_phonons_error = err_total["up"]
-        res.emitted_phonons_excited = vals["down_emission"]
-        probs = {"up": res.up_probability, "down": res.down_probability}
+        raw = {"up": (vals["up"], err_total["up"]), "down": (vals["down"], err_total["down"]),
+               "up_emission": vals["up_emission"], "down_emission": vals["down_emission"]}
     else:
-        res.emitted_phonons = vals["emission"]
-        res.emitted_phonons_error = err_total["emission"]
-        res.absorbed_phonons = vals["absorption"]
-        probs = {"emission (D = 0)": res.emitted_phonons}
-    res.emitted_energy = vals["energy"] * HBAR * w0
+        raw = {"emission": (vals["emission"], err_total["emission"]),
+               "absorption": vals["absorption"]}
+    raw["energy"] = vals["energy"] * HBAR * w0
+    values, probs = probe.transit_results({channel.label: raw})
+    for name, value in values.items():
+        setattr(res, name, value)
     res.achieved_rtol = out["achieved"]
     res.error_budget = {k: {ch: v * pref for ch, v in e.items()}
                         for k, e in out["errors"].items()}
@@ -849,20 +845,20 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
                 f"> {_BREAKDOWN}; the golden-rule result is not reliable")
     res.warnings = warnings
     if spectrum:
-        res.spectrum = _spectrum_si(out, pref, xi, c, w0, d, probe.has_gap, disp)
+        res.spectrum = _spectrum_si(out, pref, xi, c, w0, d, channel.gapped, disp)
     return res
 
 
-def _spectrum_si(out, pref, xi, c, w0, d, has_gap, disp):
+def _spectrum_si(out, pref, xi, c, w0, d, gapped, disp):
     sp = out["spectrum"]
     q = sp["q"]
     vg = disp.group_velocity(q)
     spec = {"k": q / xi, "dk": sp["wq"] / xi, "energy": HBAR * w0 * disp.omega(q)}
-    main = "em_plus" if has_gap else "em0"
+    main = "em_plus" if gapped else "em0"
     dn_dq = sp["dN_dq"][main] * pref
     spec["dN_dk"] = dn_dq * xi
     spec["dN_dE"] = dn_dq / (HBAR * w0 * np.where(vg > 0, vg, np.inf))
-    if has_gap:
+    if gapped:
         spec["dN_dk_excited"] = sp["dN_dq"]["em_minus"] * pref * xi
     dirs = sp["directions"]
     if d == 3:
@@ -870,19 +866,19 @@ def _spectrum_si(out, pref, xi, c, w0, d, has_gap, disp):
         spec["cos_theta_edges"] = sp["edges"]
         spec["cos_theta"] = 0.5 * (sp["edges"][1:] + sp["edges"][:-1])
         spec["dN_dcos_theta"] = dirs[main] * pref
-        if has_gap:
+        if gapped:
             spec["dN_dcos_theta_excited"] = dirs["em_minus"] * pref
     elif d == 2:
         spec["axis"] = sp["axis"]
         spec["phi_edges"] = sp["edges"]
         spec["phi"] = 0.5 * (sp["edges"][1:] + sp["edges"][:-1])
         spec["dN_dphi"] = dirs[main] * pref
-        if has_gap:
+        if gapped:
             spec["dN_dphi_excited"] = dirs["em_minus"] * pref
     else:
         spec["dN_forward"] = float(dirs[main][0] * pref)
         spec["dN_backward"] = float(dirs[main][1] * pref)
-        if has_gap:
+        if gapped:
             spec["dN_forward_excited"] = float(dirs["em_minus"][0] * pref)
             spec["dN_backward_excited"] = float(dirs["em_minus"][1] * pref)
     return spec

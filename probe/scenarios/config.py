@@ -37,7 +37,7 @@ from scipy import constants as sc
 
 from probe.gas.condensate import Condensate
 from probe.errors import InputError
-from probe.detectors.models import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
+from probe.detectors import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
 from probe.scenarios.units import parse_quantity, parse_vector
 
 # ---------------------------------------------------------------------------

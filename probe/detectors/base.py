@@ -1,0 +1,197 @@
+"""What every probe model shares, and the interface through which the
+engines talk to a model without knowing which one it is.
+
+The interaction is ``H = kappa chi(t) O int d^dx rho_p(x - x(t)) drho(x)``
+with ``rho_p`` a normalised isotropic Gaussian of rms width ``s`` per
+direction, whose form factor is ``|F(k)|^2 = exp(-k^2 s^2)``, and ``O`` the
+probe operator of the model (``sigma_x`` for a two-level detector, 1 for a
+structureless impurity).
+
+A model owns its physics:
+
+- ``channels(gap)``: the golden-rule integrals it needs, each a
+  :class:`Channel` (a coupling and a detuning; the engines evaluate the up and
+  down processes of a channel with detuning > 0, and the emission, absorption
+  and emitted power of one with detuning 0);
+- ``rate_results(raw, context)`` and ``transit_results(raw, context)``: how
+  the channel results combine into its outputs, named in the quantity
+  registry (``probe.quantities``) and listed in ``rate_outputs`` and
+  ``transit_outputs``;
+- ``array_keys``: the configuration keys that the engines take as arrays
+  (broadcast with speed and radius);
+- ``regime_warnings(condensate, result)``: the checks of validity that
+  belong to the model.
+
+A new model is one module with one subclass, and one line in
+``probe.detectors.PROBE_MODELS``.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import constants as sc
+
+from probe.errors import InputError
+
+HBAR = sc.hbar
+KB = sc.k
+
+
+def _number(key, value):
+    """``value`` as a float; InputError for booleans, strings and non-numbers
+    (the library takes SI numbers; strings with units are for probe.config)."""
+    if isinstance(value, (bool, np.bool_, str, bytes)):
+        raise InputError(key, f"must be a number in SI units, got {value!r} "
+                              "(strings with units are read by probe.config)")
+    try:
+        return float(value)
+    except (TypeError, ValueError, OverflowError):
+        raise InputError(key, f"must be a number, got {value!r}") from None
+
+
+def _nonneg(key, value, allow_zero=True):
+    v = _number(key, value)
+    if not math.isfinite(v):
+        raise InputError(key, f"must be finite, got {v}")
+    if v < 0 or (v == 0 and not allow_zero):
+        raise InputError(key, f"must be {'>= 0' if allow_zero else '> 0'}, got {v}")
+    return v
+
+
+def coupling_from_scattering_length(a_pb, boson_mass, probe_mass, condensate,
+                                    width=0.0):
+    """Probe-boson coupling kappa_d (J m^d) from the probe-boson s-wave
+    scattering length ``a_pb`` (m, may be negative).
+
+    3D: ``kappa_3 = 2 pi hbar^2 a_pb / m_r`` with the reduced mass
+    ``m_r = m m_p/(m + m_p)``.  In a quasi-2D (quasi-1D) gas each frozen
+    direction contributes the overlap of the condensate's transverse Gaussian
+    (variance ``l^2/2``, ``l = sqrt(hbar/(m w_perp))``) with the probe's
+    (variance ``s^2``): ``1/sqrt(2 pi (l^2/2 + s^2))``.  With ``s^2 = l^2/2``
+    and equal masses this reproduces the gas's own g_2 (Petrov-Holzmann-
+    Shlyapnikov 2000) and g_1 (Olshanii 1998) reductions.
+    """
+    a_pb = _number("probe.coupling_length", a_pb)
+    if not math.isfinite(a_pb):
+        raise InputError("probe.coupling_length", f"must be finite, got {a_pb}")
+    m_p = _nonneg("probe.mass", probe_mass, allow_zero=False)
+    m = _nonneg("condensate.mass", boson_mass, allow_zero=False)
+    width = _nonneg("probe.width", width)
+    m_r = m * m_p / (m + m_p)
+    kappa3 = 2 * math.pi * HBAR**2 * a_pb / m_r
+    d = condensate.dimension
+    if d == 3:
+        return kappa3
+    l = condensate.transverse_length
+    overlap_1 = 1.0 / math.sqrt(2 * math.pi * (0.5 * l * l + width * width))
+    return kappa3 * overlap_1 ** (3 - d)
+
+
+
+@dataclass(frozen=True)
+class Channel:
+    """One golden-rule integral the engines evaluate for a probe model.
+
+    ``label`` names the channel in the raw results handed back to the model;
+    ``detuning`` is the probe's transition frequency Omega (rad/s, a number or
+    an array; 0 for a structureless coupling); ``coupling`` is kappa (J m^d);
+    ``key`` is the configuration key to name in messages about the detuning.
+    """
+
+    label: str
+    detuning: object
+    coupling: float
+    key: str = "probe.gap"
+
+    @property
+    def gapped(self):
+        """True when the channel has up and down processes (detuning > 0)."""
+        return bool(np.all(np.asarray(self.detuning, float) > 0))
+
+
+@dataclass
+class RateContext:
+    """What a model needs besides the raw channel results to form its outputs
+    (flattened arrays of the broadcast grid, SI).
+
+    ``kind`` is the stationary motion ("inertial" or "circular"); ``speed``
+    (m/s); ``detuning`` maps channel labels to their detunings (rad/s);
+    ``up_cannot_vanish``: where an up rate of 0 can only be an underflow (a
+    warm gas, or circular motion)."""
+
+    kind: str
+    condensate: object
+    speed: np.ndarray
+    detuning: dict
+    up_cannot_vanish: object = False
+
+
+class ProbeModel:
+    """Common work: coupling, width and the Gaussian form factor.
+
+    Parameters
+    ----------
+    coupling : kappa in J m^d (the gas's dimension), any sign
+    width : rms width s of the probe density per direction, m (0: point)
+    """
+
+    name = "base"
+    #: True when the probe has an internal gap and makes up/down transitions
+    has_gap = False
+    #: the outputs of stationary rates and of finite transits (names in
+    #: ``probe.quantities.QUANTITIES``)
+    rate_outputs: tuple = ()
+    transit_outputs: tuple = ()
+    #: configuration keys the engines take as arrays -> engine argument name
+    array_keys: dict = {}
+
+    def __init__(self, coupling, width=0.0):
+        c = _number("probe.coupling", coupling)
+        if not math.isfinite(c) or c == 0:
+            raise InputError("probe.coupling",
+                             f"must be finite and nonzero, got {coupling!r}")
+        self.coupling = c
+        self.width = _nonneg("probe.width", width)
+
+    @property
+    def gap(self):
+        """Angular gap frequency Omega, rad/s (0 for a structureless probe)."""
+        return 0.0
+
+    def form_factor_sq(self, k):
+        """|F(k)|^2 = exp(-k^2 s^2) for wavenumber ``k`` (1/m)."""
+        k = np.asarray(k, float)
+        return np.exp(-(k * self.width) ** 2)
+
+    def describe(self):
+        return {"model": self.name, "coupling": self.coupling,
+                "width": self.width, "gap": self.gap}
+
+    # --- the interface to the engines ----------------------------------------
+    def channels(self, gap=None):
+        """The :class:`Channel` s the engines evaluate; ``gap`` (rad/s)
+        replaces the configured gap where the model has one."""
+        raise NotImplementedError
+
+    def rate_results(self, raw, context):
+        """Outputs (name -> SI array) from the raw stationary channel results:
+        ``raw[label]`` maps process names to ``(value, error)`` in SI (``up``,
+        ``down`` in 1/s for a channel with a detuning; ``emission``,
+        ``absorption`` in 1/s and ``power`` in W for one without)."""
+        raise NotImplementedError
+
+    def transit_results(self, raw):
+        """Outputs of a finite transit from the raw channel probabilities
+        (``raw[label]``: ``up``, ``down`` as ``(P, error)`` and
+        ``up_emission``, ``down_emission`` for a channel with a detuning;
+        ``emission`` as ``(N, error)`` and ``absorption`` without one; and
+        ``energy`` (J) of the main emission channel).  Returns ``(values,
+        checked)``: the outputs, and the probabilities (label -> value) that
+        the transit engine checks against first order and its floor."""
+        raise NotImplementedError
+
+    def regime_warnings(self, condensate, result):
+        """Validity checks that belong to this model (sentences)."""
+        return []
