@@ -1,0 +1,130 @@
+"""A two-state impurity atom dressed by a Rabi drive: the sigma_x coupling of
+the two-level detector, engineered from two scattering lengths.
+
+The impurity's states ``a`` and ``b`` (``b`` above ``a`` by hbar w_0 in free
+space) couple to the density as ``kappa_a |a><a| + kappa_b |b><b|``.  With
+``kappa_bar = (kappa_a + kappa_b)/2``, ``lambda = (kappa_b - kappa_a)/2``, a
+drive of Rabi frequency Omega_R at detuning ``delta = w_drive - w_0`` from the
+free-space transition, and the mean density ``n`` split off
+(``rho = n + drho``), the rotating-frame Hamiltonian is
+
+    H = (hbar/2)(-delta_gas tau_z + Omega_R tau_x) + (kappa_bar + lambda tau_z) drho,
+    delta_gas = delta - 2 lambda n / hbar          (mean-field shift)
+
+Rotating to the dressed basis (the dressed atom: C. Cohen-Tannoudji,
+J. Dupont-Roc, G. Grynberg, *Atom-Photon Interactions*, Wiley 1992) with
+``Omega_eff = sqrt(Omega_R^2 + delta_gas^2)``, ``sin(theta) = Omega_R/Omega_eff``,
+``cos(theta) = delta_gas/Omega_eff``:
+
+- transition (sigma_x) coupling ``kappa_t = |lambda| sin(theta)`` between the
+  dressed states, gap ``Omega_eff``: the two-level detector;
+- diagonal difference ``2 |lambda| cos(theta)``: pure dephasing between the
+  dressed states, rate ``(1/2)(2 lambda cos(theta)/hbar)^2 n int d^dk/(2pi)^d
+  S |F|^2 (1 + 2 n_k) 2 pi delta(w_k - k.v)``, half the emission plus
+  absorption rate of a structureless probe with that coupling;
+- the state-independent part ``kappa_bar`` (a drag, not a transition).
+
+On the in-gas resonance (``delta = 2 lambda n / hbar``) the detector is the
+two-level model with coupling ``|lambda|`` and gap ``Omega_R`` (J. Marino,
+A. Recati, I. Carusotto, PRL 118, 045301 (2017)).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from probe.detectors.base import HBAR, Channel, InputError, _number
+from probe.detectors.two_level import TwoLevelProbe
+
+
+def dressed_parameters(coupling_a, coupling_b, rabi_frequency, detuning, density):
+    """The dressed detector's parameters (SI): ``detuning_in_gas`` (rad/s),
+    ``gap`` Omega_eff (rad/s), ``sin_theta``, ``cos_theta``,
+    ``transition_coupling`` |lambda| sin(theta) and ``dephasing_coupling``
+    2 |lambda| |cos(theta)| (J m^d), ``mean_field_shift`` 2 lambda n / hbar."""
+    lam = 0.5 * (coupling_b - coupling_a)
+    shift = 2.0 * lam * density / HBAR
+    delta_gas = detuning - shift
+    gap = math.hypot(rabi_frequency, delta_gas)
+    sin_t, cos_t = rabi_frequency / gap, delta_gas / gap
+    return {"detuning_in_gas": delta_gas, "gap": gap, "sin_theta": sin_t,
+            "cos_theta": cos_t, "transition_coupling": abs(lam) * sin_t,
+            "dephasing_coupling": 2.0 * abs(lam) * abs(cos_t),
+            "mean_field_shift": shift}
+
+
+class DressedProbe(TwoLevelProbe):
+    """Rabi-dressed two-state impurity (see the module docstring).
+
+    Parameters (SI): ``coupling_a``, ``coupling_b`` (J m^d, the gas's
+    dimension, any sign, not equal), ``rabi_frequency`` Omega_R (rad/s,
+    > 0), ``detuning`` delta from the free-space transition (rad/s, any
+    sign), ``density`` n of the gas (m^-d) that shifts the resonance, and the
+    probe ``width`` (m).
+    """
+
+    name = "dressed"
+    rate_outputs = TwoLevelProbe.rate_outputs + (
+        "dephasing_rate", "transition_coupling", "detuning_in_gas")
+    transit_outputs = TwoLevelProbe.transit_outputs
+    array_keys = {}
+
+    def __init__(self, coupling_a, coupling_b, rabi_frequency, detuning=0.0,
+                 density=0.0, width=0.0):
+        ka = _finite("probe.coupling_a", coupling_a)
+        kb = _finite("probe.coupling_b", coupling_b)
+        if ka == kb:
+            raise InputError("probe.coupling_length_b",
+                             "equals the coupling of state a: the two states then "
+                             "couple alike and the drive leaves no transition "
+                             "coupling (kappa_b - kappa_a = 0); give different "
+                             "scattering lengths")
+        rabi = _finite("probe.rabi_frequency", rabi_frequency)
+        if rabi <= 0:
+            raise InputError("probe.rabi_frequency", f"must be > 0, got {rabi!r} rad/s")
+        delta = _finite("probe.detuning", detuning)
+        n = _finite("condensate.density", density)
+        p = dressed_parameters(ka, kb, rabi, delta, n)
+        super().__init__(p["gap"], p["transition_coupling"], width)
+        self.coupling_a, self.coupling_b = ka, kb
+        self.rabi_frequency, self.detuning, self.density = rabi, delta, n
+        self.parameters = p
+
+    def channels(self, gap=None):
+        if gap is not None:
+            raise InputError("probe.gap", "the dressed detector's gap follows from "
+                                          "rabi_frequency and detuning; vary those")
+        out = [Channel("gap", self.gap, self.coupling, key="probe.rabi_frequency")]
+        if self.parameters["dephasing_coupling"] > 0:
+            out.append(Channel("dephasing", 0.0, self.parameters["dephasing_coupling"],
+                               key="probe.detuning"))
+        return tuple(out)
+
+    def rate_results(self, raw, context):
+        out = super().rate_results(raw, context)
+        up = np.asarray(out["up_rate"], float)
+        if "dephasing" in raw:
+            em, ab = raw["dephasing"]["emission"][0], raw["dephasing"]["absorption"][0]
+            out["dephasing_rate"] = 0.5 * (em + ab)
+        else:   # on the in-gas resonance: no diagonal difference
+            out["dephasing_rate"] = np.zeros_like(up)
+        out["transition_coupling"] = np.full_like(up, self.coupling)
+        out["detuning_in_gas"] = np.full_like(up, self.parameters["detuning_in_gas"])
+        return out
+
+    def describe(self):
+        out = super().describe()
+        out.update(coupling_a=self.coupling_a, coupling_b=self.coupling_b,
+                   rabi_frequency=self.rabi_frequency, detuning=self.detuning,
+                   detuning_in_gas=self.parameters["detuning_in_gas"],
+                   transition_coupling=self.coupling,
+                   dephasing_coupling=self.parameters["dephasing_coupling"])
+        return out
+
+
+def _finite(key, value):
+    v = _number(key, value)
+    if not math.isfinite(v):
+        raise InputError(key, f"must be finite, got {v!r}")
+    return v
