@@ -195,3 +195,8 @@ class ProbeModel:
     def regime_warnings(self, condensate, result):
         """Validity checks that belong to this model (sentences)."""
         return []
+
+    def transit_warnings(self, values):
+        """Checks of a finite transit's outputs (name -> value) that belong to
+        this model (sentences)."""
+        return []

@@ -34,7 +34,8 @@ import math
 
 import numpy as np
 
-from probe.detectors.base import HBAR, Channel, InputError, _number
+from probe.detectors.base import (HBAR, Channel, InputError, _number,
+                                  coupling_from_scattering_length)
 from probe.detectors.two_level import TwoLevelProbe
 
 
@@ -113,6 +114,25 @@ class DressedProbe(TwoLevelProbe):
         out["detuning_in_gas"] = np.full_like(up, self.parameters["detuning_in_gas"])
         return out
 
+    @classmethod
+    def from_scattering_lengths(cls, length_a, length_b, boson_mass, probe_mass, condensate,
+                                rabi_frequency, detuning=0.0, width=0.0):
+        """The dressed detector of an impurity of mass ``probe_mass`` whose
+        states scatter off the bosons with lengths ``length_a``, ``length_b``
+        (m): each coupling as for a single-state probe (reduced mass; the
+        transverse overlap in a quasi-low-dimensional gas)."""
+        ka = coupling_from_scattering_length(length_a, boson_mass, probe_mass, condensate, width)
+        kb = coupling_from_scattering_length(length_b, boson_mass, probe_mass, condensate, width)
+        probe = cls(ka, kb, rabi_frequency, detuning, condensate.density, width)
+        probe.scattering_lengths = (float(length_a), float(length_b))
+        return probe
+
+    def regime_warnings(self, condensate, result):
+        out = super().regime_warnings(condensate, result)
+        out += _suppression_warnings(self)
+        out += scattering_length_warnings(self, condensate)
+        return out
+
     def describe(self):
         out = super().describe()
         out.update(coupling_a=self.coupling_a, coupling_b=self.coupling_b,
@@ -121,6 +141,45 @@ class DressedProbe(TwoLevelProbe):
                    transition_coupling=self.coupling,
                    dephasing_coupling=self.parameters["dephasing_coupling"])
         return out
+
+
+#: below this sin^2(theta) the drive is far from the in-gas resonance and the
+#: transition coupling is strongly suppressed (common practice: a factor 10)
+SUPPRESSION_LIMIT = 0.1
+#: |a| above this fraction of the healing length leaves the linear (Born)
+#: coupling to the density (common practice: 0.1)
+LENGTH_OVER_XI_LIMIT = 0.1
+
+
+def _suppression_warnings(probe):
+    p = probe.parameters
+    sin2 = p["sin_theta"] ** 2
+    if sin2 >= SUPPRESSION_LIMIT:
+        return []
+    two_pi = 2 * math.pi
+    return [f"the drive is detuned from the in-gas resonance by "
+            f"{p['detuning_in_gas'] / two_pi:.4g} Hz (the mean-field shift "
+            f"2 lambda n / h is {p['mean_field_shift'] / two_pi:.4g} Hz, the Rabi "
+            f"frequency {probe.rabi_frequency / two_pi:.4g} Hz): the transition coupling "
+            f"is suppressed to sin(theta) = {p['sin_theta']:.3g} of |kappa_b - kappa_a|/2 "
+            f"and the up and down rates by sin^2(theta) = {sin2:.3g}; a detuning of "
+            f"{p['mean_field_shift'] / two_pi:.4g} Hz drives on the in-gas resonance"]
+
+
+def scattering_length_warnings(probe, condensate):
+    """Scattering lengths not small against the healing length: the probe's
+    coupling to the density is then no longer linear (Born approximation)."""
+    lengths = getattr(probe, "scattering_lengths", None)
+    if not lengths:
+        return []
+    xi = condensate.healing_length
+    big = max(abs(a) for a in lengths)
+    if big <= LENGTH_OVER_XI_LIMIT * xi:
+        return []
+    return [f"an impurity-boson scattering length ({big * 1e9:.4g} nm) is not small "
+            f"against the healing length ({xi * 1e9:.4g} nm; limit "
+            f"{LENGTH_OVER_XI_LIMIT} xi): the coupling to the density is beyond the "
+            "linear (Born) picture the model assumes"]
 
 
 def _finite(key, value):

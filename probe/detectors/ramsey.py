@@ -24,7 +24,9 @@ from __future__ import annotations
 
 import math
 
-from probe.detectors.base import HBAR, Channel, InputError, ProbeModel, _number
+from probe.detectors.base import (HBAR, Channel, InputError, ProbeModel, _number,
+                                  coupling_from_scattering_length)
+from probe.detectors.dressed import scattering_length_warnings
 
 
 class RamseyProbe(ProbeModel):
@@ -75,7 +77,32 @@ class RamseyProbe(ProbeModel):
         if context is not None and "switching_integral" in context:
             values["mean_field_phase"] = mean_field_phase(
                 self.coupling_a, self.coupling_b, self.density, context["switching_integral"])
-        return values, {"dephasing (D = 0)": em}
+        # Lambda is exact for the linear coupling: no first-order check applies
+        return values, {}
+
+    def transit_warnings(self, values):
+        lam = values["decoherence_exponent"]
+        if lam <= 1.0:
+            return []
+        return [f"the contrast has fallen to {math.exp(-lam):.3g} (below 1/e; "
+                f"decoherence exponent {lam:.3g}): this is no breakdown of the "
+                "calculation (for a coupling linear in the density the exponent is "
+                "exact, not first order), but the fringe is hard to read; shorten the "
+                "interrogation or weaken the coupling"]
+
+    @classmethod
+    def from_scattering_lengths(cls, length_a, length_b, boson_mass, probe_mass, condensate,
+                                width=0.0):
+        """The Ramsey detector of an impurity of mass ``probe_mass`` whose
+        states scatter off the bosons with lengths ``length_a``, ``length_b`` (m)."""
+        ka = coupling_from_scattering_length(length_a, boson_mass, probe_mass, condensate, width)
+        kb = coupling_from_scattering_length(length_b, boson_mass, probe_mass, condensate, width)
+        probe = cls(ka, kb, condensate.density, width)
+        probe.scattering_lengths = (float(length_a), float(length_b))
+        return probe
+
+    def regime_warnings(self, condensate, result):
+        return scattering_length_warnings(self, condensate)
 
     def describe(self):
         out = super().describe()
