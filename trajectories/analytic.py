@@ -69,6 +69,43 @@ class Linear(Trajectory):
         self._check_evaluable()
         return float(self._speed) * np.abs(np.asarray(lag, float))
 
+    def _scaled_line(self, radii):
+        """Start and velocity in the coordinates x_i/R_i."""
+        radii = np.asarray(radii, float)
+        k = min(radii.size, self.ndim)
+        x0 = np.zeros(radii.size)
+        u = np.zeros(radii.size)
+        x0[:k] = self.start[:k] / radii[:k]
+        u[:k] = float(self._speed) * self.direction[:k] / radii[:k]
+        return x0, u
+
+    def times_within(self, radii, n=None):
+        """Entry and exit times of the ellipsoid ``sum (x_i/R_i)^2 < 1``
+        (roots of a quadratic in t), or ``None`` when the line misses it."""
+        self._check_evaluable()
+        x0, u = self._scaled_line(radii)
+        a, b, c = float(u @ u), 2.0 * float(x0 @ u), float(x0 @ x0) - 1.0
+        if a == 0:
+            return (-np.inf, np.inf) if c < 0 else None
+        disc = b * b - 4 * a * c
+        if disc <= 0:
+            return None
+        root = np.sqrt(disc)
+        # the numerically stable pair of roots
+        q = -0.5 * (b + np.copysign(root, b))
+        t1, t2 = q / a, (c / q if q != 0 else -q / a)
+        return float(min(t1, t2)), float(max(t1, t2))
+
+    def closest_approach(self, radii, n=None) -> float:
+        """Smallest ``sqrt(sum (x_i/R_i)^2)`` along the line (closed form)."""
+        self._check_evaluable()
+        x0, u = self._scaled_line(radii)
+        a = float(u @ u)
+        if a == 0:
+            return float(np.sqrt(x0 @ x0))
+        t = -float(x0 @ u) / a
+        return float(np.linalg.norm(x0 + u * t))
+
     def stationary_parameters(self) -> dict:
         """``{"speed": v}`` in m/s."""
         return {"speed": _plain(self._speed)}

@@ -20,7 +20,7 @@ import math
 from typing import Callable
 
 import numpy as np
-from scipy.optimize import minimize_scalar
+from scipy.optimize import brentq, minimize_scalar
 
 from ._errors import TrajectoryError
 
@@ -202,6 +202,41 @@ class Trajectory(abc.ABC):
         two-point functions then depend on the lag alone); ``None`` for a
         path where it depends on t."""
         return None
+
+    # -- regions -------------------------------------------------------------
+
+    def times_within(self, radii, n: int = DEFAULT_SAMPLES):
+        """``(t_in, t_out)``: the first entry into and the last exit from the
+        ellipsoid ``sum_i (x_i/R_i)^2 < 1`` centred at the origin (semi-axes
+        ``radii`` along the first ``len(radii)`` coordinates), or ``None``
+        when the path never enters it.  Sampled over ``time_span`` at ``n``
+        points and refined by root finding; paths defined for all times
+        override this."""
+        times = self.sample_times(n)
+        inside = self._ellipsoid_measure(times, radii) < 1.0
+        if not np.any(inside):
+            return None
+        idx = np.flatnonzero(inside)
+        t_in = self._edge_time(times, idx[0] - 1, idx[0], radii) if idx[0] > 0 else times[0]
+        last = idx[-1]
+        t_out = (self._edge_time(times, last, last + 1, radii)
+                 if last < times.size - 1 else times[-1])
+        return float(t_in), float(t_out)
+
+    def closest_approach(self, radii, n: int = DEFAULT_SAMPLES) -> float:
+        """Smallest ``sqrt(sum_i (x_i/R_i)^2)`` along the path (1 is the
+        ellipsoid's surface), sampled over ``time_span``."""
+        return float(np.sqrt(np.min(self._ellipsoid_measure(self.sample_times(n), radii))))
+
+    def _ellipsoid_measure(self, times, radii):
+        radii = np.asarray(radii, float)
+        x = self.position(times)
+        k = min(radii.size, self.ndim)
+        return np.sum((x[..., :k] / radii[:k]) ** 2, axis=-1)
+
+    def _edge_time(self, times, i, j, radii):
+        f = lambda s: float(self._ellipsoid_measure(np.array([s]), radii)[0]) - 1.0  # noqa: E731
+        return brentq(f, times[i], times[j], xtol=1e-15 * max(1.0, abs(times[j])))
 
     # -- speed scans and limits ---------------------------------------------
 

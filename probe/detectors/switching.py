@@ -257,3 +257,28 @@ class PathSpan(Window):
 
     def __repr__(self):
         return f"PathSpan(start={self.start!r}, stop={self.stop!r}, ramp={self.ramp!r})"
+
+
+class Crossing(Window):
+    """The coupling on while the probe crosses a region: a :class:`Window`
+    whose ramps of length ``ramp`` are centred on the entry time ``t_in`` and
+    the exit time ``t_out``, so that chi = 1/2 as the probe crosses the edge
+    and ``int chi dt = t_out - t_in`` exactly (the ramp's smooth step is
+    antisymmetric about its midpoint).  Needs ``0 <= ramp <= t_out - t_in``."""
+
+    def __init__(self, t_in, t_out, ramp):
+        a = _number("trajectory.start", t_in)
+        b = _number("trajectory.stop", t_out)
+        r = _number("trajectory.ramp", ramp)
+        if not b > a:
+            raise InputError("trajectory.switching",
+                             f"the crossing takes no time (entry {a:g} s, exit {b:g} s)")
+        if not 0 <= r <= (b - a):
+            raise InputError("trajectory.ramp",
+                             f"must be between 0 and the crossing time {b - a:.4g} s, "
+                             f"got {r:.4g} s")
+        super().__init__(a - 0.5 * r, b + 0.5 * r, r)
+        self.entry, self.exit = a, b
+
+    def __repr__(self):
+        return f"Crossing(t_in={self.entry!r}, t_out={self.exit!r}, ramp={self.ramp!r})"
