@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import constants as sc
 
+from probe.engines.stationary import MAX_SPEED_OVER_C
 from probe.errors import InputError
 
 HBAR = sc.hbar
@@ -134,9 +135,11 @@ def local_rates(trap, probe_at, rate_function, positions, speeds):
     densest = int(np.argmax(n))
     for i in np.flatnonzero(n > 0):
         gas = trap.local_gas(float(n[i]))
+        c[i] = gas.sound_speed
+        if speeds[i] > MAX_SPEED_OVER_C * gas.sound_speed:
+            continue            # the last sliver of the edge: see edge_sliver_warning
         probe = probe_at(gas)
         res = rate_function(gas, probe, float(speeds[i]))
-        c[i] = gas.sound_speed
         for name in probe.rate_outputs + ("gap",):
             value = getattr(res, name, None)
             if value is None:
@@ -279,6 +282,17 @@ def _rate_change_warnings(trap, res):
     return out
 
 
+def _edge_sliver_warnings(res):
+    """Samples so close to the edge that the local sound speed is below
+    1/MAX_SPEED_OVER_C of the probe's speed: their rates are set to 0."""
+    sliver = (res.density > 0) & (res.speed > MAX_SPEED_OVER_C * res.sound_speed)
+    if not np.any(sliver):
+        return []
+    return [f"within a sliver of the cloud's edge the probe is faster than "
+            f"{MAX_SPEED_OVER_C:g} local sound speeds {_fraction_text(sliver, res)}: "
+            "the rates there are taken as 0 (the local density vanishes)"]
+
+
 def _temperature_warnings(trap, res):
     gas = trap.gas
     if gas.temperature == 0:
@@ -314,4 +328,5 @@ def passage_warnings(trap, res):
     """Where the local-density picture or first order fails, each with the
     fraction of the passage."""
     return (_gradient_warnings(trap, res) + _rate_change_warnings(trap, res)
-            + _temperature_warnings(trap, res) + _first_order_warnings(res))
+            + _edge_sliver_warnings(res) + _temperature_warnings(trap, res)
+            + _first_order_warnings(res))
