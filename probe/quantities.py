@@ -5,17 +5,38 @@ A quantity is declared once, with
 
 - ``name``: its JSON key and CSV column (a contract: never rename);
 - ``kind``: the kind of physical quantity (``rate``, ``speed``, ``energy``,
-  ``dimensionless`` ...), which fixes the SI unit and how it is displayed
-  (``probe.design.sweep.display_unit``);
-- ``unit``: the SI unit text written in CSV headers (``up_rate [1/s]``);
-- ``label``: plain words for tables and messages; ``tex``: the plot label;
+  ``dimensionless`` ...), which fixes the SI unit (``SI_UNITS``: CSV headers,
+  ``up_rate [1/s]``), the unit of printed tables (``TABLE_UNITS``:
+  ``23.6 s^-1``) and of plots (``DISPLAY_UNITS``, through
+  ``probe.design.sweep.display_unit``);
+- ``label``: plain words for table rows and messages; ``tex``: the plot label;
 - ``guarded``: the engines refuse to return a NaN, an infinity or a negative
   number for it (a ``ModelError`` instead of a silent wrong number);
 - ``target``: ``probe solve --target NAME=VALUE`` may aim at it;
-- ``error``: the name of its error estimate, if it has one.
+- ``error``: the name of its error estimate, if it has one (tables print
+  ``value (+/- error)``);
+- ``role``: ``output`` (listed by the probe models in ``rate_outputs`` /
+  ``transit_outputs``), ``motion`` (an output of the stationary engine itself,
+  whatever the probe), ``derived`` (formed by the tools from the outputs),
+  ``grid`` (an engine argument: speed, radius, gap) or ``gas`` (the gas at a
+  point of a sweep);
+- ``needs``: for outputs that only some stationary motions have, what the
+  motion's engine must declare: an argument (``"radius"``: motion on a
+  circle) or a capability that is true (``"has_threshold"``);
+- ``headline``: rank among the headline results (those compared between
+  models, plotted by default and turned into mean rates of a transit): the
+  headline of a result is its outputs of the smallest nonzero rank;
+  ``plotted_with``: outputs drawn beside it in a default plot;
+- ``mean_rate``: the quantity that is this one per unit effective duration
+  of a transit (``mean_up_rate``);
+- ``note``: words printed after the value in tables, and ``note_with``: a
+  quantity whose presence in the result the note needs (the start of the
+  probe is named only where the result has both starts);
+- ``noun``: what the quantity is, in one word, for messages.
 
 Which quantities a result carries is declared by the probe model that
-produced it (``ProbeModel.rate_outputs`` / ``transit_outputs``).
+produced it (``ProbeModel.rate_outputs`` / ``transit_outputs``) and by the
+stationary engine of its motion.
 
 To add a quantity: one ``_add(...)`` line below, and let the probe model that
 produces it list its name.
@@ -24,13 +45,49 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-#: SI unit text (CSV headers, JSON docs) of each kind of quantity
+#: SI unit text (CSV headers, JSON docs) of each kind of quantity; ``d`` is
+#: the dimension of the gas (see :func:`si_unit`)
 SI_UNITS = {
     "rate": "1/s", "speed": "m/s", "length": "m", "temperature": "K", "time": "s",
     "frequency": "rad/s", "angular_frequency": "rad/s", "force": "N", "power": "W",
     "energy": "J", "mass": "kg", "dimensionless": "1", "count": "1",
     "coupling": "J m^d", "density": "m^-d", "phase": "rad",
 }
+
+#: unit and scale (value / scale is printed) of each kind in printed tables;
+#: kinds not listed are printed in their SI unit
+TABLE_UNITS = {
+    "rate": ("s^-1", 1.0), "temperature": ("nK", 1e-9), "speed": ("m/s", 1.0),
+    "force": ("N", 1.0), "power": ("W", 1.0), "energy": ("J", 1.0),
+    "dimensionless": ("", 1.0), "count": ("", 1.0),
+}
+
+#: units of each kind in plots and printed summaries, smallest first (the
+#: first that keeps the largest magnitude below 1000 is used)
+DISPLAY_UNITS = {
+    "length": ("nm", "um", "mm", "m"),
+    "speed": ("um/s", "mm/s", "m/s"),
+    "temperature": ("pK", "nK", "uK", "mK", "K"),
+    "time": ("us", "ms", "s"),
+}
+
+ROLES = ("output", "motion", "derived", "grid", "gas")
+
+
+def si_unit(kind, dimension=3):
+    """The SI unit (a pint-readable string) of ``kind`` in a gas of
+    ``dimension`` (densities m^-d, couplings J m^d)."""
+    if kind == "density":
+        return f"m^-{dimension}"
+    if kind == "coupling":
+        return "J m" if dimension == 1 else f"J m^{dimension}"
+    return SI_UNITS[kind]
+
+
+def table_unit(kind, dimension=3):
+    """``(unit, scale)`` of ``kind`` in printed tables: ``value / scale`` is
+    printed, followed by ``unit``."""
+    return TABLE_UNITS.get(kind) or (si_unit(kind, dimension), 1.0)
 
 
 @dataclass(frozen=True)
@@ -44,67 +101,94 @@ class Quantity:
     guarded: bool = False
     target: bool = False
     error: str | None = None
+    role: str = "output"
+    needs: str | None = None
+    headline: int = 0
+    plotted_with: tuple = ()
+    mean_rate: str | None = None
+    note: str = ""
+    note_with: str | None = None
+    noun: str = "result"
 
     @property
     def unit(self):
-        """SI unit text as written in CSV headers."""
-        return SI_UNITS[self.kind]
+        """SI unit text as written in CSV headers (3D for densities and
+        couplings; :func:`si_unit` for other dimensions)."""
+        return si_unit(self.kind)
 
     @property
     def plot_label(self):
         return self.tex or self.label
 
 
+
 QUANTITIES: dict[str, Quantity] = {}
 
 
-def _add(name, kind, label, tex="", guarded=False, target=False, error=None):
-    QUANTITIES[name] = Quantity(name, kind, label, tex, guarded, target, error)
+def _add(name, kind, label, tex="", guarded=False, target=False, error=None, **more):
+    if more.get("role", "output") not in ROLES:
+        raise ValueError(f"{name}: unknown role {more['role']!r}")
+    QUANTITIES[name] = Quantity(name, kind, label, tex, guarded, target, error, **more)
 
 
-# --- stationary rates -------------------------------------------------------
-_add("up_rate", "rate", "up rate", r"up rate $\Gamma_\uparrow$", True, True, "up_rate_error")
+# --- stationary rates (tables list a result's quantities in this order) ------
+_add("up_rate", "rate", "up rate", r"up rate $\Gamma_\uparrow$", True, True, "up_rate_error",
+     headline=1)
 _add("up_rate_error", "rate", "error of the up rate", r"error of $\Gamma_\uparrow$", True)
 _add("down_rate", "rate", "down rate", r"down rate $\Gamma_\downarrow$", True, True,
-     "down_rate_error")
+     "down_rate_error", headline=1)
 _add("down_rate_error", "rate", "error of the down rate", r"error of $\Gamma_\downarrow$", True)
+_add("up_threshold_speed", "speed", "up threshold speed", r"threshold speed $v_\mathrm{th}$",
+     needs="has_threshold")
 _add("effective_temperature", "temperature", "effective temperature",
      r"effective temperature $T_\mathrm{eff}$", target=True)
 _add("excited_population", "dimensionless", "excited population",
      "steady-state excited population", target=True)
-_add("up_threshold_speed", "speed", "up threshold speed", r"threshold speed $v_\mathrm{th}$")
 _add("emission_rate", "rate", "emission rate", "phonon emission rate", True, True,
-     "emission_rate_error")
+     "emission_rate_error", headline=2, plotted_with=("absorption_rate",))
 _add("emission_rate_error", "rate", "error of the emission rate",
      "error of the emission rate", True)
 _add("absorption_rate", "rate", "absorption rate", "phonon absorption rate", True, True)
 _add("drag_force", "force", "drag force", "drag force", True, True)
 _add("power", "power", "power to the gas", "power given to the gas", True, True)
-_add("harmonics", "count", "harmonics summed", "harmonics summed")
+_add("harmonics", "count", "harmonics summed", "harmonics summed", role="motion",
+     needs="radius")
 
 # --- finite transits ----------------------------------------------------------
 _add("up_probability", "dimensionless", "up probability", r"up probability $P_\uparrow$",
-     target=True, error="up_probability_error")
+     target=True, error="up_probability_error", headline=1, mean_rate="mean_up_rate",
+     noun="probability")
 _add("up_probability_error", "dimensionless", "error of the up probability")
 _add("down_probability", "dimensionless", "down probability",
-     r"down probability $P_\downarrow$", target=True, error="down_probability_error")
+     r"down probability $P_\downarrow$", target=True, error="down_probability_error",
+     headline=1, mean_rate="mean_down_rate", noun="probability")
 _add("down_probability_error", "dimensionless", "error of the down probability")
 _add("emitted_phonons", "dimensionless", "emitted phonons", "emitted phonons", target=True,
-     error="emitted_phonons_error")
+     error="emitted_phonons_error", headline=2, mean_rate="mean_emission_rate",
+     note="(starting in the ground state)", note_with="emitted_phonons_excited")
 _add("emitted_phonons_error", "dimensionless", "error of the emitted phonons")
-_add("emitted_phonons_excited", "dimensionless", "emitted phonons, excited start")
+_add("emitted_phonons_excited", "dimensionless", "emitted phonons, excited",
+     note="(starting excited)")
 _add("absorbed_phonons", "dimensionless", "absorbed phonons")
-_add("emitted_energy", "energy", "emitted energy")
+_add("emitted_energy", "energy", "emitted energy", note="(ground-state start)",
+     note_with="emitted_phonons_excited")
+_add("mean_up_rate", "rate", "mean up rate", role="derived",
+     note="(P_up / effective duration)")
+_add("mean_down_rate", "rate", "mean down rate", role="derived",
+     note="(P_down / effective duration)")
+_add("mean_emission_rate", "rate", "mean emission rate", role="derived",
+     note="(emitted phonons / effective duration)")
+_add("achieved_rtol", "dimensionless", "achieved accuracy", role="derived")
 
 # --- the gas and the grid (sweep columns) -----------------------------------
-_add("speed", "speed", "speed")
-_add("radius", "length", "radius")
-_add("gap", "frequency", "gap")
-_add("mach", "dimensionless", "speed over sound speed", "$v/c_s$")
-_add("sound_speed", "speed", "sound speed")
-_add("healing_length", "length", "healing length")
-_add("density", "density", "density")
-_add("temperature", "temperature", "temperature")
+_add("speed", "speed", "speed", role="grid")
+_add("radius", "length", "radius", role="grid")
+_add("gap", "frequency", "gap", role="grid")
+_add("mach", "dimensionless", "speed over sound speed", "$v/c_s$", role="gas")
+_add("sound_speed", "speed", "sound speed", role="gas")
+_add("healing_length", "length", "healing length", role="gas")
+_add("density", "density", "density", role="gas")
+_add("temperature", "temperature", "temperature", role="gas")
 
 
 def quantity(name):
@@ -128,5 +212,59 @@ def kind_of(name, default="dimensionless"):
     return q.kind if q is not None else default
 
 
-__all__ = ["Quantity", "QUANTITIES", "SI_UNITS", "quantity", "guarded_names",
-           "target_names", "kind_of"]
+def error_names():
+    """Names that are the error estimate of another quantity."""
+    return frozenset(q.error for q in QUANTITIES.values() if q.error)
+
+
+def in_registry_order(names):
+    """The registered quantities among ``names``, in registry order."""
+    wanted = set(names)
+    return [n for n in QUANTITIES if n in wanted]
+
+
+def headline(names):
+    """The headline quantities among ``names`` (result columns or outputs):
+    those of the smallest nonzero ``headline`` rank, in the given order;
+    without any ranked one, the first output that is not an error estimate."""
+    ranked = [n for n in names if n in QUANTITIES and QUANTITIES[n].headline]
+    if ranked:
+        best = min(QUANTITIES[n].headline for n in ranked)
+        return [n for n in ranked if QUANTITIES[n].headline == best]
+    errors = error_names()
+    return [n for n in names if n in QUANTITIES and QUANTITIES[n].role == "output"
+            and n not in errors][:1]
+
+
+def default_plotted(names):
+    """Quantities drawn when none is asked for: the headline ones and the
+    outputs they are plotted with."""
+    out = []
+    for n in headline(names):
+        out += [n] + [m for m in QUANTITIES[n].plotted_with if m in names]
+    return out
+
+
+def stationary_outputs(probe, engine=None):
+    """Names of the quantities of stationary rates for ``probe``: the
+    outputs the model lists (``rate_outputs``) and those of the motion's
+    engine (role ``motion``), restricted to what ``engine`` produces (see
+    :func:`produced_by`; every one when ``engine`` is None)."""
+    names = list(probe.rate_outputs)
+    names += [q.name for q in QUANTITIES.values() if q.role == "motion" and q.name not in names]
+    return [n for n in names if engine is None or produced_by(engine, n)]
+
+
+def produced_by(engine, name):
+    """True when stationary motion by ``engine`` (an entry of
+    ``probe.engines.stationary.STATIONARY_ENGINES``) gives quantity
+    ``name``: its ``needs`` is one of the engine's arguments or a capability
+    the engine declares true."""
+    need = QUANTITIES[name].needs
+    return need is None or need in engine.arguments or getattr(engine, need, False) is True
+
+
+__all__ = ["Quantity", "QUANTITIES", "SI_UNITS", "TABLE_UNITS", "DISPLAY_UNITS", "ROLES",
+           "si_unit", "table_unit", "quantity", "guarded_names", "target_names", "kind_of",
+           "error_names", "in_registry_order", "headline", "default_plotted",
+           "stationary_outputs", "produced_by"]

@@ -1,6 +1,7 @@
 """What every command shares: the clean one-line refusal (``error: <key>:
-<message>``, exit status 2), number formatting for tables, and files written
-whole or not at all."""
+<message>``, exit status 2), number formatting for tables (result quantities
+by their entry in ``probe.quantities``), and files written whole or not at
+all."""
 from __future__ import annotations
 
 import math
@@ -10,8 +11,10 @@ import tempfile
 
 import click
 import numpy as np
+from scipy import constants as sc
 
 from probe.errors import InputError, ModelError
+from probe.quantities import error_names, in_registry_order, quantity, table_unit
 
 EXIT_INPUT = 2
 
@@ -71,13 +74,68 @@ def q(x, unit, scale=1.0):
     return f"{num(a / scale)} {unit}".rstrip()
 
 
-def rate(rate, err):
-    if rate is None:
-        return "-"
-    text = q(rate, "s^-1")
-    if err is not None:
-        text += f"  (+/- {num(err, 2)} s^-1)"
-    return text
+def _speed_extra(value, sound_speed):
+    return f"  ({num(np.asarray(value, float) / sound_speed)} c_s)"
+
+
+def _energy_extra(value, sound_speed):
+    return f"  (E/h = {num(np.asarray(value, float) / sc.h)} Hz)"
+
+
+#: what a table adds after a value of each kind: a speed in units of the
+#: sound speed, an energy as a frequency E/h
+KIND_EXTRAS = {"speed": _speed_extra, "energy": _energy_extra}
+
+
+def quantity_text(name, value, error=None, note="", sound_speed=None, dimension=3):
+    """A result quantity (registered in ``probe.quantities``) for a table
+    row: the value in the table unit of its kind (a count as a whole number;
+    NaN: undetermined), ``(+/- error)``, what its kind adds
+    (:data:`KIND_EXTRAS`, which needs ``sound_speed`` for speeds) and
+    ``note``."""
+    qty = quantity(name)
+    a = np.asarray(value, float)
+    if a.ndim == 0 and math.isnan(float(a)):
+        return "undetermined (see warnings)"
+    if qty.kind == "count":
+        text = str(value)
+    else:
+        unit, scale = table_unit(qty.kind, dimension)
+        text = q(a, unit, scale)
+        if error is not None:
+            text += f"  (+/- {num(np.asarray(error, float) / scale, 2)}" \
+                    f"{' ' + unit if unit else ''})"
+    extra = KIND_EXTRAS.get(qty.kind)
+    if extra is not None:
+        text += extra(value, sound_speed)
+    return f"{text}  {note}" if note else text
+
+
+def result_rows(result, names, values=None, sound_speed=None, dimension=3):
+    """Table rows ``(label, text)`` of the quantities ``names`` of a result
+    (attributes of ``result``, or entries of ``values`` when given), in
+    registry order: error estimates beside their quantity, quantities
+    without a value left out, notes where the quantity they need is among
+    ``names``."""
+    present = set(names)
+    errors = error_names()
+
+    def value_of(name):
+        if values is not None and name in values:
+            return values[name]
+        return getattr(result, name, None)
+
+    rows = []
+    for name in in_registry_order(names):
+        value = value_of(name)
+        if name in errors or value is None:
+            continue
+        qty = quantity(name)
+        error = value_of(qty.error) if qty.error else None
+        note = qty.note if qty.note_with is None or qty.note_with in present else ""
+        rows.append((qty.label, quantity_text(name, value, error, note, sound_speed,
+                                              dimension)))
+    return rows
 
 
 def json_value(x):

@@ -13,104 +13,83 @@ import math
 import warnings
 
 import click
-import numpy as np
 from scipy import constants as sc
 
 from probe.cli.app import cli
-from probe.cli.common import fail, input_errors, num as _num, q as _q, rate as _rate, write_atomic, json_value as _json_value
+from probe.cli.common import (fail, input_errors, json_value, num, q, result_rows,
+                               write_atomic)
+from probe.quantities import stationary_outputs
 
 
-def _rows_inputs(sc_, info):
+def rows_inputs(sc_, info):
     cond = sc_.condensate
     gas, prb, trj = info["condensate"], info["probe"], info["trajectory"]
     d = cond.dimension
     c = cond.sound_speed
     rows = [("species", gas["species"] or "(mass given)"),
             ("dimension", f"{d}D"),
-            ("boson mass", f"{_q(cond.mass, 'kg')}  ({_num(cond.mass / sc.atomic_mass)} u)"),
-            ("density", _q(cond.density, f"m^-{d}")),
-            ("scattering length", _q(cond.scattering_length, "nm", 1e-9))]
+            ("boson mass", f"{q(cond.mass, 'kg')}  ({num(cond.mass / sc.atomic_mass)} u)"),
+            ("density", q(cond.density, f"m^-{d}")),
+            ("scattering length", q(cond.scattering_length, "nm", 1e-9))]
     if cond.transverse_frequency is not None:
         rows.append(("transverse frequency",
-                     f"{_q(cond.transverse_frequency / (2 * math.pi), 'Hz')}  "
-                     f"(w_perp = {_q(cond.transverse_frequency, 'rad/s')})"))
+                     f"{q(cond.transverse_frequency / (2 * math.pi), 'Hz')}  "
+                     f"(w_perp = {q(cond.transverse_frequency, 'rad/s')})"))
     if cond.size is not None:
-        rows.append(("uniform region radius", _q(cond.size, "um", 1e-6)))
-    rows += [("temperature", _q(cond.temperature, "nK", 1e-9)),
+        rows.append(("uniform region radius", q(cond.size, "um", 1e-6)))
+    rows += [("temperature", q(cond.temperature, "nK", 1e-9)),
              ("dispersion", gas["dispersion"]),
              ("probe model", prb["model"])]
     if prb["gap"] is not None:
-        rows.append(("gap Omega/(2 pi)", f"{_q(prb['gap'] / (2 * math.pi), 'Hz')}  "
-                                         f"(Omega = {_q(prb['gap'], 'rad/s')})"))
-    rows.append(("coupling kappa", _q(prb["coupling"], "J m" if d == 1 else f"J m^{d}")))
+        rows.append(("gap Omega/(2 pi)", f"{q(prb['gap'] / (2 * math.pi), 'Hz')}  "
+                                         f"(Omega = {q(prb['gap'], 'rad/s')})"))
+    rows.append(("coupling kappa", q(prb["coupling"], "J m" if d == 1 else f"J m^{d}")))
     if prb["mass"] is not None:
-        label = prb["species"] or f"{_num(prb['mass'] / sc.atomic_mass)} u"
-        rows.append(("probe mass", f"{_q(prb['mass'], 'kg')}  ({label})"))
-    rows.append(("probe width", _q(prb["width"], "um", 1e-6)))
+        label = prb["species"] or f"{num(prb['mass'] / sc.atomic_mass)} u"
+        rows.append(("probe mass", f"{q(prb['mass'], 'kg')}  ({label})"))
+    rows.append(("probe width", q(prb["width"], "um", 1e-6)))
     rows.append(("trajectory", trj["kind"]))
-    rows.append(("speed", f"{_q(trj['speed'], 'm/s')}  ({_num(trj['speed'] / c)} c_s)"))
+    rows.append(("speed", f"{q(trj['speed'], 'm/s')}  ({num(trj['speed'] / c)} c_s)"))
     if "radius" in trj:
-        rows.append(("radius", f"{_q(trj['radius'], 'um', 1e-6)}  "
-                               f"({_num(trj['radius'] / cond.healing_length)} xi)"))
-        rows.append(("angular frequency", _q(trj["angular_frequency"], "rad/s")))
+        rows.append(("radius", f"{q(trj['radius'], 'um', 1e-6)}  "
+                               f"({num(trj['radius'] / cond.healing_length)} xi)"))
+        rows.append(("angular frequency", q(trj["angular_frequency"], "rad/s")))
     return rows
 
 
-def _rows_derived(sc_, info):
+def rows_derived(sc_, info):
     der = info["derived"]
     mu = der["chemical_potential"]
-    rows = [("chemical potential", f"{_q(mu, 'J')}  (mu/h = {_num(mu / sc.h)} Hz, "
-                                   f"mu/k_B = {_num(mu / sc.k * 1e9)} nK)"),
-            ("sound speed c_s", _q(der["sound_speed"], "m/s")),
-            ("healing length", f"{_q(der['healing_length'], 'um', 1e-6)}  "
+    rows = [("chemical potential", f"{q(mu, 'J')}  (mu/h = {num(mu / sc.h)} Hz, "
+                                   f"mu/k_B = {num(mu / sc.k * 1e9)} nK)"),
+            ("sound speed c_s", q(der["sound_speed"], "m/s")),
+            ("healing length", f"{q(der['healing_length'], 'um', 1e-6)}  "
                                "(xi = hbar/(m c))"),
-            (f"gas parameter {der['gas_parameter_name']}", _num(der["gas_parameter"]))]
+            (f"gas parameter {der['gas_parameter_name']}", num(der["gas_parameter"]))]
     if der["critical_temperature"] is not None:
-        rows.append(("ideal-gas T_c", _q(der["critical_temperature"], "nK", 1e-9)))
+        rows.append(("ideal-gas T_c", q(der["critical_temperature"], "nK", 1e-9)))
     if der["transverse_length"] is not None:
-        rows.append(("transverse length", _q(der["transverse_length"], "um", 1e-6)))
+        rows.append(("transverse length", q(der["transverse_length"], "um", 1e-6)))
     return rows
 
 
-def _rows_results(sc_, result):
-    c = result.sound_speed
-    rows = []
-    if result.model == "density":
-        rows += [("emission rate", _rate(result.emission_rate, result.emission_rate_error)),
-                 ("absorption rate", _rate(result.absorption_rate, None)),
-                 ("drag force", _q(result.drag_force, "N")),
-                 ("power to the gas", _q(result.power, "W"))]
-    else:
-        rows += [("up rate", _rate(result.up_rate, result.up_rate_error)),
-                 ("down rate", _rate(result.down_rate, result.down_rate_error))]
-        if result.up_threshold_speed is not None:
-            vt = result.up_threshold_speed
-            rows.append(("up threshold speed",
-                         f"{_q(vt, 'm/s')}  ({_num(np.asarray(vt) / c)} c_s)"))
-        rows += [("effective temperature", _teff(result.effective_temperature)),
-                 ("excited population", _num(result.excited_population))]
-    if result.harmonics is not None:
-        rows.append(("harmonics summed", str(result.harmonics)))
-    transit = _transit(sc_, result)
+def rows_results(scenario, result):
+    """The results block of the table: the quantities of stationary rates
+    that the probe model and the motion give (``probe.quantities``), then the
+    expected numbers for a straight transit of the uniform region."""
+    names = stationary_outputs(scenario.probe)
+    rows = result_rows(result, names, sound_speed=result.sound_speed,
+                       dimension=scenario.condensate.dimension)
+    transit = _transit(scenario, result)
     if transit is not None:
-        rows.append(("transit time (uniform region)", _q(transit["time"], "ms", 1e-3)))
+        rows.append(("transit time (uniform region)", q(transit["time"], "ms", 1e-3)))
         if transit["expected_up"] is not None:
             rows.append(("expected transitions in it",
-                         f"up {_num(transit['expected_up'])}, "
-                         f"down {_num(transit['expected_down'])}"))
+                         f"up {num(transit['expected_up'])}, "
+                         f"down {num(transit['expected_down'])}"))
         else:
-            rows.append(("expected phonons emitted", _num(transit["expected_emitted"])))
+            rows.append(("expected phonons emitted", num(transit["expected_emitted"])))
     return rows
-
-
-def _teff(teff):
-    """The effective temperature in nK; 'undetermined' where it is NaN."""
-    if teff is None:
-        return "-"
-    a = np.asarray(teff, float)
-    if a.ndim == 0 and math.isnan(float(a)):
-        return "undetermined (see warnings)"
-    return _q(a, "nK", 1e-9)
 
 
 def _transit(scenario, result):
@@ -124,9 +103,9 @@ def _transit(scenario, result):
 def format_table(scenario, result):
     """The readable report for one scenario and its result."""
     info = scenario.describe()
-    blocks = [("Inputs", _rows_inputs(scenario, info)),
-              ("Derived", _rows_derived(scenario, info)),
-              ("Results", _rows_results(scenario, result))]
+    blocks = [("Inputs", rows_inputs(scenario, info)),
+              ("Derived", rows_derived(scenario, info)),
+              ("Results", rows_results(scenario, result))]
     width = max(len(label) for _, rows in blocks for label, _ in rows)
     lines = []
     if scenario.source:
@@ -156,7 +135,7 @@ def result_json(scenario, result):
     out["inputs"]["condensate"]["size"] = scenario.condensate.size
     transit = _transit(scenario, result)
     out["transit"] = None if transit is None else {
-        k: _json_value(v) for k, v in transit.items()}
+        k: json_value(v) for k, v in transit.items()}
     return out
 
 

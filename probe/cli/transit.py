@@ -38,12 +38,12 @@ import os
 from pathlib import Path
 
 import click
-from scipy import constants as sc
 
 from probe.cli.app import cli
-from probe.cli.common import fail as _fail, input_errors as _input_errors, num as _num, q as _q
-from probe.cli.rates import _rows_derived, _rows_inputs
+from probe.cli.common import fail, input_errors, num, q, result_rows
+from probe.cli.rates import rows_derived, rows_inputs
 from probe.errors import InputError
+from probe.quantities import headline, quantity
 from probe.scenarios.transit import _fmt_time, check_transit, describe
 
 _SET_HELP = ("Override a configuration entry, e.g. --set 'trajectory.switching_width=3 ms'. "
@@ -61,19 +61,11 @@ def _extras(scenario, result, info):
     out = {"transit_duration": sw["transit_duration"],
            "switching_on": sw["on_interval"],
            "effective_duration": teff}
-    if result.model == "density":
-        out["mean_emission_rate"] = result.emitted_phonons / teff
-    else:
-        out["mean_up_rate"] = result.up_probability / teff
-        out["mean_down_rate"] = result.down_probability / teff
+    for name in headline(scenario.probe.transit_outputs):
+        mean = quantity(name).mean_rate
+        if mean is not None:
+            out[mean] = getattr(result, name) / teff
     return out
-
-
-def _pm(value, err, unit=""):
-    text = f"{_num(value)}{' ' + unit if unit else ''}"
-    if err is not None:
-        text += f"  (+/- {_num(err, 2)}{' ' + unit if unit else ''})"
-    return text
 
 
 # ---------------------------------------------------------------------------
@@ -85,10 +77,10 @@ def _rows_path(scenario, info):
     trj = info["trajectory"]
     if scenario.trajectory.stationary:
         # the gas, probe and path rows of `probe rates`
-        return _rows_inputs(scenario, info)
+        return rows_inputs(scenario, info)
     stand_in = dict(info, trajectory={"kind": trj["kind"], "speed": trj["max_speed"]})
     rows = []
-    for label, value in _rows_inputs(scenario, stand_in):
+    for label, value in rows_inputs(scenario, stand_in):
         if label == "trajectory":
             break
         rows.append((label, value))
@@ -97,15 +89,15 @@ def _rows_path(scenario, info):
     rows += [("trajectory", f"spline of order {trj['order']} through "
                             f"{trj['waypoints']} waypoints{where}"),
              ("path time span", f"{_fmt_time(t0, t1 - t0)} .. {_fmt_time(t1, t1 - t0)}  "
-                                f"({_fmt_time(t1 - t0)}, {_num((t1 - t0) * cond.frequency_unit)}"
+                                f"({_fmt_time(t1 - t0)}, {num((t1 - t0) * cond.frequency_unit)}"
                                 " xi/c)"),
-             ("path length", f"{_q(trj['path_length'], 'um', 1e-6)}  "
-                             f"({_num(trj['path_length'] / xi)} xi)"),
-             ("start -> end point", f"{_q(trj['start_point'], 'um', 1e-6)} -> "
-                                    f"{_q(trj['end_point'], 'um', 1e-6)}"),
-             ("max speed", f"{_q(trj['max_speed'], 'm/s')}  "
-                           f"({_num(trj['max_speed'] / c)} c_s)"),
-             ("max acceleration", _q(trj["max_acceleration"], "m/s^2"))]
+             ("path length", f"{q(trj['path_length'], 'um', 1e-6)}  "
+                             f"({num(trj['path_length'] / xi)} xi)"),
+             ("start -> end point", f"{q(trj['start_point'], 'um', 1e-6)} -> "
+                                    f"{q(trj['end_point'], 'um', 1e-6)}"),
+             ("max speed", f"{q(trj['max_speed'], 'm/s')}  "
+                           f"({num(trj['max_speed'] / c)} c_s)"),
+             ("max acceleration", q(trj["max_acceleration"], "m/s^2"))]
     return rows
 
 
@@ -124,42 +116,24 @@ def _rows_switching(scenario, info):
             (f"coupling on (chi > {sw['on_level']:g})",
              f"{_fmt_time(t0, t1 - t0)} .. {_fmt_time(t1, t1 - t0)}"),
             ("transit duration", f"{_fmt_time(sw['transit_duration'])}  "
-                                 f"({_num(sw['transit_duration'] * w0)} xi/c)"),
+                                 f"({num(sw['transit_duration'] * w0)} xi/c)"),
             ("effective duration", f"{_fmt_time(sw['effective_duration'])}  "
                                    "(int chi^2 dt)"),
-            ("requested accuracy", f"transit_rtol = {_num(scenario.transit_rtol)}"
+            ("requested accuracy", f"transit_rtol = {num(scenario.transit_rtol)}"
                                    + ("" if scenario.transit_method == "auto" else
                                       f", transit_method = {scenario.transit_method!r}"))]
 
 
 def _rows_results(scenario, result, extras, files):
-    rows = []
-    E = result.emitted_energy
-    energy = f"{_q(E, 'J')}  (E/h = {_num(E / sc.h)} Hz)"
-    if result.model == "density":
-        rows += [("emitted phonons", _pm(result.emitted_phonons, result.emitted_phonons_error)),
-                 ("absorbed phonons", _num(result.absorbed_phonons)),
-                 ("emitted energy", energy),
-                 ("mean emission rate", f"{_q(extras['mean_emission_rate'], 's^-1')}  "
-                                        "(emitted phonons / effective duration)")]
-    else:
-        rows += [("up probability", _pm(result.up_probability, result.up_probability_error)),
-                 ("down probability", _pm(result.down_probability,
-                                          result.down_probability_error)),
-                 ("emitted phonons", _pm(result.emitted_phonons, result.emitted_phonons_error)
-                  + "  (starting in the ground state)"),
-                 ("emitted phonons, excited", f"{_num(result.emitted_phonons_excited)}  "
-                                              "(starting excited)"),
-                 ("emitted energy", energy + "  (ground-state start)"),
-                 ("mean up rate", f"{_q(extras['mean_up_rate'], 's^-1')}  "
-                                  "(P_up / effective duration)"),
-                 ("mean down rate", f"{_q(extras['mean_down_rate'], 's^-1')}  "
-                                    "(P_down / effective duration)")]
+    names = list(scenario.probe.transit_outputs)
+    names += [quantity(n).mean_rate for n in names if quantity(n).mean_rate in extras]
+    rows = result_rows(result, names, values=extras, sound_speed=result.sound_speed,
+                       dimension=scenario.condensate.dimension)
     g = result.grid or {}
-    rows += [("achieved accuracy", f"{_num(result.achieved_rtol, 3)}  (relative; requested "
-                                   f"{_num(scenario.transit_rtol)})"),
+    rows += [("achieved accuracy", f"{num(result.achieved_rtol, 3)}  (relative; requested "
+                                   f"{num(scenario.transit_rtol)})"),
              ("grid", f"{g.get('n_times')} times x {g.get('n_wavenumbers')} wavenumbers "
-                      f"(k_max xi = {_num(g.get('k_max', math.nan) * result.healing_length, 4)})"
+                      f"(k_max xi = {num(g.get('k_max', math.nan) * result.healing_length, 4)})"
                       + (f" x up to {g.get('max_directions')} directions"
                          if g.get("max_directions") else "")),
              ("amplitudes", _ROUTES.get(g.get("method"), "").format(**g))]
@@ -179,7 +153,7 @@ _ROUTES = {
 def format_transit_table(scenario, result, info, extras, files=()):
     """The readable report of one transit."""
     blocks = [("Inputs", _rows_path(scenario, info) + _rows_switching(scenario, info)),
-              ("Derived", _rows_derived(scenario, info)),
+              ("Derived", rows_derived(scenario, info)),
               ("Results", _rows_results(scenario, result, extras, files))]
     width = max(len(label) for _, rows in blocks for label, _ in rows)
     lines = [f"== {scenario.source} =="] if scenario.source else []
@@ -240,21 +214,21 @@ def spectrum_tables(scenario, result):
     sp = result.spectrum
     k = sp["k"]
     dk = sp["dk"]
-    gap = result.model != "density"
+    excited = "dN_dk_excited" in sp         # a second series: the probe starting excited
     total, err = result.emitted_phonons, result.emitted_phonons_error
     what = ("probe starting in its ground state (columns *_excited: starting excited)"
-            if gap else "density probe")
+            if excited else f"{result.model} probe")
     head = [f"# emitted-phonon distribution of a transit: {scenario.source or '(dict)'}",
             f"# channel: {what}",
-            f"# emitted_phonons = {_g(total)} +/- {_num(err, 2)}; "
-            f"achieved_rtol = {_num(result.achieved_rtol, 3)}",
+            f"# emitted_phonons = {_g(total)} +/- {num(err, 2)}; "
+            f"achieved_rtol = {num(result.achieved_rtol, 3)}",
             f"# sound_speed = {_g(result.sound_speed)} m/s, healing_length = "
             f"{_g(result.healing_length)} m"]
     rad = head + ["# sum(dN_dk * dk) over the rows = emitted_phonons "
                   "(dk: quadrature weight of the node)"]
     cols = ["k [1/m]", "energy [J]", "dk [1/m]", "dN_dk [m]", "dN_dE [1/J]"]
     data = [k, sp["energy"], dk, sp["dN_dk"], sp["dN_dE"]]
-    if gap:
+    if excited:
         cols.append("dN_dk_excited [m]")
         data.append(sp["dN_dk_excited"])
     rad.append(",".join(cols))
@@ -270,7 +244,7 @@ def spectrum_tables(scenario, result):
         cols = ["cos_theta_low [1]", "cos_theta_high [1]", "cos_theta [1]",
                 "dN_dcos_theta [1]"]
         data = [e[:-1], e[1:], sp["cos_theta"], sp["dN_dcos_theta"]]
-        if gap:
+        if excited:
             cols.append("dN_dcos_theta_excited [1]")
             data.append(sp["dN_dcos_theta_excited"])
     elif d == 2:
@@ -280,7 +254,7 @@ def spectrum_tables(scenario, result):
         e = sp["phi_edges"]
         cols = ["phi_low [rad]", "phi_high [rad]", "phi [rad]", "dN_dphi [1/rad]"]
         data = [e[:-1], e[1:], sp["phi"], sp["dN_dphi"]]
-        if gap:
+        if excited:
             cols.append("dN_dphi_excited [1/rad]")
             data.append(sp["dN_dphi_excited"])
     else:
@@ -288,7 +262,7 @@ def spectrum_tables(scenario, result):
                     "their sum = emitted_phonons")
         cols = ["direction [sign of k_x]", "dN [1]"]
         data = [[1, -1], [sp["dN_forward"], sp["dN_backward"]]]
-        if gap:
+        if excited:
             cols.append("dN_excited [1]")
             data.append([sp["dN_forward_excited"], sp["dN_backward_excited"]])
     dirs.append(",".join(cols))
@@ -335,7 +309,7 @@ def transit(configs, as_json, spectrum, overrides, removals):
     through waypoints, or a linear or circular path with a switching function."""
     from probe.scenarios.config import load_config
 
-    errors = _input_errors()
+    errors = input_errors()
     done = []
     try:
         if spectrum is not None:
@@ -354,7 +328,7 @@ def transit(configs, as_json, spectrum, overrides, removals):
                 files = write_spectrum(spectrum, scenario, result)
             done.append((scenario, result, info, _extras(scenario, result, info), files))
     except errors as exc:
-        _fail(exc)
+        fail(exc)
     if as_json:
         objs = [transit_json(*item) for item in done]
         click.echo(json.dumps(objs[0] if len(objs) == 1 else objs, indent=2,
