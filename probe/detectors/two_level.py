@@ -21,8 +21,10 @@ class TwoLevelProbe(ProbeModel):
     has_gap = True
     rate_outputs = ("up_rate", "up_rate_error", "down_rate", "down_rate_error",
                     "effective_temperature", "excited_population", "up_threshold_speed")
+    # the error of emitted_phonons (the emission term of up_probability) is
+    # that of up_probability: not an output of its own
     transit_outputs = ("up_probability", "up_probability_error", "down_probability",
-                       "down_probability_error", "emitted_phonons", "emitted_phonons_error",
+                       "down_probability_error", "emitted_phonons",
                        "emitted_phonons_excited", "emitted_energy")
     array_keys = {"probe.gap": "gap"}
 
