@@ -33,7 +33,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from probe.errors import InputError
-from probe.design.sweep import _fmt, _raw_config, axis_value_text, plan_sweep, sweep, write_csv
+from probe.design.sweep import axis_value_text, cell_text, plan_sweep, raw_config, sweep, write_csv
 
 COMPARISONS = ("probe", "dispersion", "width", "temperature")
 #: relative difference above which two models are said to differ
@@ -144,7 +144,7 @@ class Comparison:
         status = [v.status() for v in self.variants]
         rows = []
         for i in range(data.shape[0]):
-            cells = [_fmt(x, integer=(names[j] == "point")) for j, x in enumerate(data[i])]
+            cells = [cell_text(x, integer=(names[j] == "point")) for j, x in enumerate(data[i])]
             cells += [s[i] for s in status]
             rows.append(cells)
         write_csv(path, header, rows)
@@ -290,7 +290,7 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
     """
     from probe.scenarios.config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides, removals=removals)
+    raw, source = raw_config(config, overrides, removals=removals)
     plan = plan_sweep(raw, vary, log, source=source)
     base = plan.scenario
     varied = {a.key for a in plan.axes}

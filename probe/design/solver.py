@@ -17,9 +17,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from probe.errors import InputError
-from probe.design.sweep import (NUMERIC_KEYS, _fmt, _raw_config, check_numeric_key,
-                    column_kind, evaluate_point, format_value, plan_sweep, si_unit,
-                    sweep, write_csv)
+from probe.design.sweep import (NUMERIC_KEYS, cell_text, check_numeric_key, column_kind,
+                                display_unit, evaluate_point, format_value, plan_sweep,
+                                raw_config, si_unit, sweep, write_csv)
 
 # ---------------------------------------------------------------------------
 # threshold versus gap
@@ -70,7 +70,7 @@ class ThresholdTable:
 
     def to_csv(self, path):
         header = [f"{c} [{u}]" for c, u in zip(self.columns, self.units)]
-        rows = [[_fmt(x, integer=(self.columns[j] == "point")) for j, x in enumerate(r)]
+        rows = [[cell_text(x, integer=(self.columns[j] == "point")) for j, x in enumerate(r)]
                 for r in self.data]
         write_csv(path, header, rows)
 
@@ -110,7 +110,6 @@ class ThresholdTable:
 
 
 def _speed_display(values):
-    from probe.design.sweep import display_unit
     return display_unit("speed", "m/s", values)
 
 
@@ -121,7 +120,7 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
     ``overrides`` edit the configuration first (as ``--unset``, ``--set``)."""
     from probe.scenarios.config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides, removals=removals)
+    raw, source = raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)
     if not base.probe.has_gap:
         raise InputError("probe.model", "the density probe has no gap and no "
@@ -266,7 +265,6 @@ def parse_target(text, columns, units):
 
 
 def _configured_value(raw, key, scenario):
-    from probe.design.sweep import NUMERIC_KEYS
     from probe.scenarios.units import parse_quantity
 
     section, name = key.split(".")
@@ -295,7 +293,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
 
     from probe.scenarios.config import scenario_from_dict
 
-    raw, source = _raw_config(config, overrides, removals=removals)
+    raw, source = raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)
     key = check_numeric_key(key, "--for")
     if bounds is not None:

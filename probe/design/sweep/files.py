@@ -1,0 +1,388 @@
+"""The files of a sweep: the result table (CSV whose header names every
+column with its unit), its JSON sidecar, and the partial file of an
+unfinished sweep that ``--resume`` continues."""
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import platform
+import re
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from probe.design.sweep.grid import Axis
+from probe.errors import InputError
+from probe.quantities import QUANTITIES
+
+#: columns written as integers: the point index and counts
+INTEGER_COLUMNS = frozenset({"point"} | {q.name for q in QUANTITIES.values()
+                                         if q.kind == "count"})
+
+
+@dataclass
+class SweepResult:
+    """A computed grid.
+
+    ``columns`` and ``units`` name the columns of ``data`` (float array of
+    shape (points, columns), SI units as in ``units``; the first column is
+    the flat point index, then one column per varied key, then the
+    evaluator's columns: the engine's arguments and the probe model's array
+    arguments (speed, radius, gap), the gas at the point, and the outputs
+    that the probe model lists and the motion gives, named in
+    ``probe.quantities``: for a two-level probe ``up_rate``, ``down_rate``
+    (1/s) with errors, ``effective_temperature`` (K), ``excited_population``
+    (1) and, for straight motion, ``up_threshold_speed`` (m/s); for the
+    density probe ``emission_rate``, ``absorption_rate`` (1/s),
+    ``drag_force`` (N), ``power`` (W); for circular motion ``harmonics``).
+    ``warnings`` holds one string per point (the regime-of-validity
+    sentences joined by ``' | '``, or the reason a point has no result).
+    ``shape`` is the grid shape (first key slowest).
+    """
+
+    columns: list
+    units: list
+    data: np.ndarray
+    warnings: list
+    shape: tuple
+    axes: list
+    config: dict
+    meta: dict = field(default_factory=dict)
+
+    def index(self, name):
+        try:
+            return self.columns.index(name)
+        except ValueError:
+            raise KeyError(f"no column {name!r}; columns: {', '.join(self.columns)}") from None
+
+    def column(self, name):
+        """One column as a flat array (SI, unit ``self.unit(name)``); the
+        ``warnings`` column as an object array of strings."""
+        j = self.index(name)
+        if name == "warnings":
+            return np.array(self.warnings, dtype=object)
+        return self.data[:, j]
+
+    def grid(self, name):
+        """One column reshaped to the grid ``shape``."""
+        return self.column(name).reshape(self.shape)
+
+    def unit(self, name):
+        return self.units[self.index(name)]
+
+    @property
+    def header(self):
+        return [f"{c} [{u}]" for c, u in zip(self.columns, self.units)]
+
+    def to_csv(self, path):
+        """Write the table (atomically) to ``path``."""
+        write_csv(path, self.header, rows_text(self.columns, self.data, self.warnings))
+
+
+# ---------------------------------------------------------------------------
+# CSV and JSON
+# ---------------------------------------------------------------------------
+def cell_text(x, integer=False):
+    """A number as a CSV cell: exact (``repr``), ``nan``, ``inf``, or a
+    whole number."""
+    x = float(x)
+    if math.isnan(x):
+        return "nan"
+    if math.isinf(x):
+        return "inf" if x > 0 else "-inf"
+    if integer:
+        return str(int(x))
+    return repr(x)
+
+
+def row_text(columns, row, warning):
+    """The cells of one row (the warnings cell last, on one line)."""
+    cells = []
+    for name, x in zip(columns, row):
+        if name == "warnings":
+            continue
+        cells.append(cell_text(x, integer=name in INTEGER_COLUMNS and math.isfinite(x)))
+    cells.append(warning.replace("\n", " "))
+    return cells
+
+
+def rows_text(columns, data, warnings):
+    return [row_text(columns, data[i], warnings[i]) for i in range(data.shape[0])]
+
+
+def csv_line(cells):
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerow(cells)
+    return buf.getvalue()
+
+
+def _write_whole(path, write):
+    """Call ``write(file)`` on a temporary file beside ``path``, then rename
+    it to ``path`` (InputError "--out" when that fails)."""
+    path = Path(path)
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    try:
+        with open(tmp, "w", newline="") as fh:
+            write(fh)
+        os.replace(tmp, path)
+    except OSError as exc:
+        tmp.unlink(missing_ok=True)
+        raise InputError("--out", f"cannot write {os.fspath(path)!r}: "
+                                  f"{exc.strerror or exc}") from None
+
+
+def write_csv(path, header, rows):
+    """Write a CSV atomically: to a temporary file beside ``path``, then one
+    rename."""
+    def write(fh):
+        fh.write(csv_line(header))
+        for cells in rows:
+            fh.write(csv_line(cells))
+        fh.flush()
+        os.fsync(fh.fileno())
+    _write_whole(path, write)
+
+
+def _json_default(x):
+    if isinstance(x, np.ndarray):
+        return x.tolist()
+    if isinstance(x, (np.floating, np.integer)):
+        return x.item()
+    return str(x)
+
+
+def write_json(path, obj):
+    """Write JSON atomically."""
+    def write(fh):
+        json.dump(obj, fh, indent=2, sort_keys=False, default=_json_default)
+        fh.write("\n")
+    _write_whole(path, write)
+
+
+def sidecar_path(out):
+    """The JSON sidecar of a CSV: same name with suffix ``.json``."""
+    out = Path(out)
+    return out.with_suffix(".json") if out.suffix.lower() != ".json" else \
+        out.with_name(out.name + ".meta.json")
+
+
+# ---------------------------------------------------------------------------
+# The sidecar
+# ---------------------------------------------------------------------------
+def library_versions(extra=()):
+    """Versions of Python and of the libraries that produce the numbers."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    out = {"python": platform.python_version()}
+    for name in ("condensate-probe", "numpy", "scipy", "pint", "periodictable",
+                 "click", "matplotlib", *extra):
+        try:
+            out[name] = version(name)
+        except PackageNotFoundError:
+            out[name] = None
+    return out
+
+
+def _jsonable_scenario(scenario):
+    return json.loads(json.dumps(scenario.describe(), default=_json_default))
+
+
+def sweep_meta(plan, workers=1, scheduler=None, elapsed=None, resumed=0, command=None):
+    """The sidecar record of a sweep."""
+    from probe import __version__
+
+    extra = ("dask", "distributed") if scheduler is not None else ()
+    return {
+        "tool": "condensate-probe",
+        "version": __version__,
+        "libraries": library_versions(extra),
+        "platform": platform.platform(),
+        "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
+        "command": command,
+        "source": plan.source,
+        "config": plan.raw,
+        "scenario": _jsonable_scenario(plan.scenario),
+        "grid": {"shape": list(plan.shape), "order": "C (first key slowest)",
+                 "axes": [a.to_dict() for a in plan.axes]},
+        "columns": [{"name": c, "unit": u} for c, u in zip(plan.columns, plan.units)],
+        "evaluation": {"workers": workers,
+                       "scheduler": None if scheduler is None else str(
+                           getattr(scheduler, "scheduler", scheduler)),
+                       "seconds": elapsed, "points_resumed": resumed},
+        "fingerprint": plan.fingerprint(),
+    }
+
+
+_HEADER_CELL = re.compile(r"^(.*) \[(.*)\]$")
+
+
+def read_sweep(path):
+    """Load a sweep CSV (and its sidecar, when present) as a SweepResult."""
+    path = Path(path)
+    try:
+        text = path.read_text()
+    except OSError as exc:
+        raise InputError(os.fspath(path), f"cannot read file: {exc.strerror or exc}") from None
+    rows = list(csv.reader(io.StringIO(text)))
+    if not rows:
+        raise InputError(os.fspath(path), "empty file")
+    columns, units = [], []
+    for cell in rows[0]:
+        m = _HEADER_CELL.match(cell)
+        if not m:
+            raise InputError(os.fspath(path), f"header cell {cell!r} is not 'name [unit]'")
+        columns.append(m.group(1))
+        units.append(m.group(2))
+    body = rows[1:]
+    data = np.array([[float(x) for x in r[:-1]] for r in body], float).reshape(
+        len(body), len(columns) - 1)
+    warnings = [r[-1] for r in body]
+    meta, axes, shape, config = {}, [], (len(body),), {}
+    side = sidecar_path(path)
+    if side.exists():
+        meta = json.loads(side.read_text())
+        config = meta.get("config", {})
+        shape = tuple(meta["grid"]["shape"])
+        axes = [Axis.from_dict(a) for a in meta["grid"]["axes"]]
+    return SweepResult(columns=columns, units=units, data=data, warnings=warnings,
+                       shape=shape, axes=axes, config=config, meta=meta)
+
+
+# ---------------------------------------------------------------------------
+# The partial file
+# ---------------------------------------------------------------------------
+def _cannot_write(path, exc):
+    return InputError("--out", f"cannot write {os.fspath(path)!r}: {exc.strerror or exc}")
+
+
+class PartialFile:
+    """Rows of an unfinished sweep in ``OUT.partial`` (+ ``.partial.json``)."""
+
+    def __init__(self, out, plan, resume):
+        self.out = Path(out)
+        self.path = Path(os.fspath(out) + ".partial")
+        self.plan_path = Path(os.fspath(out) + ".partial.json")
+        self.plan = plan
+        self.header_line = csv_line(plan.header())
+        self.fh = None
+        self.done = {}
+        self.ordered = True
+        self.last = -1
+        self.count = 0
+        parent = self.out.parent
+        if not parent.is_dir():
+            raise InputError("--out", f"directory {os.fspath(parent) or '.'!r} "
+                                      "does not exist")
+        if self.out.is_dir():
+            raise InputError("--out", f"{os.fspath(self.out)!r} is a directory")
+        exists = self.path.exists()
+        if exists and not resume:
+            raise InputError("--out", f"{os.fspath(self.path)!r} holds an "
+                                      "interrupted sweep; continue it with "
+                                      "--resume, or delete it to start afresh")
+        self.resumed = bool(exists and resume)
+
+    def open(self):
+        """Create the partial file, or reopen it to resume."""
+        try:
+            if self.resumed:
+                self._load()
+                self.fh = open(self.path, "a", newline="")
+            else:
+                self.fh = open(self.path, "w", newline="")
+                self.fh.write(self.header_line)
+                self.fh.flush()
+                write_json(self.plan_path, {"fingerprint": self.plan.fingerprint(),
+                                            "config": self.plan.raw,
+                                            "axes": [a.to_dict() for a in self.plan.axes],
+                                            "columns": self.plan.header()})
+        except OSError as exc:
+            raise _cannot_write(self.path, exc) from None
+
+    def _check_stored(self, blob):
+        """InputError unless the partial file was started by this sweep."""
+        try:
+            with open(self.plan_path) as fh:
+                stored = json.load(fh)
+        except (OSError, ValueError):
+            stored = {}
+        if stored.get("fingerprint") != self.plan.fingerprint():
+            raise InputError("--resume", f"{os.fspath(self.path)!r} was started "
+                                         "by a different sweep (configuration, "
+                                         "grid or version differ); delete it to "
+                                         "start afresh")
+        if not blob.startswith(self.header_line.encode()):
+            raise InputError("--resume", f"{os.fspath(self.path)!r} does not start "
+                                         "with this sweep's header; delete it")
+
+    def _parse_row(self, line):
+        """(index, values, warning) of a stored row, or None where the file
+        stops being readable (a row cut short, a repeated or foreign index)."""
+        try:
+            cells = next(csv.reader([line]))
+            if len(cells) != len(self.plan.columns):
+                return None
+            idx = int(cells[0])
+            vals = np.array([float(x) for x in cells[1:-1]])
+        except (ValueError, StopIteration):
+            return None
+        if not 0 <= idx < self.plan.size or idx in self.done:
+            return None
+        return idx, vals, cells[-1]
+
+    def _remember(self, idx):
+        self.count += 1
+        self.ordered = self.ordered and idx > self.last
+        self.last = max(self.last, idx)
+
+    def _load(self):
+        blob = self.path.read_bytes()
+        self._check_stored(blob)
+        pos = good = len(self.header_line.encode())
+        while pos < len(blob):
+            end = blob.find(b"\n", pos)
+            if end < 0:
+                break                      # a row cut short by the interrupt
+            row = self._parse_row(blob[pos:end + 1].decode("utf-8", errors="replace"))
+            if row is None:
+                break
+            idx, vals, warning = row
+            self.done[idx] = (np.concatenate([[float(idx)], vals]), warning)
+            self._remember(idx)
+            pos = good = end + 1
+        if good < len(blob):
+            with open(self.path, "r+b") as fh:
+                fh.truncate(good)
+
+    def write(self, index, rows, warnings):
+        cols = self.plan.columns
+        for i, row, w in zip(index, rows, warnings):
+            self.fh.write(csv_line(row_text(cols, row, w)))
+            self._remember(int(i))
+        self.fh.flush()
+
+    def close(self):
+        if self.fh is not None and not self.fh.closed:
+            self.fh.close()
+
+    def finish(self, data, warnings, meta):
+        """Put the complete table in place and remove the partial files."""
+        self.close()
+        n = data.shape[0]
+        if self.ordered and self.count == n and not self.resumed:
+            os.replace(self.path, self.out)
+        else:
+            write_csv(self.out, self.plan.header(), rows_text(self.plan.columns, data, warnings))
+            self.path.unlink(missing_ok=True)
+        write_json(sidecar_path(self.out), meta)
+        self.plan_path.unlink(missing_ok=True)
+
+    def discard(self):
+        self.close()
+        self.path.unlink(missing_ok=True)
+        self.plan_path.unlink(missing_ok=True)
