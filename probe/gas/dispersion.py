@@ -11,6 +11,14 @@ evaluate factors that vanish at known roots without cancellation).  The base
 class finds the crossings of ``omega(q)`` with straight lines ``v q + W`` that
 bound the golden-rule windows; a new dispersion only needs the closed forms.
 
+What the rate engine may use beyond that is declared, with a base-class
+default, never inferred from the class: ``bounded_windows`` (omega(q)/q
+unbounded, so supersonic windows are finite), ``qs_integral(a, b)`` and
+``qs_omega_integral(a, b)`` (closed forms of the 3D point-probe window
+integrals, or None) and ``phase_divided(q, r)`` (the divided difference of
+the phase velocity free of cancellation, or None).  A new dispersion is one
+subclass and one entry in ``DISPERSIONS``.
+
 Both spectra here are convex with omega(0) = 0, which the window logic in the
 rate engine assumes.
 """
@@ -77,6 +85,12 @@ def _monotone_newton(f, fprime, x0, iters=100):
     return x
 
 
+def _quartic_moment(a, b):
+    """(b^4 - a^4)/8 = int_a^b q^3/2 dq, factored so that close edges do not
+    cancel."""
+    return (b - a) * (b + a) * (b * b + a * a) / 8
+
+
 class Dispersion:
     """Base class: crossings and thresholds from the closed forms below."""
 
@@ -114,9 +128,23 @@ class Dispersion:
         """q where the group velocity equals v (v >= 1); inf if never."""
         raise NotImplementedError
 
+    # --- declared capabilities (defaults: none) --------------------------
     def qs_integral(self, a, b):
         """int_a^b q S(q) dq in closed form, or None if the spectrum has none
         (the engine then integrates numerically)."""
+        return None
+
+    def qs_omega_integral(self, a, b):
+        """int_a^b q S(q) omega(q) dq in closed form (the energy moment of a
+        3D point probe), or None (the engine then integrates numerically).
+        Used only where ``qs_integral`` has a closed form too."""
+        return None
+
+    def phase_divided(self, q, r):
+        """p[q, r] = (p(q) - p(r))/(q - r) of the phase velocity p = omega/q,
+        free of cancellation, or None if the spectrum has no such form.  The
+        2D engine uses it for a gapless probe just above the sound speed,
+        where the window factor built from ``omega_divided`` cancels."""
         return None
 
     # --- common work ----------------------------------------------------
@@ -324,6 +352,11 @@ class Bogoliubov(Dispersion):
         shd_m_d = np.where(small, series, np.sinh(d) - d)
         return 2 * (cosh_m1 * np.sinh(d) + shd_m_d)
 
+    def qs_omega_integral(self, a, b):
+        """int_a^b q S omega dq = int_a^b q^3/2 dq = (b^4 - a^4)/8, since
+        S omega = q^2/2 (the f-sum rule of the Bogoliubov spectrum)."""
+        return _quartic_moment(a, b)
+
     def phase_velocity_crossing(self, v):
         """As the base class; just above the sound speed (v - 1 < 1e-2) from
         the closed form q = 2 sqrt((v - 1)(v + 1)) of sqrt(1 + q^2/4) = v,
@@ -411,6 +444,10 @@ class Phonon(Dispersion):
         a = np.asarray(a, float)
         b = np.asarray(b, float)
         return (b - a) * (a * a + a * b + b * b) / 6
+
+    def qs_omega_integral(self, a, b):
+        """int_a^b q S omega dq = int_a^b q^3/2 dq = (b^4 - a^4)/8."""
+        return _quartic_moment(a, b)
 
     def phase_divided(self, q, r):
         """p[q, r] of the constant phase velocity p = 1: zero."""
