@@ -168,79 +168,125 @@ def fft_amplitude_work(dirs, red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub
     Bessel functions are needed on the nodes only and the time signals are
     Chebyshev polynomials of the path, b_m e^{-i q_c u_m} T_k(u_m/U).
     """
-    N, nt, S = dirs.shape[0], X.shape[0], chans.shape[1]
-    J = q.size
-    half = M // 2
     jbins = np.asarray(jbins)
     if M % 2 or np.any(np.diff(jbins) != 1) or jbins[0] < 0:
         raise ValueError("fft_amplitude_work: the nodes must be consecutive bins")
-    if shifts is None:
-        shifts = [(sig, 0) for sig in range(S)]
-    C = len(shifts)
+    work = _AmplitudeWork(red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub, shifts,
+                          block_bytes)
+    if dirs.shape[0]:
+        work.run(dirs)
+    return work.out
+
+
+def _channel_reads(jbins, shifts, M, J):
+    """Per output channel (signal, where its J bins lie in a transform of
+    length M/2, the odd samples' phase e^{2 pi i j/M} on its bins)."""
+    half = M // 2
     reads = []
     for sig, sh in shifts:
         bins = jbins + int(sh)
         lo_b = int(bins[0]) % half
         sl = slice(lo_b, lo_b + J) if lo_b + J <= half else bins % half
         reads.append((sig, sl, np.exp(2j * np.pi * bins / M)))   # e^{2 pi i j/M}
-    ncol = 2 * C if want_sub else C
-    out = np.zeros((J, red.shape[1], ncol))
-    if N == 0:
-        return out
-    # extent of the path along each direction (in row chunks: no N x Nt array)
+    return reads
+
+
+def _extents(dirs, X):
+    """Middle and half-width of the path's extent along each direction (in
+    row chunks: no N x Nt array)."""
+    N, nt = dirs.shape[0], X.shape[0]
     lo = np.empty(N)
     hi = np.empty(N)
     rows = int(max(1, 4e6 // (8 * nt)))
     for a in range(0, N, rows):
         Pa = dirs[a:a + rows] @ X.T
         lo[a:a + rows], hi[a:a + rows] = Pa.min(axis=1), Pa.max(axis=1)
-    mid = 0.5 * (lo + hi)
-    ext = 0.5 * (hi - lo)
-    order = np.argsort(ext)                     # blocks of similar extent share K
-    K_all = chebyshev_degree(q_h * float(ext.max()), eps)
-    row_bytes = 16.0 * 2 * max(half, (nt + 1) // 2)       # one term, even + odd
-    nb = int(max(1, min(N, block_bytes // (row_bytes * min(K_all, 8)))))
-    kk = np.arange(K_all)
-    dq = np.asarray(q, float) - q_c
-    che = chans[0::2]
-    cho = chans[1::2]
-    for b0 in range(0, N, nb):
-        sel = order[b0:b0 + nb]
-        m = sel.size
-        U = max(float(ext[sel].max()), 1e-300)
-        K = chebyshev_degree(q_h * U, eps)
-        kc = int(max(1, min(K, block_bytes // (row_bytes * m))))
-        u = dirs[sel] @ X.T - mid[sel, None]
+    return 0.5 * (lo + hi), 0.5 * (hi - lo)
+
+
+class _AmplitudeWork:
+    """The state of one :func:`fft_amplitude_work` call: the reductions
+    ``out`` accumulated over blocks of directions of similar extent."""
+
+    def __init__(self, red, X, chans, q, M, jbins, q_c, q_h, eps, want_sub, shifts,
+                 block_bytes):
+        S = chans.shape[1]
+        self.red, self.X, self.q_c, self.q_h, self.eps = red, X, q_c, q_h, eps
+        self.half, self.want_sub, self.block_bytes = M // 2, want_sub, block_bytes
+        self.S = S
+        if shifts is None:
+            shifts = [(sig, 0) for sig in range(S)]
+        self.reads = _channel_reads(jbins, shifts, M, q.size)
+        self.C = len(self.reads)
+        ncol = 2 * self.C if want_sub else self.C
+        self.out = np.zeros((q.size, red.shape[1], ncol))
+        self.dq = np.asarray(q, float) - q_c
+        self.che = chans[0::2]
+        self.cho = chans[1::2]
+        # one term, even + odd
+        self.row_bytes = 16.0 * 2 * max(self.half, (X.shape[0] + 1) // 2)
+
+    def run(self, dirs):
+        """Accumulate the reductions of every direction, in blocks of
+        similar extent (which share the series' length K)."""
+        N = dirs.shape[0]
+        mid, ext = _extents(dirs, self.X)
+        order = np.argsort(ext)                     # blocks of similar extent share K
+        K_all = chebyshev_degree(self.q_h * float(ext.max()), self.eps)
+        nb = int(max(1, min(N, self.block_bytes // (self.row_bytes * min(K_all, 8)))))
+        for b0 in range(0, N, nb):
+            sel = order[b0:b0 + nb]
+            U = max(float(ext[sel].max()), 1e-300)
+            self.block(dirs[sel] @ self.X.T - mid[sel, None], U, self.red[sel])
+
+    def block(self, u, U, red_b):
+        """One block of directions: u = n.x - mid (m, Nt) with |u| <= U,
+        red_b their reduction weights."""
+        m = u.shape[0]
+        K = chebyshev_degree(self.q_h * U, self.eps)
+        kc = int(max(1, min(K, self.block_bytes // (self.row_bytes * m))))
         w2e = np.repeat(2.0 / U * u[:, 0::2], 2, axis=1)   # 2 u/U, interleaved storage
         w2o = np.repeat(2.0 / U * u[:, 1::2], 2, axis=1)
-        pre = np.exp(-1j * q_c * u)
+        pre = np.exp(-1j * self.q_c * u)
         pe, po = pre[:, 0::2], pre[:, 1::2]
         del u, pre
         # coef[k, j] = eps_k (-i)^k J_k((q_j - q_c) U)
-        coef = bessel_sequence(dq * U, K) * ((-1j) ** kk[:K])[:, None]
+        coef = bessel_sequence(self.dq * U, K) * ((-1j) ** np.arange(K))[:, None]
         coef[1:] *= 2.0
-        red_b = red[sel]
-        buf = np.empty((2, kc, m, half), complex)
-        for sig in range(S):
-            even = _ChebyshevSignals(w2e, pe * che[:, sig][None, :], half)
-            odd = _ChebyshevSignals(w2o, po * cho[:, sig][None, :], half)
-            acc = [(np.zeros((m, J), complex), np.zeros((m, J), complex)) for _ in reads]
-            for k0 in range(0, K, kc):
-                k1 = min(K, k0 + kc)
-                bv = buf[:, :k1 - k0]
-                even.fill(bv[0])
-                odd.fill(bv[1])
-                F = sfft.ifft(bv, axis=-1, norm="forward", overwrite_x=True)
-                for (s_c, sl, _), (Ec, Oc) in zip(reads, acc):
-                    if s_c == sig:
-                        Ec += np.einsum("kbj,kj->bj", F[0][..., sl], coef[k0:k1])
-                        Oc += np.einsum("kbj,kj->bj", F[1][..., sl], coef[k0:k1])
-                del F
-            for c, ((s_c, _, odd_ph), (Ec, Oc)) in enumerate(zip(reads, acc)):
-                if s_c != sig:
-                    continue
-                full = Ec + Oc * odd_ph
-                out[:, :, c] += (full.real ** 2 + full.imag ** 2).T @ red_b
-                if want_sub:
-                    out[:, :, C + c] += 4.0 * (Ec.real ** 2 + Ec.imag ** 2).T @ red_b
-    return out
+        buf = np.empty((2, kc, m, self.half), complex)
+        for sig in range(self.S):
+            even = _ChebyshevSignals(w2e, pe * self.che[:, sig][None, :], self.half)
+            odd = _ChebyshevSignals(w2o, po * self.cho[:, sig][None, :], self.half)
+            acc = self._transform(sig, even, odd, coef, buf)
+            self._reduce(sig, acc, red_b)
+
+    def _transform(self, sig, even, odd, coef, buf):
+        """Sum over the series of the transforms of one signal's even and
+        odd samples, on each channel's bins: [(E, O)] per channel read."""
+        K, kc, m = coef.shape[0], buf.shape[1], buf.shape[2]
+        J = self.dq.size
+        acc = [(np.zeros((m, J), complex), np.zeros((m, J), complex)) for _ in self.reads]
+        for k0 in range(0, K, kc):
+            k1 = min(K, k0 + kc)
+            bv = buf[:, :k1 - k0]
+            even.fill(bv[0])
+            odd.fill(bv[1])
+            F = sfft.ifft(bv, axis=-1, norm="forward", overwrite_x=True)
+            for (s_c, sl, _), (Ec, Oc) in zip(self.reads, acc):
+                if s_c == sig:
+                    Ec += np.einsum("kbj,kj->bj", F[0][..., sl], coef[k0:k1])
+                    Oc += np.einsum("kbj,kj->bj", F[1][..., sl], coef[k0:k1])
+            del F
+        return acc
+
+    def _reduce(self, sig, acc, red_b):
+        """|a|^2 of one signal's channels (full rule; twice the even part:
+        the sub-rule) reduced over the block's directions."""
+        C = self.C
+        for c, ((s_c, _, odd_ph), (Ec, Oc)) in enumerate(zip(self.reads, acc)):
+            if s_c != sig:
+                continue
+            full = Ec + Oc * odd_ph
+            self.out[:, :, c] += (full.real ** 2 + full.imag ** 2).T @ red_b
+            if self.want_sub:
+                self.out[:, :, C + c] += 4.0 * (Ec.real ** 2 + Ec.imag ** 2).T @ red_b
