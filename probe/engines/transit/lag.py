@@ -86,6 +86,13 @@ def lag_integrals(chi, wt, wt2, dt, Ds, sep, qn, omega, d, pool):
     return out
 
 
+class _LagPlan:
+    """The lag route's q-uniform grid (as the phasor route's)."""
+
+    def __init__(self, grid):
+        self.grid = grid
+
+
 class LagRoute(Route):
     """Lag sums of the switching's autocorrelation: angles exact."""
 
@@ -119,10 +126,3 @@ class LagRoute(Route):
         sums.E[:] = lag_integrals(time.chi, time.wt, time.wt2, time.dt, problem.Ds, sep,
                                   grid.qn, grid.omega, problem.d, pool)
         return sums
-
-
-class _LagPlan:
-    """The lag route's q-uniform grid (as the phasor route's)."""
-
-    def __init__(self, grid):
-        self.grid = grid
