@@ -32,7 +32,8 @@ A quantity is declared once, with
 - ``note``: words printed after the value in tables, and ``note_with``: a
   quantity whose presence in the result the note needs (the start of the
   probe is named only where the result has both starts);
-- ``noun``: what the quantity is, in one word, for messages.
+- ``noun``: what the quantity is, in one word, for messages and shared plot
+  axes (default: the word of its kind, ``KIND_NOUNS``).
 
 Which quantities a result carries is declared by the probe model that
 produced it (``ProbeModel.rate_outputs`` / ``transit_outputs``) and by the
@@ -71,6 +72,10 @@ DISPLAY_UNITS = {
     "time": ("us", "ms", "s"),
 }
 
+#: what a quantity of each kind is, in one word (a quantity's ``noun``
+#: takes precedence)
+KIND_NOUNS = {"rate": "rate"}
+
 ROLES = ("output", "motion", "derived", "grid", "gas")
 
 
@@ -108,7 +113,7 @@ class Quantity:
     mean_rate: str | None = None
     note: str = ""
     note_with: str | None = None
-    noun: str = "result"
+    noun: str | None = None
 
     @property
     def unit(self):
@@ -119,6 +124,12 @@ class Quantity:
     @property
     def plot_label(self):
         return self.tex or self.label
+
+    @property
+    def word(self):
+        """What the quantity is, in one word: its ``noun``, or that of its
+        kind (``KIND_NOUNS``), or "result"."""
+        return self.noun or KIND_NOUNS.get(self.kind, "result")
 
 
 
@@ -255,6 +266,13 @@ def stationary_outputs(probe, engine=None):
     return [n for n in names if engine is None or produced_by(engine, n)]
 
 
+def shared_noun(names):
+    """The word (:attr:`Quantity.word`) that names every quantity of
+    ``names`` (for a shared axis), or None."""
+    words = {QUANTITIES[n].word if n in QUANTITIES else "result" for n in names}
+    return words.pop() if len(words) == 1 and words != {"result"} else None
+
+
 def produced_by(engine, name):
     """True when stationary motion by ``engine`` (an entry of
     ``probe.engines.stationary.STATIONARY_ENGINES``) gives quantity
@@ -264,7 +282,7 @@ def produced_by(engine, name):
     return need is None or need in engine.arguments or getattr(engine, need, False) is True
 
 
-__all__ = ["Quantity", "QUANTITIES", "SI_UNITS", "TABLE_UNITS", "DISPLAY_UNITS", "ROLES",
-           "si_unit", "table_unit", "quantity", "guarded_names", "target_names", "kind_of",
-           "error_names", "in_registry_order", "headline", "default_plotted",
-           "stationary_outputs", "produced_by"]
+__all__ = ["Quantity", "QUANTITIES", "SI_UNITS", "TABLE_UNITS", "DISPLAY_UNITS",
+           "KIND_NOUNS", "ROLES", "si_unit", "table_unit", "quantity", "guarded_names",
+           "target_names", "kind_of", "error_names", "in_registry_order", "headline",
+           "default_plotted", "shared_noun", "stationary_outputs", "produced_by"]

@@ -3,8 +3,10 @@
 ``compare(config, vary)`` evaluates the sweep grid for the configured model
 and for variants that change one modelling choice each:
 
-* ``probe``: two-level probe versus the structureless density probe (a
-  density configuration needs ``gap`` for its two-level variant);
+* ``probe``: the configured probe model versus each other registered model
+  that takes the same parameters apart from its array keys (two-level
+  versus the structureless density probe; a density configuration needs
+  ``gap`` for its two-level variant);
 * ``dispersion``: Bogoliubov versus linear phonon dispersion;
 * ``width``: point probe versus finite width (a point-probe configuration
   needs ``width`` for its finite-width variant);
@@ -33,7 +35,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from probe.errors import InputError
-from probe.design.sweep import axis_value_text, cell_text, plan_sweep, raw_config, sweep, write_csv
+from probe.design.sweep import (axis_value_text, cell_text, format_value, plan_sweep,
+                                raw_config, sweep, write_csv)
+from probe.design.sweep.evaluators import model_parameters
+from probe.quantities import headline, kind_of, si_unit
 
 COMPARISONS = ("probe", "dispersion", "width", "temperature")
 #: relative difference above which two models are said to differ
@@ -55,12 +60,11 @@ class Variant:
 
     @property
     def quantities(self):
-        cols = self.result.columns
-        for names in (["up_rate", "down_rate"], ["up_probability", "down_probability"],
-                      ["emission_rate"], ["emitted_phonons"]):
-            if names[0] in cols:
-                return names
-        raise KeyError("no rate or probability column")
+        """The headline quantities of the result (``probe.quantities``)."""
+        names = headline(self.result.columns)
+        if not names:
+            raise KeyError("no headline column (rate or probability)")
+        return names
 
     @property
     def main(self):
@@ -195,12 +199,10 @@ class Comparison:
 # building the variants
 # ---------------------------------------------------------------------------
 def _describe(raw, scenario):
-    from probe.design.sweep import format_value
-
     p, cond = scenario.probe, scenario.condensate
-    parts = [f"{p.name} probe"]
-    if p.has_gap:
-        parts[0] += f" (gap {format_value('frequency', 'rad/s', p.gap)})"
+    own = [f"{arg} {format_value(kind_of(arg), si_unit(kind_of(arg)), getattr(p, arg))}"
+           for arg in p.array_keys.values()]
+    parts = [f"{p.name} probe" + (f" ({', '.join(own)})" if own else "")]
     parts.append(f"{cond.dispersion.name} dispersion")
     parts.append("point probe" if p.width == 0 else
                  f"width {format_value('length', 'm', p.width)}")
@@ -209,70 +211,109 @@ def _describe(raw, scenario):
     return ", ".join(parts)
 
 
-def _variants(raw, base, varied, wanted, gap, width, temperature):
-    """[(comparison, name, label, raw)] and notes for those skipped."""
-    out, notes = [], []
-    explicit = wanted is not None
-    wanted = list(COMPARISONS) if wanted is None else wanted
+class _Skip(Exception):
+    """A comparison that does not apply to this configuration (why)."""
 
-    def skip(comp, why):
-        if explicit:
-            raise InputError("--models", f"{comp}: {why}")
-        notes.append(f"{comp}: {why}")
 
-    for comp in wanted:
+def _counterparts(probe):
+    """The other registered probe models that take the same parameters as
+    ``probe`` apart from array keys (parameters such as the gap): name ->
+    class."""
+    from probe.detectors import PROBE_MODELS
+
+    mine = type(probe)
+
+    def common(model):
+        return set(model_parameters(model)) - set(model.array_keys.values())
+    return {name: model for name, model in PROBE_MODELS.items()
+            if model is not mine and common(model) == common(mine)}
+
+
+def _probe_variants(raw, base, varied, given):
+    """The configured probe model swapped for each counterpart: its array
+    parameters that the counterpart lacks are removed (not while varied),
+    those the counterpart needs come from ``given`` (configuration key ->
+    value, from --gap)."""
+    mine = type(base.probe).array_keys
+    out = []
+    for name, model in _counterparts(base.probe).items():
         r = copy.deepcopy(raw)
-        if comp == "probe":
-            if base.probe.has_gap:
-                if "probe.gap" in varied:
-                    skip(comp, "probe.gap is varied and the density probe has no gap")
-                    continue
-                r["probe"]["model"] = "density"
-                r["probe"].pop("gap", None)
-                out.append((comp, "density", "density probe (structureless)", r))
-            else:
-                if gap is None:
-                    skip(comp, "the configured probe is a density probe; give "
-                               "--gap for its two-level variant")
-                    continue
-                r["probe"]["model"] = "two-level"
-                r["probe"]["gap"] = gap
-                out.append((comp, "two_level", f"two-level probe (gap {gap})", r))
-        elif comp == "dispersion":
-            other = "phonon" if base.condensate.dispersion.name == "bogoliubov" else "bogoliubov"
-            r["condensate"]["dispersion"] = other
-            out.append((comp, other, f"{other} dispersion", r))
-        elif comp == "width":
-            if "probe.width" in varied:
-                skip(comp, "probe.width is varied")
-                continue
-            if base.probe.width > 0:
-                r["probe"]["width"] = "0 um"
-                out.append((comp, "point", "point probe (width 0)", r))
-            elif width is None:
-                skip(comp, "the configured probe is point-like; give --width "
-                           "for a finite-width variant")
-                continue
-            else:
-                r["probe"]["width"] = width
-                out.append((comp, "wide", f"finite width {width}", r))
-        elif comp == "temperature":
-            if "condensate.temperature" in varied:
-                skip(comp, "condensate.temperature is varied")
-                continue
-            if base.condensate.temperature > 0:
-                r["condensate"]["temperature"] = "0 K"
-                out.append((comp, "T0", "T = 0", r))
-            elif temperature is None:
-                skip(comp, "the configured gas is at T = 0; give --temperature "
-                           "for a thermal variant")
-                continue
-            else:
-                r["condensate"]["temperature"] = temperature
-                out.append((comp, "thermal", f"T = {temperature}", r))
-        else:
+        r["probe"]["model"] = name
+        for key, arg in mine.items():
+            if key not in model.array_keys:
+                if key in varied:
+                    raise _Skip(f"{key} is varied and the {name} probe has no {arg}")
+                r["probe"].pop(key.split(".", 1)[1], None)
+        needed = [(key, arg) for key, arg in model.array_keys.items() if key not in mine]
+        for key, arg in needed:
+            if given.get(key) is None:
+                raise _Skip(f"the configured probe is a {base.probe.name} probe; give "
+                            f"--{arg} for its {name} variant")
+            r["probe"][key.split(".", 1)[1]] = given[key]
+        what = ", ".join(f"{arg} {given[key]}" for key, arg in needed) or "structureless"
+        out.append((name.replace("-", "_"), f"{name} probe ({what})", r))
+    return out
+
+
+def _dispersion_variants(raw, base, varied, given):
+    other = "phonon" if base.condensate.dispersion.name == "bogoliubov" else "bogoliubov"
+    r = copy.deepcopy(raw)
+    r["condensate"]["dispersion"] = other
+    return [(other, f"{other} dispersion", r)]
+
+
+def _width_variants(raw, base, varied, given):
+    if "probe.width" in varied:
+        raise _Skip("probe.width is varied")
+    r = copy.deepcopy(raw)
+    if base.probe.width > 0:
+        r["probe"]["width"] = "0 um"
+        return [("point", "point probe (width 0)", r)]
+    width = given.get("probe.width")
+    if width is None:
+        raise _Skip("the configured probe is point-like; give --width "
+                    "for a finite-width variant")
+    r["probe"]["width"] = width
+    return [("wide", f"finite width {width}", r)]
+
+
+def _temperature_variants(raw, base, varied, given):
+    if "condensate.temperature" in varied:
+        raise _Skip("condensate.temperature is varied")
+    r = copy.deepcopy(raw)
+    if base.condensate.temperature > 0:
+        r["condensate"]["temperature"] = "0 K"
+        return [("T0", "T = 0", r)]
+    temperature = given.get("condensate.temperature")
+    if temperature is None:
+        raise _Skip("the configured gas is at T = 0; give --temperature "
+                    "for a thermal variant")
+    r["condensate"]["temperature"] = temperature
+    return [("thermal", f"T = {temperature}", r)]
+
+
+#: comparison -> the variants it makes: ``f(raw, base scenario, varied
+#: keys, given values) -> [(name, label, raw)]`` (``_Skip`` where it does
+#: not apply)
+_BUILDERS = {"probe": _probe_variants, "dispersion": _dispersion_variants,
+             "width": _width_variants, "temperature": _temperature_variants}
+
+
+def _variants(raw, base, varied, wanted, given):
+    """[(comparison, name, label, raw)] and notes for those skipped;
+    ``given`` maps configuration keys to the values of --gap, --width and
+    --temperature."""
+    out, notes = [], []
+    for comp in (list(COMPARISONS) if wanted is None else wanted):
+        if comp not in _BUILDERS:
             raise InputError("--models", f"unknown comparison {comp!r}; allowed: "
                                          f"{', '.join(COMPARISONS)}")
+        try:
+            out += [(comp, *v) for v in _BUILDERS[comp](raw, base, varied, given)]
+        except _Skip as why:
+            if wanted is not None:
+                raise InputError("--models", f"{comp}: {why}") from None
+            notes.append(f"{comp}: {why}")
     return out, notes
 
 
@@ -301,7 +342,8 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
             if m not in COMPARISONS:
                 raise InputError("--models", f"unknown comparison {m!r}; allowed: "
                                              f"{', '.join(COMPARISONS)}")
-    specs, notes = _variants(raw, base, varied, models, gap, width, temperature)
+    given = {"probe.gap": gap, "probe.width": width, "condensate.temperature": temperature}
+    specs, notes = _variants(raw, base, varied, models, given)
     variants = [Variant("configured", _describe(raw, base), "", raw)]
     for comp, name, label, r in specs:
         try:

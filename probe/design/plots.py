@@ -30,6 +30,7 @@ import numpy as np
 
 from probe.errors import InputError
 from probe.design.sweep import column_kind, display_unit
+from probe.quantities import QUANTITIES, default_plotted, shared_noun
 
 SUFFIXES = (".png", ".pdf", ".svg")
 
@@ -58,25 +59,8 @@ KEY_LABELS = {
     "condensate.mass": "boson mass",
     "numerics.rtol": "relative tolerance",
 }
-QUANTITY_LABELS = {
-    "up_rate": r"up rate $\Gamma_\uparrow$",
-    "down_rate": r"down rate $\Gamma_\downarrow$",
-    "up_rate_error": r"error of $\Gamma_\uparrow$",
-    "down_rate_error": r"error of $\Gamma_\downarrow$",
-    "emission_rate": "phonon emission rate",
-    "emission_rate_error": "error of the emission rate",
-    "absorption_rate": "phonon absorption rate",
-    "drag_force": "drag force",
-    "power": "power given to the gas",
-    "effective_temperature": r"effective temperature $T_\mathrm{eff}$",
-    "excited_population": "steady-state excited population",
-    "up_threshold_speed": r"threshold speed $v_\mathrm{th}$",
-    "harmonics": "harmonics summed",
-    "mach": "$v/c_s$",
-    "emitted_phonons": "emitted phonons",
-    "up_probability": r"up probability $P_\uparrow$",
-    "down_probability": r"down probability $P_\downarrow$",
-}
+#: plot labels of the result quantities (``probe.quantities``)
+QUANTITY_LABELS = {name: q.tex for name, q in QUANTITIES.items() if q.tex}
 _PRETTY = {"um": "µm", "um/s": "µm/s", "uK": "µK", "us": "µs", "1/s": "s$^{-1}$",
            "1/m": "m$^{-1}$", "1/um": "µm$^{-1}$"}
 
@@ -206,16 +190,6 @@ def _constant(values):
     return float(v[0]) if np.allclose(v, v[0], rtol=1e-12, atol=0) else None
 
 
-def _default_quantities(columns):
-    if "up_rate" in columns:
-        return ["up_rate", "down_rate"]
-    if "up_probability" in columns:
-        return ["up_probability", "down_probability"]
-    if "emitted_phonons" in columns:
-        return ["emitted_phonons"]
-    return ["emission_rate", "absorption_rate"]
-
-
 def _runs(x, bad):
     """(lo, hi) x ranges of consecutive points flagged in ``bad``, each
     extended half-way to the neighbouring points."""
@@ -327,7 +301,7 @@ def plot_sweep(result, path=None, quantity=None):
     ``path`` when given; returns the Figure."""
     if len(result.axes) == 2:
         return plot_map(result, path, quantity)
-    quantities = [quantity] if quantity else _default_quantities(result.columns)
+    quantities = [quantity] if quantity else default_plotted(result.columns)
     return plot_lines(result, path, quantities)
 
 
@@ -336,7 +310,7 @@ def plot_lines(result, path=None, quantities=None):
     marked on a speed axis and hatched ranges where there is no result."""
     if len(result.axes) != 1:
         raise InputError("--plot", "curves need a 1D grid")
-    quantities = quantities or _default_quantities(result.columns)
+    quantities = quantities or default_plotted(result.columns)
     for q in quantities:
         check_quantity(result.columns, q)
     ax_ = result.axes[0]
@@ -367,9 +341,9 @@ def plot_lines(result, path=None, quantities=None):
     if len(quantities) == 1:
         ax.set_ylabel(axis_label(quantities[0], shown_unit))
     else:
-        ax.set_ylabel(f"rate [{pretty_unit(shown_unit)}]" if unit == "1/s" else
-                      "probability" if unit == "1" and quantities[0].endswith("probability")
-                      else (f"[{pretty_unit(shown_unit)}]" if shown_unit else "value"))
+        noun = shared_noun(quantities) if unit is not None else None
+        unit_text = f"[{pretty_unit(shown_unit)}]" if shown_unit else ""
+        ax.set_ylabel(" ".join(t for t in (noun, unit_text) if t) or "value")
     bad = np.array([w.startswith("no result") for w in result.warnings])
     _no_result_strip(ax, x, bad, "no result", HATCHES[0], 0)
     if ax_.kind == "speed":
@@ -466,15 +440,97 @@ def _hatch_cells(ax, xe, ye, bad, hatch):
                                       hatch=hatch, linewidth=0, zorder=2))
 
 
+def _map_norm(z):
+    """(norm, masked z, clipped): the colour scale of a map (logarithmic
+    where positive values span decades; fixed around a value that is the
+    same everywhere), and whether small values fall below it."""
+    import matplotlib.colors as mcolors
+
+    norm, zm, clipped = None, np.ma.masked_invalid(z), False
+    if _spans_decades(z):
+        pos = z[np.isfinite(z) & (z > 0)]
+        top = pos.max()
+        bottom = max(pos.min(), top * LOG_FLOOR)
+        clipped = bottom > pos.min() or np.any(np.isfinite(z) & (z <= 0))
+        norm = mcolors.LogNorm(vmin=bottom, vmax=top)
+        zm = np.ma.masked_where(~np.isfinite(z) | (z <= 0), z)
+    finite = z[np.isfinite(z)]
+    if finite.size > 0 and finite.min() == finite.max():
+        # one value everywhere: a colour scale would be meaningless
+        v0 = float(finite[0])
+        norm = mcolors.Normalize(vmin=v0 - 1 if v0 == 0 else 0.5 * v0,
+                                 vmax=v0 + 1 if v0 == 0 else 1.5 * v0)
+    return norm, zm, clipped
+
+
+def _colour_map(fig, ax, edges, z, quantity, zunit):
+    """The colour mesh of a map and its colour bar."""
+    import matplotlib as mpl
+
+    cmap = mpl.colormaps["viridis"].with_extremes(bad="white", under="white")
+    norm, zm, clipped = _map_norm(z)
+    mesh = ax.pcolormesh(*edges, zm.T, cmap=cmap, norm=norm, rasterized=True)
+    cbar = fig.colorbar(mesh, ax=ax, extend="min" if clipped else "neither")
+    cbar.set_label(axis_label(quantity, zunit) + (
+        f"   (white: 0 or below {LOG_FLOOR:.0e} of the largest)" if clipped else ""))
+    finite = z[np.isfinite(z)]
+    if finite.size > 0 and finite.min() == finite.max():
+        cbar.set_ticks([float(finite[0])])
+        ax.annotate(f"{QUANTITY_LABELS.get(quantity, quantity)} = {finite[0]:.4g} "
+                    f"{pretty_unit(zunit)} wherever it is finite", xy=(0.01, 0.97),
+                    xycoords="axes fraction", va="top", fontsize=8,
+                    bbox=dict(boxstyle="square,pad=0.2", facecolor="white",
+                              edgecolor="none"))
+
+
+def _map_contours(fig, ax, x, y, z):
+    log = _spans_decades(z)
+    levels = _levels(z, log)
+    if len(levels) and min(x.size, y.size) > 2:
+        zc = np.where(np.isfinite(z) & ((z > 0) | (not log)), z,
+                      (min(levels) / 10) if log else np.nan)
+        cs = ax.contour(x, y, zc.T, levels=levels, colors="black", linewidths=0.9)
+        _declutter(fig, ax.clabel(cs, fmt=_contour_fmt, fontsize=8, inline=True))
+
+
+def _map_threshold(ax, result, k, axis, fac, c, x, y):
+    """The threshold speed as a curve across a map whose axis ``k`` is a
+    speed."""
+    vt = result.grid("up_threshold_speed")
+    other = y if k == 0 else x
+    curve = (vt[:, 0] if k == 1 else vt[0, :]) if _constant(vt) is None else \
+        np.full(other.size, _constant(vt))
+    curve = curve / c if axis.relative else curve * fac
+    if not np.all(np.isfinite(curve)):
+        return
+    xy = (curve, other) if k == 0 else (other, curve)
+    ax.plot(*xy, color="white", linewidth=2.6, zorder=3)
+    ax.plot(*xy, color="black", linestyle=(0, (1, 1.2)), linewidth=1.6, zorder=4,
+            label=r"threshold $v_\mathrm{th}$")
+
+
+def _map_speed_marks(ax, result, scaled_axes, x, y):
+    """Sound speed and (where the result has one) the threshold on the
+    speed axes of a map; ``scaled_axes``: (axis, factor) of x and y."""
+    c = _constant(result.column("sound_speed"))
+    for k, (axis, fac) in enumerate(scaled_axes):
+        if axis.kind != "speed" or c is None:
+            continue
+        pos = 1.0 if axis.relative else c * fac
+        line = ax.axvline if k == 0 else ax.axhline
+        line(pos, color="white", linewidth=2.6, zorder=3)
+        line(pos, color="black", linestyle=(0, (4, 2)), linewidth=1.3, zorder=4,
+             label="sound speed $c_s$")
+        if "up_threshold_speed" in result.columns:
+            _map_threshold(ax, result, k, axis, fac, c, x, y)
+
+
 def plot_map(result, path=None, quantity=None):
     """A 2D grid as a colour map with labelled contours; the sound speed
     and (straight motion) the threshold are drawn on a speed axis."""
-    import matplotlib.colors as mcolors
-    import matplotlib as mpl
-
     if len(result.axes) != 2:
         raise InputError("--plot", "a map needs a 2D grid")
-    quantity = quantity or _default_quantities(result.columns)[0]
+    quantity = quantity or default_plotted(result.columns)[0]
     check_quantity(result.columns, quantity)
     a0, a1 = result.axes
     x, xlabel, fx = _grid_coords(result, a0)
@@ -482,46 +538,11 @@ def plot_map(result, path=None, quantity=None):
     z_si = result.grid(quantity)
     zfac, zunit = display_unit(column_kind(quantity), result.unit(quantity), z_si)
     z = z_si * zfac
-    log = _spans_decades(z)
     fig = _figure((6.4, 5.0))
     ax = fig.add_subplot()
-    cmap = mpl.colormaps["viridis"].with_extremes(bad="white", under="white")
-    zm = np.ma.masked_invalid(z)
-    clipped = False
-    if log:
-        pos = z[np.isfinite(z) & (z > 0)]
-        top = pos.max()
-        bottom = max(pos.min(), top * LOG_FLOOR)
-        clipped = bottom > pos.min() or np.any(np.isfinite(z) & (z <= 0))
-        norm = mcolors.LogNorm(vmin=bottom, vmax=top)
-        zm = np.ma.masked_where(~np.isfinite(z) | (z <= 0), z)
-    else:
-        norm = None
     xe, ye = _cell_edges(x, a0.log), _cell_edges(y, a1.log)
-    finite = z[np.isfinite(z)]
-    flat = finite.size > 0 and finite.min() == finite.max()
-    if flat:
-        # one value everywhere: a colour scale would be meaningless
-        v0 = float(finite[0])
-        norm = mcolors.Normalize(vmin=v0 - 1 if v0 == 0 else 0.5 * v0,
-                                 vmax=v0 + 1 if v0 == 0 else 1.5 * v0)
-    mesh = ax.pcolormesh(xe, ye, zm.T, cmap=cmap, norm=norm, rasterized=True)
-    cbar = fig.colorbar(mesh, ax=ax, extend="min" if clipped else "neither")
-    cbar.set_label(axis_label(quantity, zunit) + (
-        f"   (white: 0 or below {LOG_FLOOR:.0e} of the largest)" if clipped else ""))
-    if flat:
-        cbar.set_ticks([float(finite[0])])
-        ax.annotate(f"{QUANTITY_LABELS.get(quantity, quantity)} = {finite[0]:.4g} "
-                    f"{pretty_unit(zunit)} wherever it is finite", xy=(0.01, 0.97),
-                    xycoords="axes fraction", va="top", fontsize=8,
-                    bbox=dict(boxstyle="square,pad=0.2", facecolor="white",
-                              edgecolor="none"))
-    levels = _levels(z, log)
-    if len(levels) and min(x.size, y.size) > 2:
-        zc = np.where(np.isfinite(z) & ((z > 0) | (not log)), z,
-                      (min(levels) / 10) if log else np.nan)
-        cs = ax.contour(x, y, zc.T, levels=levels, colors="black", linewidths=0.9)
-        _declutter(fig, ax.clabel(cs, fmt=_contour_fmt, fontsize=8, inline=True))
+    _colour_map(fig, ax, (xe, ye), z, quantity, zunit)
+    _map_contours(fig, ax, x, y, z)
     if a0.log:
         ax.set_xscale("log")
     if a1.log:
@@ -537,31 +558,7 @@ def plot_map(result, path=None, quantity=None):
                     xycoords="axes fraction", fontsize=7, zorder=6,
                     bbox=dict(boxstyle="square,pad=0.2", facecolor="white",
                               edgecolor="none"))
-    # sound speed and threshold on a speed axis
-    c = _constant(result.column("sound_speed"))
-    for k, (axis, fac) in enumerate(((a0, fx), (a1, fy))):
-        if axis.kind != "speed" or c is None:
-            continue
-        pos = 1.0 if axis.relative else c * fac
-        line = ax.axvline if k == 0 else ax.axhline
-        line(pos, color="white", linewidth=2.6, zorder=3)
-        line(pos, color="black", linestyle=(0, (4, 2)), linewidth=1.3, zorder=4,
-             label="sound speed $c_s$")
-        if "up_threshold_speed" in result.columns:
-            vt = result.grid("up_threshold_speed")
-            other = y if k == 0 else x
-            curve = (vt[:, 0] if k == 1 else vt[0, :]) if _constant(vt) is None else \
-                np.full(other.size, _constant(vt))
-            curve = curve / c if axis.relative else curve * fac
-            if np.all(np.isfinite(curve)):
-                if k == 0:
-                    ax.plot(curve, other, color="white", linewidth=2.6, zorder=3)
-                    ax.plot(curve, other, color="black", linestyle=(0, (1, 1.2)),
-                            linewidth=1.6, zorder=4, label=r"threshold $v_\mathrm{th}$")
-                else:
-                    ax.plot(other, curve, color="white", linewidth=2.6, zorder=3)
-                    ax.plot(other, curve, color="black", linestyle=(0, (1, 1.2)),
-                            linewidth=1.6, zorder=4, label=r"threshold $v_\mathrm{th}$")
+    _map_speed_marks(ax, result, ((a0, fx), (a1, fy)), x, y)
     if ax.get_legend_handles_labels()[0]:
         ax.legend(loc="upper left", fontsize=8, framealpha=0.9)
     fig.suptitle(_title(result.meta), fontsize=10)
@@ -732,10 +729,60 @@ def _spectrum_of(result):
     return sp
 
 
-def _start_labels(result):
-    if result.model == "two-level":
+def _two_starts(sp):
+    """True when the spectrum has a second series: the probe starting excited
+    (a probe with internal states)."""
+    return "dN_dk_excited" in sp
+
+
+def _start_labels(sp):
+    if _two_starts(sp):
         return ("probe starts in the ground state", "probe starts excited")
     return ("emitted phonons", None)
+
+
+def _pattern_1d(sp, main, second):
+    """Forward and backward counts of a 1D transit as bars."""
+    fig = _figure((5.2, 4.2))
+    ax = fig.add_subplot()
+    keys = [("dN_backward", "dN_forward", main)]
+    if second and "dN_forward_excited" in sp:
+        keys.append(("dN_backward_excited", "dN_forward_excited", second))
+    width = 0.8 / len(keys)
+    for k, (b, f, lab) in enumerate(keys):
+        xs = np.array([0, 1]) + (k - (len(keys) - 1) / 2) * width
+        ax.bar(xs, [sp[b], sp[f]], width=width, facecolor="white" if k else "0.35",
+               edgecolor="black", hatch=HATCHES[k] if k else None, label=lab)
+    ax.set_xticks([0, 1], ["backward (-x)", "forward (+x)"])
+    ax.set_ylabel("emitted phonons")
+    ax.legend(fontsize=8)
+    fig.suptitle("Emitted phonons of the transit, 1D", fontsize=10)
+    return fig
+
+
+def _polar_series(sp, d, main, second):
+    """(series, scale, unit, angles, values, axis text) of a 2D or 3D
+    direction spectrum: 3D dN/dcos(theta) -> dN/dOmega mirrored about the
+    axis, 2D dN/dphi closed around the circle."""
+    if d == 3:
+        theta = np.arccos(np.clip(np.asarray(sp["cos_theta"], float), -1, 1))
+        return ([("dN_dcos_theta", main), ("dN_dcos_theta_excited", second)],
+                1 / (2 * math.pi), "1/sr", np.concatenate([theta[::-1], -theta]),
+                lambda v: np.concatenate([v[::-1], v]), r"$\theta$ from the mean velocity")
+    phi = np.asarray(sp["phi"], float)
+    return ([("dN_dphi", main), ("dN_dphi_excited", second)], 1.0, "1/rad",
+            np.concatenate([phi, phi[:1]]), lambda v: np.concatenate([v, v[:1]]),
+            r"$\phi$ from the mean velocity")
+
+
+def _mach_cone(ax, c, speed):
+    """The Mach cone cos(theta) = c/v of a supersonic transit."""
+    cone = math.acos(c / speed)
+    for a in (cone, -cone):
+        ax.plot([a, a], [0, ax.get_rmax()], color="0.3", linestyle=(0, (4, 2)),
+                linewidth=1.1)
+    ax.plot([], [], color="0.3", linestyle=(0, (4, 2)),
+            label=f"Mach cone, cos = $c_s/v$ = {c / speed:.3g}")
 
 
 def plot_emission_pattern(result, path=None, speed=None):
@@ -747,66 +794,30 @@ def plot_emission_pattern(result, path=None, speed=None):
     the axis; 2D: dN/dphi (per radian) against phi; 1D: forward and
     backward counts.  ``speed`` (m/s) marks the Mach cone cos(theta) = c/v
     when supersonic."""
+    import matplotlib.ticker as mticker
+
     sp = _spectrum_of(result)
     d = result.dimension
-    main, second = _start_labels(result)
+    main, second = _start_labels(sp)
     if d == 1:
-        fig = _figure((5.2, 4.2))
-        ax = fig.add_subplot()
-        keys = [("dN_backward", "dN_forward", main)]
-        if second and "dN_forward_excited" in sp:
-            keys.append(("dN_backward_excited", "dN_forward_excited", second))
-        width = 0.8 / len(keys)
-        for k, (b, f, lab) in enumerate(keys):
-            xs = np.array([0, 1]) + (k - (len(keys) - 1) / 2) * width
-            ax.bar(xs, [sp[b], sp[f]], width=width, facecolor="white" if k else "0.35",
-                   edgecolor="black", hatch=HATCHES[k] if k else None, label=lab)
-        ax.set_xticks([0, 1], ["backward (-x)", "forward (+x)"])
-        ax.set_ylabel("emitted phonons")
-        ax.legend(fontsize=8)
-        fig.suptitle("Emitted phonons of the transit, 1D", fontsize=10)
+        fig = _pattern_1d(sp, main, second)
         if path is not None:
             save(fig, path)
         return fig
     fig = _figure((5.6, 5.6))
     ax = fig.add_subplot(projection="polar")
     ax.set_theta_zero_location("E")
-    if d == 3:
-        u = np.asarray(sp["cos_theta"], float)
-        theta = np.arccos(np.clip(u, -1, 1))
-        series = [("dN_dcos_theta", main), ("dN_dcos_theta_excited", second)]
-        scale = 1 / (2 * math.pi)            # dN/dcos(theta) -> dN/dOmega
-        unit = "1/sr"
-        angles = np.concatenate([theta[::-1], -theta])
-        def values(v):
-            return np.concatenate([v[::-1], v])
-        axis_text = r"$\theta$ from the mean velocity"
-    else:
-        phi = np.asarray(sp["phi"], float)
-        series = [("dN_dphi", main), ("dN_dphi_excited", second)]
-        scale = 1.0
-        unit = "1/rad"
-        angles = np.concatenate([phi, phi[:1]])
-        def values(v):
-            return np.concatenate([v, v[:1]])
-        axis_text = r"$\phi$ from the mean velocity"
+    series, scale, unit, angles, values, axis_text = _polar_series(sp, d, main, second)
     k = 0
     for key, lab in series:
         if lab is None or key not in sp:
             continue
         r = np.asarray(sp[key], float) * scale
-        st = _style(k)
-        ax.plot(angles, values(r), label=lab, markevery=max(1, angles.size // 24), **st)
+        ax.plot(angles, values(r), label=lab, markevery=max(1, angles.size // 24),
+                **_style(k))
         k += 1
-    c = result.sound_speed
-    if speed is not None and speed > c:
-        cone = math.acos(c / speed)
-        for a in (cone, -cone):
-            ax.plot([a, a], [0, ax.get_rmax()], color="0.3", linestyle=(0, (4, 2)),
-                    linewidth=1.1)
-        ax.plot([], [], color="0.3", linestyle=(0, (4, 2)),
-                label=f"Mach cone, cos = $c_s/v$ = {c / speed:.3g}")
-    import matplotlib.ticker as mticker
+    if speed is not None and speed > result.sound_speed:
+        _mach_cone(ax, result.sound_speed, speed)
     ax.set_rlabel_position(157.5)
     ax.yaxis.set_major_locator(mticker.MaxNLocator(4))
     ax.tick_params(labelsize=8)
@@ -826,7 +837,7 @@ def plot_emission_spectrum(result, path=None):
     sp = _spectrum_of(result)
     xi = result.healing_length
     q = np.asarray(sp["k"], float) * xi
-    main, second = _start_labels(result)
+    main, second = _start_labels(sp)
     fig = _figure()
     ax = fig.add_subplot()
     curves = [(np.asarray(sp["dN_dk"], float) / xi, main)]
@@ -854,7 +865,7 @@ def plot_emission_spectrum(result, path=None):
     ax.grid(True, which="major", color="0.85", linewidth=0.6)
     ax.legend(fontsize=8)
     total = getattr(result, "emitted_phonons", None)
-    start = " from the ground state" if result.model == "two-level" else ""
+    start = " from the ground state" if _two_starts(sp) else ""
     fig.suptitle("Spectrum of the emitted phonons" +
                  (f" (N = {total:.3g}{start})" if total is not None else ""), fontsize=10)
     if path is not None:

@@ -34,17 +34,18 @@ def _gas_values(cond):
 
 
 @functools.lru_cache(maxsize=None)
-def _parameters(model):
+def model_parameters(model):
+    """The parameters of a probe model class: the arguments of its
+    constructor, each held by its instances as the attribute of that name."""
     return tuple(inspect.signature(model).parameters)
 
 
 def probe_with(probe, values):
-    """The probe model with some parameters replaced (``values``: name ->
-    value).  A model's parameters are the arguments of its constructor, each
-    held as the attribute of that name."""
+    """The probe model with some parameters (:func:`model_parameters`)
+    replaced (``values``: name -> value)."""
     model = type(probe)
     return model(**{name: values[name] if name in values else getattr(probe, name)
-                    for name in _parameters(model)})
+                    for name in model_parameters(model)})
 
 
 def point_result(res, i):
