@@ -16,7 +16,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from probe.detectors import PROBE_MODELS
+from probe.engines.stationary import engine_for
 from probe.errors import InputError
+from probe.quantities import quantity, target_names
 from probe.design.sweep import (NUMERIC_KEYS, cell_text, check_numeric_key, column_kind,
                                 display_unit, evaluate_point, format_value, plan_sweep,
                                 raw_config, si_unit, sweep, write_csv)
@@ -113,6 +116,23 @@ def _speed_display(values):
     return display_unit("speed", "m/s", values)
 
 
+def _threshold_notes(cond, engine):
+    """What the threshold table does not say: the phonon dispersion's
+    threshold, thermal excitation, and a configured motion without a
+    threshold."""
+    notes = []
+    if cond.dispersion.name == "phonon":
+        notes.append("with the phonon dispersion w = c k the threshold is the sound "
+                     "speed at every gap")
+    if cond.temperature > 0:
+        notes.append("at T > 0 thermal phonons also excite the probe below the "
+                     "threshold; the threshold is that of spontaneous excitation")
+    if engine is not None and not engine.has_threshold:
+        notes.append("the configured path is a circle, on which up transitions occur "
+                     "at any speed; the table is for straight motion through the same gas")
+    return notes
+
+
 def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
     """The threshold table for the gaps of ``vary`` (a ``probe.gap`` entry
     as for :func:`probe.sweep.sweep`), by default a decade either side of
@@ -122,9 +142,10 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
 
     raw, source = raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)
-    if not base.probe.has_gap:
-        raise InputError("probe.model", "the density probe has no gap and no "
-                                        "threshold; use model = \"two-level\"")
+    if "probe.gap" not in base.probe.array_keys:
+        gapped = [n for n, m in PROBE_MODELS.items() if "probe.gap" in m.array_keys]
+        raise InputError("probe.model", f"the {base.probe.name} probe has no gap and no "
+                                        f"threshold; use model = \"{gapped[0]}\"")
     gap = float(base.probe.gap)
     vary = list(vary)
     if not vary:
@@ -149,20 +170,11 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
             ("healing_length", "m")]
     data = np.column_stack([np.arange(n, dtype=float), gaps, gaps / (2 * math.pi),
                             vt * c, vt, q / xi, np.full(n, c), np.full(n, xi)])
-    traj = base.trajectory
+    engine = engine_for(base.trajectory) if base.trajectory.stationary else None
     speed = None
-    if traj.stationary_kind == "inertial":
-        speed = float(traj.stationary_parameters()["speed"])
-    notes = []
-    if cond.dispersion.name == "phonon":
-        notes.append("with the phonon dispersion w = c k the threshold is the sound "
-                     "speed at every gap")
-    if cond.temperature > 0:
-        notes.append("at T > 0 thermal phonons also excite the probe below the "
-                     "threshold; the threshold is that of spontaneous excitation")
-    if traj.stationary_kind == "circular":
-        notes.append("the configured path is a circle, on which up transitions occur "
-                     "at any speed; the table is for straight motion through the same gas")
+    if engine is not None and engine.has_threshold:
+        speed = float(base.trajectory.stationary_parameters()["speed"])
+    notes = _threshold_notes(cond, engine)
     return ThresholdTable(columns=[c_ for c_, _ in cols], units=[u for _, u in cols],
                           data=data,
                           configured={"gap": gap, "threshold_speed": float(vt0[0] * c),
@@ -174,12 +186,14 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
 # ---------------------------------------------------------------------------
 # solve
 # ---------------------------------------------------------------------------
-#: results that may be targeted (column of the sweep)
-TARGETS = ("up_rate", "down_rate", "effective_temperature", "excited_population",
-           "emission_rate", "absorption_rate", "drag_force", "power",
-           "up_probability", "down_probability", "emitted_phonons")
-#: quantities of finite transits (not available from scenario files yet)
-TRANSIT_TARGETS = ("up_probability", "down_probability")
+#: results that may be targeted (columns of a sweep; ``target`` in the
+#: quantity registry)
+TARGETS = target_names()
+#: the probabilities of finite transits (targets that only transits give)
+TRANSIT_TARGETS = tuple(
+    n for n in TARGETS if quantity(n).word == "probability"
+    and any(n in m.transit_outputs for m in PROBE_MODELS.values())
+    and not any(n in m.rate_outputs for m in PROBE_MODELS.values()))
 
 SCAN_POINTS = 101
 SPEED_RANGE = ("0 c_s", "5 c_s")
@@ -279,6 +293,116 @@ def _configured_value(raw, key, scenario):
         return None
 
 
+def _search_range(raw, key, bounds, base):
+    """(lo, hi): the ends of the search for ``key``, strings with units:
+    ``bounds`` "LO:HI", 0 .. 5 c_s for the speed, or a decade either side
+    of the configured value."""
+    if bounds is not None:
+        parts = bounds.split(":") if isinstance(bounds, str) else list(bounds)
+        if len(parts) != 2 or not all(str(p).strip() for p in parts):
+            raise InputError("--range", f"expected LO:HI with units, e.g. "
+                                        f"'0.5c_s:3c_s', got {bounds!r}")
+        lo, hi = (str(p).strip() for p in parts)
+        return lo, hi
+    if key == "trajectory.speed":
+        return SPEED_RANGE
+    v0 = _configured_value(raw, key, base)
+    if v0 is None or not v0 > 0:
+        raise InputError("--range", f"give --range LO:HI for {key} (the "
+                                    "configuration has no positive value of it "
+                                    "to search around)")
+    unit = si_unit(NUMERIC_KEYS[key], base.condensate.dimension)
+    return f"{v0 / VALUE_SPAN!r} {unit}", f"{v0 * VALUE_SPAN!r} {unit}"
+
+
+def _brackets(f):
+    """[(kind, i)]: grid points where ``f`` vanishes ("exact") and intervals
+    [i, i + 1] across which it changes sign ("bracket")."""
+    finite = np.isfinite(f)
+    roots = []
+    for i in range(len(f)):
+        if finite[i] and f[i] == 0:
+            roots.append(("exact", i))
+        elif i + 1 < len(f) and finite[i] and finite[i + 1] and f[i] * f[i + 1] < 0:
+            roots.append(("bracket", i))
+    return roots
+
+
+class _Search:
+    """The scan of ``key`` over [lo, hi] (``span``: the same in SI or c_s,
+    a < b) and the refinement of the sign changes of ``quantity - goal``."""
+
+    def __init__(self, raw, source, key, ends, span, target, scan_points, axis):
+        self.raw, self.source, self.key = raw, source, key
+        self.lo, self.hi = ends
+        self.axis = axis
+        a, b = span
+        use_log = a > 0 and b / a >= 100
+        self.scan = sweep(raw, [(key, self.lo, self.hi, int(scan_points))],
+                          log=(key,) if use_log else (), source=source)
+        self.qname, self.goal = parse_target(target, self.scan.columns, self.scan.units)
+        self.qunit = self.scan.unit(self.qname)
+        self.x = self.scan.axes[0].values
+        self.f = self.scan.column(self.qname) - self.goal
+
+    def text(self, v):
+        """The configuration entry of the grid value ``v``."""
+        ax = self.axis
+        return float(v) if ax.kind == "dimensionless" else f"{float(v)!r} {ax.unit}"
+
+    def miss(self, v):
+        """``quantity - goal`` at the value ``v`` of the key."""
+        cols, _, row, _ = evaluate_point(self.raw, {self.key: self.text(v)},
+                                         source=self.source)
+        val = row[cols.index(self.qname)]
+        if not math.isfinite(val):
+            raise InputError(self.key, f"{self.qname} has no finite value at {self.text(v)}")
+        return val - self.goal
+
+    def not_reached(self, a, b):
+        """The InputError when no value in [a, b] reaches the goal."""
+        qname, goal, qunit, key = self.qname, self.goal, self.qunit, self.key
+        vals = self.scan.column(qname)[np.isfinite(self.f)]
+        if vals.size == 0:
+            return InputError("--target", f"{qname} has no finite value for {key} in "
+                                          f"[{self.lo}, {self.hi}]")
+        return InputError("--target", f"no {key} in [{_shown(self.axis, a)}, "
+                                      f"{_shown(self.axis, b)}] gives {qname} = "
+                                      f"{goal:.6g} {qunit}: there {qname} runs from "
+                                      f"{vals.min():.6g} to {vals.max():.6g} {qunit}"
+                                      + _missed_hint(key))
+
+    def refine(self, roots):
+        """The values of the key that reach the goal: exact grid points and
+        Brent's method on the brackets (brackets across a jump are dropped;
+        a single one is an error)."""
+        from scipy.optimize import brentq
+
+        x, f, goal, qunit = self.x, self.f, self.goal, self.qunit
+        values = []
+        for kind, i in roots:
+            if kind == "exact":
+                values.append(float(x[i]))
+                continue
+            x0, x1 = float(x[i]), float(x[i + 1])
+            r = brentq(self.miss, x0, x1, xtol=1e-13 * max(abs(x0), abs(x1)), rtol=1e-12,
+                       maxiter=200)
+            if abs(self.miss(r)) <= 1e-6 * max(abs(goal), 1e-300):
+                values.append(float(r))
+            elif len(roots) == 1:
+                raise InputError("--target", f"{self.qname} jumps across {goal:.6g} "
+                                             f"{qunit} near {self.key} = {self.text(r)} "
+                                             f"(from {f[i] + goal:.6g} to "
+                                             f"{f[i + 1] + goal:.6g} {qunit}); no value "
+                                             f"in [{self.lo}, {self.hi}] gives the target "
+                                             "exactly")
+        if not values:
+            raise InputError("--target", f"{self.qname} only jumps across {goal:.6g} "
+                                         f"{qunit} in [{self.lo}, {self.hi}]; no value "
+                                         "gives it exactly")
+        return values
+
+
 def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINTS,
           removals=()):
     """The value of ``key`` (within ``bounds`` ``"LO:HI"`` with units) at
@@ -289,109 +413,34 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
     :func:`scipy.optimize.brentq`.  Raises InputError when no value in the
     range reaches the target.  ``removals`` and ``overrides`` edit the
     configuration first (as ``--unset`` and ``--set``)."""
-    from scipy.optimize import brentq
-
     from probe.scenarios.config import scenario_from_dict
 
     raw, source = raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)
     key = check_numeric_key(key, "--for")
-    if bounds is not None:
-        parts = bounds.split(":") if isinstance(bounds, str) else list(bounds)
-        if len(parts) != 2 or not all(str(p).strip() for p in parts):
-            raise InputError("--range", f"expected LO:HI with units, e.g. "
-                                        f"'0.5c_s:3c_s', got {bounds!r}")
-        lo, hi = (str(p).strip() for p in parts)
-    elif key == "trajectory.speed":
-        lo, hi = SPEED_RANGE
-    else:
-        v0 = _configured_value(raw, key, base)
-        if v0 is None or not v0 > 0:
-            raise InputError("--range", f"give --range LO:HI for {key} (the "
-                                        "configuration has no positive value of it "
-                                        "to search around)")
-        unit = si_unit(NUMERIC_KEYS[key], base.condensate.dimension)
-        lo, hi = f"{v0 / VALUE_SPAN!r} {unit}", f"{v0 * VALUE_SPAN!r} {unit}"
-    plan = plan_sweep(raw, [(key, lo, hi, 2)], (), source=source)
-    ax = plan.axes[0]
+    lo, hi = _search_range(raw, key, bounds, base)
+    ax = plan_sweep(raw, [(key, lo, hi, 2)], (), source=source).axes[0]
     a, b = float(ax.values[0]), float(ax.values[-1])
     if a == b:
         raise InputError("--range", f"LO and HI must differ, got {bounds!r}")
     if a > b:
         lo, hi, a, b = hi, lo, b, a
-    use_log = a > 0 and b / a >= 100
-    scan = sweep(raw, [(key, lo, hi, int(scan_points))],
-                 log=(key,) if use_log else (), source=source)
-    qname, goal = parse_target(target, scan.columns, scan.units)
-    qunit = scan.unit(qname)
-    x = scan.axes[0].values
-    f = scan.column(qname) - goal
-    unit_text = ax.unit
-
-    def text(v):
-        return float(v) if ax.kind == "dimensionless" else f"{float(v)!r} {unit_text}"
-
-    def g(v):
-        cols, _, row, _ = evaluate_point(raw, {key: text(v)}, source=source)
-        val = row[cols.index(qname)]
-        if not math.isfinite(val):
-            raise InputError(key, f"{qname} has no finite value at {text(v)}")
-        return val - goal
-
-    roots = []
-    finite = np.isfinite(f)
-    for i in range(len(x)):
-        if finite[i] and f[i] == 0:
-            roots.append(("exact", i))
-        elif i + 1 < len(x) and finite[i] and finite[i + 1] and f[i] * f[i + 1] < 0:
-            roots.append(("bracket", i))
+    search = _Search(raw, source, key, (lo, hi), (a, b), target, scan_points, ax)
+    roots = _brackets(search.f)
     if not roots:
-        vals = scan.column(qname)[finite]
-        if vals.size == 0:
-            raise InputError("--target", f"{qname} has no finite value for {key} in "
-                                         f"[{lo}, {hi}]")
-        raise InputError("--target", f"no {key} in [{_shown(ax, a)}, {_shown(ax, b)}] "
-                                     f"gives {qname} = "
-                                     f"{goal:.6g} {qunit}: there {qname} runs from "
-                                     f"{vals.min():.6g} to {vals.max():.6g} {qunit}"
-                                     + _missed_hint(key))
-    values = []
-    for kind, i in roots:
-        if kind == "exact":
-            values.append(float(x[i]))
-            continue
-        x0, x1 = float(x[i]), float(x[i + 1])
-        r = brentq(g, x0, x1, xtol=1e-13 * max(abs(x0), abs(x1)), rtol=1e-12, maxiter=200)
-        miss = abs(g(r))
-        if miss > 1e-6 * max(abs(goal), 1e-300):
-            left, right = f[i] + goal, f[i + 1] + goal
-            if len(roots) == 1:
-                raise InputError("--target", f"{qname} jumps across {goal:.6g} {qunit} "
-                                             f"near {key} = {text(r)} (from {left:.6g} to "
-                                             f"{right:.6g} {qunit}); no value in "
-                                             f"[{lo}, {hi}] gives the target exactly")
-            continue
-        values.append(float(r))
-    if not values:
-        raise InputError("--target", f"{qname} only jumps across {goal:.6g} {qunit} "
-                                     f"in [{lo}, {hi}]; no value gives it exactly")
-    best = values[0]
-    cols, units, row, warns = evaluate_point(raw, {key: text(best)}, source=source)
+        raise search.not_reached(a, b)
+    values = search.refine(roots)
+    cols, units, row, warns = evaluate_point(raw, {key: search.text(values[0])},
+                                             source=source)
     c = float(row[cols.index("sound_speed")])
-    si_val = best * c if ax.relative else best
-    others = [v * c if ax.relative else v for v in values[1:]]
-
-    def shown(v):
-        if ax.relative:
-            return f"{v:.4g} c_s"
-        return format_value(ax.kind, ax.unit, v)
-
-    return Solution(key=key, value=si_val, unit=si_unit(ax.kind, base.condensate.dimension),
-                    quantity=qname, quantity_unit=qunit, target=goal,
-                    achieved=float(row[cols.index(qname)]), others=others,
-                    bracket=(a, b), scan=(shown(a), shown(b), int(scan_points)),
-                    sound_speed=c,
-                    warnings=" | ".join(warns))
+    scale = c if ax.relative else 1.0
+    return Solution(key=key, value=values[0] * scale,
+                    unit=si_unit(ax.kind, base.condensate.dimension),
+                    quantity=search.qname, quantity_unit=search.qunit, target=search.goal,
+                    achieved=float(row[cols.index(search.qname)]),
+                    others=[v * scale for v in values[1:]], bracket=(a, b),
+                    scan=(_shown(ax, a), _shown(ax, b), int(scan_points)),
+                    sound_speed=c, warnings=" | ".join(warns))
 
 
 def _shown(ax, v):
