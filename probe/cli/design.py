@@ -12,7 +12,7 @@ import sys
 import click
 
 from probe.cli.app import cli
-from probe.cli.common import EXIT_INPUT, fail as _fail, input_errors as _input_errors
+from probe.cli.common import EXIT_INPUT, fail, input_errors
 
 _VARY_HELP = ("Grid over a numeric key, START and STOP with units, e.g. "
               "'trajectory.speed=0.5c_s:3c_s:101' or "
@@ -26,10 +26,6 @@ _UNSET_HELP = ("Remove a configuration entry, e.g. --unset probe.gap (before any
 
 def _command_line():
     return " ".join(shlex.quote(a) for a in ["probe", *sys.argv[1:]])
-
-
-def _errors():
-    return _input_errors()
 
 
 def _check_plot(path):
@@ -95,7 +91,7 @@ def sweep(config, vary, log, out, overrides, removals, resume, workers, schedule
     column with its unit."""
     from probe.design.sweep import plan_sweep, sidecar_path, sweep as run
 
-    errors = _errors()
+    errors = input_errors()
     try:
         _check_plot(plot)
         plan = plan_sweep(config, vary, log, overrides, removals=removals)
@@ -115,7 +111,7 @@ def sweep(config, vary, log, out, overrides, removals, resume, workers, schedule
             from probe.design.plots import plot_sweep
             plot_sweep(result, plot, quantity=quantity)
     except errors as exc:
-        _fail(exc)
+        fail(exc)
     n = result.data.shape[0]
     flagged = sum(1 for w in result.warnings if w)
     missing = sum(1 for w in result.warnings if w.startswith("no result"))
@@ -167,7 +163,7 @@ def compare(config, vary, log, models, gap, width, temperature, out, plot,
     where they differ."""
     from probe.design.compare import compare as run
 
-    errors = _errors()
+    errors = input_errors()
     try:
         _check_plot(plot)
         names = None if models is None else [m.strip() for m in models.split(",") if m.strip()]
@@ -180,7 +176,7 @@ def compare(config, vary, log, models, gap, width, temperature, out, plot,
             from probe.design.plots import plot_comparison
             plot_comparison(result, plot)
     except errors as exc:
-        _fail(exc)
+        fail(exc)
     click.echo(result.summary())
     _report_written(out, plot)
 
@@ -212,7 +208,7 @@ def threshold(config, vary, log, out, plot, overrides, removals):
     the sound speed."""
     from probe.design.solver import threshold_table
 
-    errors = _errors()
+    errors = input_errors()
     try:
         _check_plot(plot)
         table = threshold_table(config, vary=vary, log=log, overrides=overrides,
@@ -223,7 +219,7 @@ def threshold(config, vary, log, out, plot, overrides, removals):
             from probe.design.plots import plot_threshold
             plot_threshold(table, plot)
     except errors as exc:
-        _fail(exc)
+        fail(exc)
     click.echo(table.summary(rows=out is None))
     _report_written(out, plot)
 
@@ -246,12 +242,12 @@ def solve(config, key, target, bounds, overrides, removals):
     bracket, then Brent's method)."""
     from probe.design.solver import solve as run
 
-    errors = _errors()
+    errors = input_errors()
     try:
         sol = run(config, key, target, bounds=bounds, overrides=overrides,
                   removals=removals)
     except errors as exc:
-        _fail(exc)
+        fail(exc)
     click.echo(sol.summary())
 
 

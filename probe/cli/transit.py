@@ -44,7 +44,8 @@ from probe.cli.common import fail, input_errors, num, q, result_rows
 from probe.cli.rates import rows_derived, rows_inputs
 from probe.errors import InputError
 from probe.quantities import headline, quantity
-from probe.scenarios.transit import _fmt_time, check_transit, describe
+from probe.scenarios.limits import fmt_time
+from probe.scenarios.transit import check_transit, describe
 
 _SET_HELP = ("Override a configuration entry, e.g. --set 'trajectory.switching_width=3 ms'. "
              "Repeatable; applied to every CONFIG.")
@@ -88,8 +89,8 @@ def _rows_path(scenario, info):
     t0, t1 = trj["time_span"]
     rows += [("trajectory", f"spline of order {trj['order']} through "
                             f"{trj['waypoints']} waypoints{where}"),
-             ("path time span", f"{_fmt_time(t0, t1 - t0)} .. {_fmt_time(t1, t1 - t0)}  "
-                                f"({_fmt_time(t1 - t0)}, {num((t1 - t0) * cond.frequency_unit)}"
+             ("path time span", f"{fmt_time(t0, t1 - t0)} .. {fmt_time(t1, t1 - t0)}  "
+                                f"({fmt_time(t1 - t0)}, {num((t1 - t0) * cond.frequency_unit)}"
                                 " xi/c)"),
              ("path length", f"{q(trj['path_length'], 'um', 1e-6)}  "
                              f"({num(trj['path_length'] / xi)} xi)"),
@@ -104,20 +105,20 @@ def _rows_path(scenario, info):
 def _rows_switching(scenario, info):
     sw = info["switching"]
     if sw["kind"] == "gaussian":
-        what = (f"gaussian, width tau = {_fmt_time(sw['width'])}, centre "
-                f"t = {_fmt_time(sw['centre'], sw['width'])}")
+        what = (f"gaussian, width tau = {fmt_time(sw['width'])}, centre "
+                f"t = {fmt_time(sw['centre'], sw['width'])}")
     else:
         span = sw["stop"] - sw["start"]
-        what = (f"{sw['kind']}, {_fmt_time(sw['start'], span)} .. "
-                f"{_fmt_time(sw['stop'], span)}, ramp {_fmt_time(sw['ramp'])}")
+        what = (f"{sw['kind']}, {fmt_time(sw['start'], span)} .. "
+                f"{fmt_time(sw['stop'], span)}, ramp {fmt_time(sw['ramp'])}")
     t0, t1 = sw["on_interval"]
     w0 = scenario.condensate.frequency_unit
     return [("switching", what),
             (f"coupling on (chi > {sw['on_level']:g})",
-             f"{_fmt_time(t0, t1 - t0)} .. {_fmt_time(t1, t1 - t0)}"),
-            ("transit duration", f"{_fmt_time(sw['transit_duration'])}  "
+             f"{fmt_time(t0, t1 - t0)} .. {fmt_time(t1, t1 - t0)}"),
+            ("transit duration", f"{fmt_time(sw['transit_duration'])}  "
                                  f"({num(sw['transit_duration'] * w0)} xi/c)"),
-            ("effective duration", f"{_fmt_time(sw['effective_duration'])}  "
+            ("effective duration", f"{fmt_time(sw['effective_duration'])}  "
                                    "(int chi^2 dt)"),
             ("requested accuracy", f"transit_rtol = {num(scenario.transit_rtol)}"
                                    + ("" if scenario.transit_method == "auto" else
