@@ -31,7 +31,7 @@ from probe.gas.condensate import Condensate  # noqa: E402
 from probe.engines.stationary import circular_rates, inertial_rates  # noqa: E402
 from probe.detectors import TwoLevelProbe  # noqa: E402
 
-M_RB = 86.909180531 * sc.atomic_mass
+from conftest import RB87_MASS as M_RB  # noqa: E402
 
 
 def loop_point(v, W):

@@ -20,9 +20,11 @@ from probe.errors import InputError
 from probe.gas.condensate import Condensate
 from trajectories import Linear
 
+from conftest import RB87_MASS
+
 HBAR = sc.hbar
 # 87Rb gas; the couplings are of the size of a few-nm impurity scattering length
-RB = dict(dimension=3, mass=1.44316060e-25, density=6e19, scattering_length=5.3e-9)
+RB = dict(dimension=3, mass=RB87_MASS, density=6e19, scattering_length=5.3e-9)
 KA, KB = 3.0e-51, 6.0e-51
 WIDTH = 0.2e-6
 

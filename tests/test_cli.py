@@ -11,7 +11,9 @@ from scipy import constants as sc
 import probe
 from probe.cli import cli
 
-M_RB = 86.909180531 * sc.atomic_mass     # 87Rb (AME2016, from memory)
+from conftest import RB87_MASS
+
+M_RB = RB87_MASS
 
 TWO_LEVEL = """
 [condensate]

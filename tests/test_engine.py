@@ -31,24 +31,22 @@ from probe.errors import ModelError
 from probe.detectors import DensityProbe, TwoLevelProbe, coupling_from_scattering_length
 from trajectories import Circular, Linear
 
+from conftest import RB87_MASS, RB87_SCATTERING_LENGTH, rb_gas
+
 HBAR, KB = sc.hbar, sc.k
-# 87Rb mass 86.909180531 u (atomic mass evaluation; value from memory)
-M_RB = 86.909180531 * sc.atomic_mass
-A_RB = 5.3e-9   # 87Rb scattering length ~100 a_0 (common value, from memory)
+M_RB, A_RB = RB87_MASS, RB87_SCATTERING_LENGTH
 
 
 def gas3(T=0.0, n=1e20, dispersion="bogoliubov"):
-    return Condensate(3, M_RB, n, A_RB, temperature=T, dispersion=dispersion)
+    return rb_gas(3, T, dispersion, density=n)
 
 
 def gas2(T=0.0, n=1e14):
-    return Condensate(2, M_RB, n, A_RB, transverse_frequency=2 * math.pi * 5e3,
-                      temperature=T)
+    return rb_gas(2, T, density=n)
 
 
 def gas1(T=0.0, n=5e7):
-    return Condensate(1, M_RB, n, A_RB, transverse_frequency=2 * math.pi * 10e3,
-                      temperature=T)
+    return rb_gas(1, T, density=n, transverse_frequency=2 * math.pi * 10e3)
 
 
 def bogoliubov_si(cond, k):

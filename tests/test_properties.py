@@ -28,15 +28,14 @@ from hypothesis import strategies as st
 from scipy import constants as sc
 
 from probe.cli import cli
-from probe.gas.condensate import Condensate
 from probe.scenarios.config import scenario_from_dict
 from probe.engines.stationary import circular_rates, inertial_rates
 from probe.errors import ModelError
 from probe.detectors import DensityProbe, TwoLevelProbe
 
-HBAR, KB = sc.hbar, sc.k
-M_RB = 86.909180531 * sc.atomic_mass   # 87Rb, atomic mass evaluation (from memory)
-A_RB = 5.3e-9
+from conftest import DENSITY, KAPPA, RB87_MASS, RB87_SCATTERING_LENGTH, rb_gas
+
+HBAR = sc.hbar
 
 CI = bool(os.environ.get("CI"))
 #: PROBE_HYPOTHESIS_SCALE=20 runs twenty times the examples (a local campaign)
@@ -48,20 +47,8 @@ def props(n):
                     database=None, suppress_health_check=[HealthCheck.too_slow])
 
 
-def gas(d, T_nat=0.0, mass=M_RB, density=None, a=A_RB, wperp=2 * math.pi * 5e3,
-        dispersion="bogoliubov"):
-    """A gas; T_nat is k_B T in units of its own m c^2."""
-    n = density if density is not None else {1: 5e8, 2: 1e13, 3: 1e20}[d]
-    kw = {} if d == 3 else {"transverse_frequency": wperp}
-    cond = Condensate(d, mass, n, a, dispersion=dispersion, **kw)
-    if T_nat:
-        cond = Condensate(d, mass, n, a, dispersion=dispersion,
-                          temperature=T_nat * cond.energy_unit / KB, **kw)
-    return cond
-
-
 def kappa(d):
-    return {1: 1e-32, 2: 1e-42, 3: 1e-52}[d]
+    return KAPPA[d]
 
 
 def unit(cond, kap):
@@ -90,7 +77,7 @@ widths = st.one_of(st.just(0.0), st.floats(-3, 0.5).map(lambda x: 10.0 ** x))
 @props(60)
 @given(d=dims, W=gaps, v=speeds, T=temps, s=widths, density_probe=st.booleans())
 def test_rates_are_finite_and_non_negative(d, W, v, T, s, density_probe):
-    cond = gas(d, T)
+    cond = rb_gas(d, T_nat=T)
     xi = cond.healing_length
     probe = (DensityProbe(kappa(d), s * xi) if density_probe else
              TwoLevelProbe(W * cond.frequency_unit, kappa(d), s * xi))
@@ -113,7 +100,7 @@ def test_rates_are_finite_and_non_negative(d, W, v, T, s, density_probe):
 @given(d=dims, W=gaps, v=speeds, T=temps, factor=st.floats(-3, 3).map(lambda x: 10.0 ** x),
        sign=st.sampled_from([1.0, -1.0]))
 def test_rates_scale_with_coupling_squared(d, W, v, T, factor, sign):
-    cond = gas(d, T)
+    cond = rb_gas(d, T_nat=T)
     w0 = cond.frequency_unit
     a = rates(cond, TwoLevelProbe(W * w0, kappa(d)), v)
     b = rates(cond, TwoLevelProbe(W * w0, sign * factor * kappa(d)), v)
@@ -170,10 +157,11 @@ def test_rates_in_healing_length_units_are_universal(d, W, v, T, s, mass_factor,
     # [DA]: two different gases at the same v/c, Omega xi/c, s/xi and
     # k_B T/(m c^2) have the same rate in units of (kappa/hbar)^2 n xi^-d xi/c
     results = []
-    for cond in (gas(d, T),
-                 gas(d, T, mass=mass_factor * M_RB,
-                     density={1: 5e8, 2: 1e13, 3: 1e20}[d] * density_factor,
-                     a=A_RB * a_factor, wperp=2 * math.pi * 3e3)):
+    for cond in (rb_gas(d, T_nat=T),
+                 rb_gas(d, T_nat=T, mass=mass_factor * RB87_MASS,
+                        density=DENSITY[d] * density_factor,
+                        scattering_length=RB87_SCATTERING_LENGTH * a_factor,
+                        transverse_frequency=2 * math.pi * 3e3)):
         p = TwoLevelProbe(W * cond.frequency_unit, kappa(d), s * cond.healing_length)
         r = rates(cond, p, v)
         results.append((r.down_rate / unit(cond, kappa(d)), r.up_rate / unit(cond, kappa(d))))
@@ -187,7 +175,7 @@ def test_rates_in_healing_length_units_are_universal(d, W, v, T, s, mass_factor,
 @given(d=dims, W=gaps, T=st.floats(-3, 2).map(lambda x: 10.0 ** x), s=widths)
 def test_static_probe_obeys_detailed_balance_at_any_temperature(d, W, T, s):
     assume(W / T < 600)           # exp(-700) is the edge of double precision
-    cond = gas(d, T)
+    cond = rb_gas(d, T_nat=T)
     r = inertial_rates(cond, TwoLevelProbe(W * cond.frequency_unit, kappa(d),
                                            s * cond.healing_length), 0.0)
     assume(r.down_rate > 0)
@@ -210,7 +198,7 @@ def test_static_probe_obeys_detailed_balance_at_any_temperature(d, W, T, s):
 @given(d=dims, W=gaps, v=st.floats(0, 0.999999), s=widths,
        dispersion=st.sampled_from(["bogoliubov", "phonon"]))
 def test_subsonic_inertial_up_rate_is_exactly_zero_at_zero_temperature(d, W, v, s, dispersion):
-    cond = gas(d, dispersion=dispersion)
+    cond = rb_gas(d, dispersion=dispersion)
     r = rates(cond, TwoLevelProbe(W * cond.frequency_unit, kappa(d),
                                   s * cond.healing_length), v)
     assert r.up_rate == 0.0
@@ -327,7 +315,7 @@ speed = "1.7 c_s"
 @given(d=st.sampled_from([2, 3]), R=st.floats(-1, 2).map(lambda x: 10.0 ** x),
        v=st.floats(0.05, 3), W=st.floats(-2, 0.5).map(lambda x: 10.0 ** x))
 def test_circular_rates_are_finite_non_negative_and_repeatable(d, R, v, W):
-    cond = gas(d)
+    cond = rb_gas(d)
     p = TwoLevelProbe(W * cond.frequency_unit, kappa(d))
     args = (cond, p, R * cond.healing_length, v * cond.sound_speed)
     a, b = circular_rates(*args), circular_rates(*args)

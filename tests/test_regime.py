@@ -9,9 +9,9 @@ from probe.detectors import DensityProbe, TwoLevelProbe
 from probe.engines.regime import regime_warnings
 from probe.engines.results import RateResult
 
-U = sc.atomic_mass
-M_RB = 86.909180531 * U      # 87Rb (AME2016, from memory)
-M_NA = 22.9897692820 * U     # 23Na (AME2016, from memory)
+from conftest import NA23_MASS, RB87_MASS
+
+M_RB, M_NA = RB87_MASS, NA23_MASS
 TWO_PI = 2 * math.pi
 
 

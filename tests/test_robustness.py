@@ -26,32 +26,16 @@ import numpy as np
 import pytest
 from scipy import constants as sc
 
-from probe.gas.condensate import Condensate
 from probe.engines.stationary import (GAP_RANGE, MAX_SPEED_OVER_C, STATIC_SPEED, circular_rates,
                           inertial_rates)
 from probe.errors import ModelError
 from probe.detectors import DensityProbe, TwoLevelProbe
 
+from conftest import KAPPA, rb_gas as gas, two_level
+
 pytestmark = pytest.mark.filterwarnings("error::RuntimeWarning")
 
 HBAR, KB = sc.hbar, sc.k
-# 87Rb mass 86.909180531 u (atomic mass evaluation; value from memory)
-M_RB = 86.909180531 * sc.atomic_mass
-A_RB = 5.3e-9   # ~100 a_0, common value (from memory)
-DENSITY = {1: 5e8, 2: 1e13, 3: 1e20}
-KAPPA = {1: 1e-32, 2: 1e-42, 3: 1e-52}
-
-
-def gas(d, T=0.0, dispersion="bogoliubov"):
-    kw = {} if d == 3 else {"transverse_frequency": 2 * math.pi * 5e3}
-    return Condensate(d, M_RB, DENSITY[d], A_RB, temperature=T,
-                      dispersion=dispersion, **kw)
-
-
-def two_level(cond, W, s=0.0):
-    """Gap W c/xi, width s xi."""
-    return TwoLevelProbe(W * cond.frequency_unit, KAPPA[cond.dimension],
-                         s * cond.healing_length)
 
 
 def unit(cond):

@@ -14,13 +14,14 @@ import pytest
 from scipy import constants as sc
 from scipy import integrate, special
 
-from probe.gas.condensate import Condensate
 from probe.engines.stationary import circular_rates, inertial_rates
 from probe.errors import InputError, ModelError
 from probe.detectors import DensityProbe, TwoLevelProbe
 from probe.detectors.switching import Gaussian, PathSpan, Window
 from probe.engines.transit import transit_probabilities
 from trajectories import Circular, Linear, Spline
+
+from conftest import condensate
 
 HBAR, KB = sc.hbar, sc.k
 MASS = 23 * sc.atomic_mass
@@ -31,14 +32,7 @@ COUPLING = 1e-50           # J m^d (tiny: probabilities stay first order)
 
 def gas(d, T=0.0, dispersion="bogoliubov"):
     """Condensate at dimensionless temperature T = k_B T / (m c^2)."""
-    g = Condensate(d, MASS, DENS[d], 2.75e-9,
-                   transverse_frequency=None if d == 3 else WPERP,
-                   dispersion=dispersion)
-    if T:
-        g = Condensate(d, MASS, DENS[d], 2.75e-9,
-                       transverse_frequency=None if d == 3 else WPERP,
-                       temperature=T * g.energy_unit / KB, dispersion=dispersion)
-    return g
+    return condensate(d, MASS, DENS[d], 2.75e-9, WPERP, T_nat=T, dispersion=dispersion)
 
 
 def two_level(cond, gap, width):

@@ -20,8 +20,10 @@ from probe.gas.condensate import Condensate
 from probe.gas.trap import HarmonicTrap
 from trajectories import Linear
 
+from conftest import RB87_MASS
+
 HBAR = sc.hbar
-M_RB = 1.44316060e-25     # 86.909 u
+M_RB = RB87_MASS
 M_K = 40.96182526 * sc.atomic_mass
 TWO_PI = 2 * math.pi
 

@@ -24,6 +24,8 @@ from probe.errors import InputError
 from probe.detectors import DensityProbe, TwoLevelProbe
 from probe.scenarios.units import parse_quantity, parse_vector
 
+from conftest import RB87_MASS
+
 DOC = Path(__file__).resolve().parents[1] / "docs" / "bad_inputs.md"
 
 GAS3 = """[condensate]
@@ -346,7 +348,7 @@ def test_good_run_writes_the_whole_file(tmp_path):
 
 
 # --- Python API -------------------------------------------------------------------------------------
-M = 1.443e-25
+M = RB87_MASS
 
 
 @pytest.mark.parametrize("kwargs, key", [
