@@ -162,6 +162,14 @@ _add("emission_rate_error", "rate", "error of the emission rate",
 _add("absorption_rate", "rate", "absorption rate", "phonon absorption rate", True, True)
 _add("drag_force", "force", "drag force", "drag force", True, True)
 _add("power", "power", "power to the gas", "power given to the gas", True, True)
+_add("dephasing_rate", "rate", "dephasing rate", r"dephasing rate $\gamma_\phi$", True, True,
+     "dephasing_rate_error")
+_add("dephasing_rate_error", "rate", "error of the dephasing rate",
+     r"error of $\gamma_\phi$", True)
+_add("transition_coupling", "coupling", "transition coupling",
+     r"transition coupling $\kappa_t$")
+_add("detuning_in_gas", "frequency", "detuning in the gas",
+     r"detuning in the gas $\delta_\mathrm{gas}$")
 _add("harmonics", "count", "harmonics summed", "harmonics summed", role="motion",
      needs="radius")
 
@@ -183,6 +191,11 @@ _add("emitted_phonons_excited", "dimensionless", "emitted phonons, excited",
 _add("absorbed_phonons", "dimensionless", "absorbed phonons")
 _add("emitted_energy", "energy", "emitted energy", note="(ground-state start)",
      note_with="emitted_phonons_excited")
+_add("contrast", "dimensionless", "contrast", r"contrast $e^{-\Lambda}$", target=True)
+_add("decoherence_exponent", "dimensionless", "decoherence exponent",
+     r"decoherence exponent $\Lambda$", target=True, error="decoherence_exponent_error")
+_add("decoherence_exponent_error", "dimensionless", "error of the decoherence exponent")
+_add("mean_field_phase", "phase", "mean-field phase", "mean-field phase")
 _add("mean_up_rate", "rate", "mean up rate", role="derived",
      note="(P_up / effective duration)")
 _add("mean_down_rate", "rate", "mean down rate", role="derived",
