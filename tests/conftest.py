@@ -8,14 +8,15 @@ pytest fixtures over them:
   ``k_B T / (m c^2)``; the isotope masses come from the ``periodictable``
   package (the table the configuration reader uses), never typed in;
 - probes: every registered probe model (``probe.detectors.PROBE_MODELS``)
-  built from its constructor's parameter names, a gap in units of ``c/xi``
-  and a width in units of ``xi`` (0: a point probe);
+  built from its constructor's parameter names (``make_probe``), and the
+  two-level probe alone (``two_level``), with a gap in units of ``c/xi`` and
+  a width in units of ``xi`` (0: a point probe);
 - scenario dicts as the configuration reader takes them: straight and
   circular stationary motion, and a finite transit along a spline.
 
 Gas parameters are those of dilute alkali condensates (Pitaevskii and
-Stringari, *Bose-Einstein Condensation and Superfluidity*, 2016, ch. 6 and
-17): scattering lengths of about 100 a_0 for 87Rb and 52 a_0 for 23Na.
+Stringari, *Bose-Einstein Condensation and Superfluidity*, 2016): scattering
+lengths of about 100 a_0 for 87Rb and 52 a_0 for 23Na.
 """
 from __future__ import annotations
 
@@ -46,7 +47,7 @@ NA23_SCATTERING_LENGTH = 2.75e-9
 TRAP = 2 * math.pi * 5e3
 #: default densities of the 87Rb gases (m^-d)
 DENSITY = {1: 5e8, 2: 1e13, 3: 1e20}
-#: probe couplings kappa (J m^d): weak enough for first order in every gas here
+#: probe couplings kappa (J m^d) of the two-level probes built by ``two_level``
 KAPPA = {1: 1e-32, 2: 1e-42, 3: 1e-52}
 #: the quasi-2D 23Na gas of the contract tests (density m^-2, trap rad/s)
 NA23_2D_DENSITY = 3e13
@@ -101,12 +102,6 @@ def two_level(cond, W, s=0.0, coupling=None):
     return PROBE_MODELS["two-level"](W * cond.frequency_unit,
                                      KAPPA[cond.dimension] if coupling is None else coupling,
                                      s * cond.healing_length)
-
-
-def density_probe(cond, s=0.0, coupling=None):
-    """Structureless (density) probe of width ``s xi``."""
-    return PROBE_MODELS["density"](KAPPA[cond.dimension] if coupling is None else coupling,
-                                   s * cond.healing_length)
 
 
 #: probe-boson scattering length of the contract probes (m)
