@@ -20,7 +20,8 @@ A model owns its physics:
 - ``array_keys``: the configuration keys that the engines take as arrays
   (broadcast with speed and radius);
 - ``regime_warnings(condensate, result)``: the checks of validity that
-  belong to the model.
+  belong to the model, and ``rate_output_warnings(condensate, result)``:
+  its notes on its stationary outputs (placed after the gas's checks).
 
 A new model is one module with one subclass, and one line in
 ``probe.detectors.PROBE_MODELS``.
@@ -194,6 +195,11 @@ class ProbeModel:
 
     def regime_warnings(self, condensate, result):
         """Validity checks that belong to this model (sentences)."""
+        return []
+
+    def rate_output_warnings(self, condensate, result):
+        """Notes on this model's stationary outputs (sentences), placed after
+        the gas's regime checks: e.g. where an output is undetermined."""
         return []
 
     def transit_warnings(self, values):

@@ -2,9 +2,13 @@
 hbar*Omega coupled through sigma_x to the density of the gas."""
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from probe.detectors.base import HBAR, KB, Channel, InputError, ProbeModel
+from probe.engines.regime.limits import RATE_OVER_GAP_LIMIT, TEFF_ERROR_FACTOR
+from probe.engines.regime.wording import fmt, grid_prefix, lead
 
 
 class TwoLevelProbe(ProbeModel):
@@ -63,6 +67,85 @@ class TwoLevelProbe(ProbeModel):
                   "emitted_phonons_excited": ch["down_emission"],
                   "emitted_energy": ch["energy"]}
         return values, {"up": up, "down": dn}
+
+    # --- regime of validity (probe.engines.regime) ---------------------------
+    def regime_warnings(self, condensate, result):
+        """First-order perturbation theory needs the up and down rates slow
+        against the gap, Gamma << Omega (RATE_OVER_GAP_LIMIT; on a grid, the
+        worst point)."""
+        out = super().regime_warnings(condensate, result)
+        gaps = np.asarray(self.gap if result.gap is None else result.gap, float)
+        for name, rate in (("up", result.up_rate), ("down", result.down_rate)):
+            if rate is None:
+                continue
+            r = np.asarray(rate, dtype=float)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                ratio = np.broadcast_to(r / gaps, np.broadcast(r, gaps).shape)
+            finite = ratio[np.isfinite(ratio)]
+            if not (finite.size and np.max(finite) > RATE_OVER_GAP_LIMIT):
+                continue
+            i = int(np.argmax(np.where(np.isfinite(ratio), ratio, -np.inf)))
+            rv = float(np.broadcast_to(r, ratio.shape).flat[i])
+            gv = float(np.broadcast_to(gaps, ratio.shape).flat[i])
+            where = grid_prefix(np.isfinite(ratio) & (ratio > RATE_OVER_GAP_LIMIT))
+            if where:
+                out.append(
+                    f"first-order perturbation theory is breaking down {where}: "
+                    f"there the {name} rate exceeds {RATE_OVER_GAP_LIMIT} of the "
+                    f"gap frequency; largest: the {name} rate {fmt(rv)} s^-1 is "
+                    f"{fmt(rv / gv)} of Omega = {fmt(gv)} rad/s (should be << 1)")
+            else:
+                out.append(
+                    f"first-order perturbation theory is breaking down: the "
+                    f"{name} rate {fmt(rv)} s^-1 is {fmt(rv / gv)} of the gap "
+                    f"frequency Omega = {fmt(gv)} rad/s (should be << 1; limit "
+                    f"{RATE_OVER_GAP_LIMIT})")
+        return out
+
+    def rate_output_warnings(self, condensate, result):
+        """Where the effective temperature is undetermined (NaN): an up rate
+        that underflowed where it cannot vanish, or up and down rates that
+        agree to within TEFF_ERROR_FACTOR times their error estimates; each
+        sentence gives the bound on T_eff that is known."""
+        te = getattr(result, "effective_temperature", None)
+        if te is None or getattr(result, "up_rate", None) is None:
+            return []
+        te = np.asarray(te, float)
+        up = np.broadcast_to(np.asarray(result.up_rate, float), te.shape)
+        dn = np.broadcast_to(np.asarray(result.down_rate, float), te.shape)
+
+        def gaps():
+            return np.broadcast_to(np.asarray(self.gap if result.gap is None else result.gap,
+                                              float), te.shape)
+        out = []
+        under = np.isnan(te) & (up == 0) & (dn > 0)
+        if np.any(under):
+            # up < 1e-300 down, so ln(down/up) > 690.8
+            bound = HBAR * gaps() / (KB * math.log(1e300))
+            out.append(
+                f"{lead(under)}the effective temperature is undetermined (reported as NaN, "
+                "null in JSON): the up rate is not zero here (a warm gas or circular "
+                "motion) but below the smallest number a double holds, reported as 0; "
+                f"T_eff < {fmt(float(np.max(bound)) * 1e9)} nK")
+        mask = np.isnan(te) & (up > 0)
+        if not np.any(mask):
+            return out
+        eu = getattr(result, "up_rate_error", None)
+        ed = getattr(result, "down_rate_error", None)
+        eu = np.broadcast_to(np.asarray(0.0 if eu is None else eu, float), te.shape)
+        ed = np.broadcast_to(np.asarray(0.0 if ed is None else ed, float), te.shape)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            unc = TEFF_ERROR_FACTOR * (eu / up + ed / dn)
+            bound = HBAR * gaps() / (KB * unc)
+        i = int(np.argmax(mask))
+        return out + [
+            f"{lead(mask)}the effective temperature is undetermined (reported as NaN, "
+            f"null in JSON): the up and down rates agree to within "
+            f"{TEFF_ERROR_FACTOR:g} times their error estimates "
+            f"(|ln(down/up)| = {fmt(abs(math.log(dn.flat[i] / up.flat[i])))} <= "
+            f"{fmt(unc.flat[i])}), so only |T_eff| > {fmt(bound.flat[i] * 1e9)} nK is "
+            "known (equal rates mean an infinite effective temperature)"]
+
 
 
 def _checked_gap(gap):
