@@ -148,6 +148,17 @@ def json_value(x):
     return v if math.isfinite(v) else None
 
 
+def outputs_json(result, names):
+    """Every field of an engine's result (``to_dict``, SI) and the quantities
+    ``names`` (a model's declared outputs) that the result holds beside its
+    fields."""
+    out = result.to_dict()
+    for name in names:
+        if name not in out:
+            out[name] = json_value(getattr(result, name, None))
+    return out
+
+
 def write_atomic(path, text):
     """Write ``text`` to ``path`` whole or not at all: a temporary file in the
     same folder, renamed over ``path`` once complete.  InputError (key

@@ -16,8 +16,8 @@ import click
 from scipy import constants as sc
 
 from probe.cli.app import cli
-from probe.cli.common import (fail, input_errors, json_value, num, q, result_rows,
-                               write_atomic)
+from probe.cli.common import (fail, input_errors, json_value, num, outputs_json, q,
+                               result_rows, write_atomic)
 from probe.quantities import stationary_outputs
 
 
@@ -123,10 +123,11 @@ def format_table(scenario, result):
 
 
 def result_json(scenario, result):
-    """The JSON-ready dict for one scenario: every RateResult field (SI),
-    the config path, and the validated inputs and derived quantities."""
+    """The JSON-ready dict for one scenario: every RateResult field and
+    declared output (SI), the config path, and the validated inputs and
+    derived quantities."""
     out = {"config": scenario.source}
-    out.update(result.to_dict())
+    out.update(outputs_json(result, stationary_outputs(scenario.probe)))
     info = scenario.describe()
     out["gas_parameter"] = info["derived"]["gas_parameter"]
     out["gas_parameter_name"] = info["derived"]["gas_parameter_name"]
@@ -137,7 +138,6 @@ def result_json(scenario, result):
     out["transit"] = None if transit is None else {
         k: json_value(v) for k, v in transit.items()}
     return out
-
 
 
 @cli.command()

@@ -40,7 +40,7 @@ from pathlib import Path
 import click
 
 from probe.cli.app import cli
-from probe.cli.common import fail, input_errors, num, q, result_rows
+from probe.cli.common import fail, input_errors, num, q, outputs_json, result_rows
 from probe.cli.rates import rows_derived, rows_inputs
 from probe.errors import InputError
 from probe.quantities import headline, quantity
@@ -167,10 +167,11 @@ def format_transit_table(scenario, result, info, extras, files=()):
 
 
 def transit_json(scenario, result, info, extras, files=()):
-    """JSON-ready dict: every TransitResult field but the spectrum arrays (SI),
-    durations and mean rates, gas quantities and the validated inputs."""
+    """JSON-ready dict: every TransitResult field and declared output but the
+    spectrum arrays (SI), durations and mean rates, gas quantities and the
+    validated inputs."""
     out = {"config": scenario.source}
-    data = result.to_dict()
+    data = outputs_json(result, scenario.probe.transit_outputs)
     data.pop("spectrum", None)
     out.update(data)
     out.update(extras)
