@@ -31,6 +31,7 @@ import numpy as np
 from probe.errors import InputError
 from probe.design.sweep import column_kind, display_unit
 from probe.quantities import QUANTITIES, default_plotted, shared_noun
+from probe.scenarios.schema import KEY_LABELS
 
 SUFFIXES = (".png", ".pdf", ".svg")
 
@@ -43,22 +44,6 @@ HATCHES = ["///", "\\\\\\", "xxx", "...", "|||"]
 #: values below this fraction of the largest are not shown on log scales
 LOG_FLOOR = 1e-12
 
-KEY_LABELS = {
-    "trajectory.speed": "speed $v$",
-    "trajectory.radius": "radius $R$",
-    "trajectory.angular_frequency": r"angular frequency $\omega_c$",
-    "probe.gap": r"gap $\Omega/2\pi$",
-    "probe.width": "probe width $s$",
-    "probe.coupling_length": "probe-boson scattering length $a_{pb}$",
-    "probe.coupling": r"coupling $\kappa$",
-    "probe.mass": "probe mass",
-    "condensate.density": "density $n$",
-    "condensate.temperature": "temperature $T$",
-    "condensate.scattering_length": "scattering length $a$",
-    "condensate.transverse_frequency": r"transverse trap $\omega_\perp/2\pi$",
-    "condensate.mass": "boson mass",
-    "numerics.rtol": "relative tolerance",
-}
 #: plot labels of the result quantities (``probe.quantities``)
 QUANTITY_LABELS = {name: q.tex for name, q in QUANTITIES.items() if q.tex}
 _PRETTY = {"um": "µm", "um/s": "µm/s", "uK": "µK", "us": "µs", "1/s": "s$^{-1}$",

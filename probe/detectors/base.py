@@ -35,6 +35,7 @@ import numpy as np
 from scipy import constants as sc
 
 from probe.errors import InputError
+from probe.scenarios.keys import Key
 
 HBAR = sc.hbar
 KB = sc.k
@@ -148,6 +149,43 @@ class ProbeModel:
     #: configuration keys the engines take as arrays -> engine argument name
     array_keys: dict = {}
 
+    # --- scenario keys (read by probe.scenarios.detector) ---------------------
+    #: the keys of ``[probe]`` that every model reads: the coupling kappa
+    #: (given, or formed from a probe-boson scattering length with the
+    #: probe's mass) and the width
+    common_config_keys = (
+        Key("probe", "coupling_length", '"5 nm"', "probe-boson s-wave scattering "
+            "length a_pb (any sign): kappa = 2 pi hbar^2 a_pb / m_r (reduced mass), "
+            "divided by the transverse overlap in a quasi-2D or quasi-1D gas",
+            kind="length", required="this or coupling",
+            label="probe-boson scattering length $a_{pb}$", vary=8),
+        Key("probe", "coupling", '"1e-50 J m^3"', "the coupling kappa itself (energy "
+            "x length^dimension), instead of coupling_length", kind="coupling",
+            required="this or coupling_length", label=r"coupling $\kappa$", vary=9),
+        Key("probe", "mass", '"86.909 u"', "probe mass for the reduced mass with "
+            "coupling_length (default: the boson mass)", kind="mass",
+            label="probe mass", vary=10),
+        Key("probe", "species", '"87Rb"', "probe isotope (its mass), instead of mass "
+            "(default: the gas's species)"),
+        Key("probe", "width", '"0 um"', "rms width of the Gaussian probe density per "
+            "direction (0: a point probe)", kind="length", default="0 um",
+            label="probe width $s$", vary=11),
+    )
+    #: the keys of ``[probe]`` that this model alone reads (by name in the
+    #: values handed to ``from_config``)
+    config_keys: tuple = ()
+    #: keys of other models that this one does not read -> why (for the
+    #: message that asks to remove them)
+    unused_config_keys: dict = {}
+
+    @classmethod
+    def from_config(cls, values, condensate):
+        """The model from the parsed values of a scenario's ``[probe]``
+        table (SI): ``coupling`` (kappa, J m^d), ``width`` (m), ``mass`` (kg
+        of the probe; None with an explicit coupling) and the model's own
+        ``config_keys`` by name; ``condensate`` is the gas."""
+        return cls(values["coupling"], values["width"])
+
     def __init__(self, coupling, width=0.0):
         c = _number("probe.coupling", coupling)
         if not math.isfinite(c) or c == 0:
@@ -167,8 +205,9 @@ class ProbeModel:
         return np.exp(-(k * self.width) ** 2)
 
     def describe(self):
-        return {"model": self.name, "coupling": self.coupling,
-                "width": self.width, "gap": self.gap}
+        """The model's parameters (SI; ``gap`` None for a probe without one)."""
+        return {"model": self.name, "gap": self.gap if self.has_gap else None,
+                "coupling": self.coupling, "width": self.width}
 
     # --- the interface to the engines ----------------------------------------
     def channels(self, gap=None):

@@ -18,6 +18,7 @@ class DensityProbe(ProbeModel):
                     "drag_force", "power")
     transit_outputs = ("emitted_phonons", "emitted_phonons_error", "absorbed_phonons",
                        "emitted_energy")
+    unused_config_keys = {"gap": "a structureless impurity has no gap"}
 
     def channels(self, gap=None):
         return (Channel("density", 0.0, self.coupling),)

@@ -9,6 +9,7 @@ import numpy as np
 from probe.detectors.base import HBAR, KB, Channel, InputError, ProbeModel
 from probe.engines.regime.limits import RATE_OVER_GAP_LIMIT, TEFF_ERROR_FACTOR
 from probe.engines.regime.wording import fmt, grid_prefix, lead
+from probe.scenarios.keys import Key
 
 
 class TwoLevelProbe(ProbeModel):
@@ -31,6 +32,16 @@ class TwoLevelProbe(ProbeModel):
                        "down_probability_error", "emitted_phonons",
                        "emitted_phonons_excited", "emitted_energy")
     array_keys = {"probe.gap": "gap"}
+    config_keys = (
+        Key("probe", "gap", '"200 Hz"', "the gap: in Hz (kHz ...) an ordinary frequency, "
+            "Omega = 2 pi x value; in rad/s the angular frequency Omega; or an energy "
+            "hbar Omega", kind="frequency", required=True, label=r"gap $\Omega/2\pi$",
+            vary=7, array="gap"),
+    )
+
+    @classmethod
+    def from_config(cls, values, condensate):
+        return cls(values["gap"], values["coupling"], values["width"])
 
     def __init__(self, gap, coupling, width=0.0):
         super().__init__(coupling, width)
@@ -145,7 +156,6 @@ class TwoLevelProbe(ProbeModel):
             f"(|ln(down/up)| = {fmt(abs(math.log(dn.flat[i] / up.flat[i])))} <= "
             f"{fmt(unc.flat[i])}), so only |T_eff| > {fmt(bound.flat[i] * 1e9)} nK is "
             "known (equal rates mean an infinite effective temperature)"]
-
 
 
 def _checked_gap(gap):

@@ -88,7 +88,9 @@ _INT_LITERAL = re.compile(r"(?<![\w.])(?<![eE][+-])(\d[\d_]*)(?![\w.])")
 _DELTA_UNIT = re.compile(r"\bdelta_?deg|\bdelta_?(celsius|fahrenheit)", re.I)
 
 
-def _example(kind, dimension=None):
+def example(kind, dimension=None):
+    """An example value of ``kind`` for messages (``"'5 um'"``); for a
+    density or coupling, the one of a ``dimension``-D gas (default 3D)."""
     ex = _EXAMPLES.get(kind, "")
     if isinstance(ex, dict):
         ex = ex.get(dimension, ex[3])
@@ -136,34 +138,34 @@ def _parse(value, key, kind, dimension=None):
                 raise InputError(key, f"{value!r} is not finite")
             return ureg.Quantity(number)
         raise InputError(
-            key, f"{value!r} must carry units, e.g. {_example(kind, dimension)} "
+            key, f"{value!r} must carry units, e.g. {example(kind, dimension)} "
             "(write the value as a string with its unit)")
     if not isinstance(value, str):
         raise InputError(
             key, f"expected a string with units such as "
-            f"{_example(kind, dimension)}, got {value!r}")
+            f"{example(kind, dimension)}, got {value!r}")
     text = value.strip()
     if not text:
         raise InputError(key, f"is empty; give a value such as "
-                              f"{_example(kind, dimension)}")
+                              f"{example(kind, dimension)}")
     if len(text) > MAX_TEXT:
         raise InputError(key, f"is {len(text)} characters long (at most "
                               f"{MAX_TEXT}); give a value such as "
-                              f"{_example(kind, dimension)}")
+                              f"{example(kind, dimension)}")
     if kind == "temperature" and _DELTA_UNIT.search(text):
         raise InputError(
             key, f"{value!r} is a temperature difference; give an absolute "
             "temperature in K, mK, uK or nK")
     if "," in text:
         raise InputError(key, f"{value!r} looks like a list; a single value "
-                              f"such as {_example(kind, dimension)} is expected")
+                              f"such as {example(kind, dimension)} is expected")
     if any(re.search(rf"\b{u}\b", text) for u in _OFFSET_UNITS):
         raise InputError(
             key, f"{value!r}: offset temperature scales (degC, degF) are not "
             "accepted; give an absolute temperature in K, mK, uK or nK")
     if kind != "dimensionless" and _NUMBER_ONLY.match(text):
         raise InputError(key, f"{value!r} must carry units, e.g. "
-                              f"{_example(kind, dimension)}")
+                              f"{example(kind, dimension)}")
     try:
         q = ureg.parse_expression(_INT_LITERAL.sub(r"\1.0", text))
     except pint.errors.OffsetUnitCalculusError:
@@ -179,7 +181,7 @@ def _parse(value, key, kind, dimension=None):
         # truncated input ...): whatever it is, the string is not a quantity
         why = f" ({exc})" if str(exc) else ""
         raise InputError(key, f"cannot read {value!r} as a quantity{why}; "
-                              f"write e.g. {_example(kind, dimension)}") from None
+                              f"write e.g. {example(kind, dimension)}") from None
     try:
         if not isinstance(q, pint.Quantity):
             q = ureg.Quantity(float(q))
@@ -197,7 +199,7 @@ def _wrong_dimension(key, value, q, kind, dimension=None):
     return InputError(
         key, f"{value!r} has units of {_units_text(q)} "
         f"({q.dimensionality}) but {kind} must be {_allowed(kind, dimension)}, "
-        f"e.g. {_example(kind, dimension)}")
+        f"e.g. {example(kind, dimension)}")
 
 
 def _frequency(q, key, value, kind):
@@ -278,7 +280,7 @@ def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
                 raise InputError(
                     key, f"{value!r} is a {k}D density (1/length^{k}) but the "
                     f"gas is {dimension}D; give 1/length^{dimension}, e.g. "
-                    f"{_example(kind, dimension)}")
+                    f"{example(kind, dimension)}")
         raise _wrong_dimension(key, value, q, kind, dimension)
 
     if kind == "coupling":
@@ -289,7 +291,7 @@ def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
                 raise InputError(
                     key, f"{value!r} is a {k}D coupling (energy x length^{k}) "
                     f"but the gas is {dimension}D; give energy x "
-                    f"length^{dimension}, e.g. {_example(kind, dimension)}")
+                    f"length^{dimension}, e.g. {example(kind, dimension)}")
         raise _wrong_dimension(key, value, q, kind, dimension)
 
     target = {"length": ("[length]", "m"), "mass": ("[mass]", "kg"),

@@ -10,37 +10,7 @@ import numpy as np
 
 from probe.errors import InputError
 from probe.quantities import si_unit
-
-#: numeric configuration keys that a grid may vary, and the kind of quantity
-#: (as understood by :func:`probe.units.parse_quantity`)
-NUMERIC_KEYS = {
-    "condensate.density": "density",
-    "condensate.scattering_length": "length",
-    "condensate.transverse_frequency": "frequency",
-    "condensate.temperature": "temperature",
-    "condensate.mass": "mass",
-    "condensate.size": "length",
-    "probe.gap": "frequency",
-    "probe.coupling_length": "length",
-    "probe.coupling": "coupling",
-    "probe.mass": "mass",
-    "probe.width": "length",
-    "trajectory.speed": "speed",
-    "trajectory.radius": "length",
-    "trajectory.angular_frequency": "angular_frequency",
-    "numerics.rtol": "dimensionless",
-    # finite transits (keys known once scenario files describe switching)
-    "trajectory.switching_width": "time",
-    "trajectory.switching_centre": "time",
-    "trajectory.ramp": "time",
-    "trajectory.stop": "time",
-    "trajectory.max_speed": "speed",
-    "numerics.transit_rtol": "dimensionless",
-}
-
-#: keys whose values the engine takes as arrays (name of the engine argument)
-VECTOR_KEYS = {"trajectory.speed": "speed", "trajectory.radius": "radius",
-               "probe.gap": "gap"}
+from probe.scenarios.schema import NUMERIC_KEYS, VECTOR_KEYS
 
 
 def _suggest(word, choices):
@@ -50,7 +20,7 @@ def _suggest(word, choices):
 
 def check_numeric_key(key, option="--vary"):
     """``key`` if it is a numeric configuration key, else InputError."""
-    from probe.scenarios.config import SCHEMA
+    from probe.scenarios.schema import SCHEMA
 
     if not isinstance(key, str) or key.count(".") != 1 or not all(key.split(".")):
         raise InputError(option, f"key {key!r} must be SECTION.KEY, e.g. "

@@ -1,0 +1,87 @@
+"""The ``[probe]`` table: the model chosen by ``model`` and built from its
+keys.
+
+The keys live on the model classes: ``ProbeModel.common_config_keys``
+(coupling, coupling_length, mass, species, width: read here for every
+model) and each model's ``config_keys`` (read here by their declared kind
+and handed to the model's ``from_config``).  Nothing here knows which
+models exist beyond ``probe.detectors.PROBE_MODELS``.
+"""
+from __future__ import annotations
+
+from probe.detectors import PROBE_MODELS, ProbeModel, coupling_from_scattering_length
+from probe.errors import InputError
+from probe.scenarios.keys import Key, Part
+from probe.scenarios.units import example
+from probe.scenarios.values import choice, mass, not_applicable, quantity, read
+
+_S = "probe"
+
+MODEL = Key(_S, "model", '"two-level"', "the probe model: the two-level detector "
+            "(up and down transitions) or the structureless impurity \"density\" "
+            "(emission, drag, power)", choices=tuple(PROBE_MODELS), default="two-level")
+
+_COMMON = {key.name: key for key in ProbeModel.common_config_keys}
+
+#: the keys of ``[probe]``, in the order of the schema: the choice of model,
+#: each model's own keys, the keys of every model
+PARTS = (Part(_S, "", (MODEL,)),
+         *(Part(_S, f'model = "{name}"', model.config_keys)
+           for name, model in PROBE_MODELS.items() if model.config_keys),
+         Part(_S, "every model", ProbeModel.common_config_keys))
+
+
+def build_probe(body, condensate, gas_species=None):
+    """``(probe model, probe mass or None, probe species or None)`` from the
+    ``[probe]`` table, for the given gas (whose species is the default
+    probe species)."""
+    model = PROBE_MODELS[choice(body, MODEL)]
+    _reject_other_models(body, model)
+    values = _common_values(body, condensate, gas_species)
+    for key in model.config_keys:
+        values[key.name] = read(body, key, dimension=condensate.dimension,
+                                sound_speed=condensate.sound_speed)
+    probe = model.from_config(values, condensate)
+    return probe, values["mass"], values["species"]
+
+
+def _reject_other_models(body, model):
+    """InputError for a key of another model that ``model`` does not read."""
+    own = {key.name for key in model.config_keys}
+    others = {key.name for m in PROBE_MODELS.values() for key in m.config_keys} - own
+    for name in sorted(others):
+        why = model.unused_config_keys.get(name)
+        not_applicable(body, _S, {name}, f"by the {model.name} model"
+                                         + (f" ({why})" if why else ""))
+
+
+def _common_values(body, condensate, gas_species):
+    """``width``, ``coupling`` (kappa, J m^d) and the probe's ``mass`` and
+    ``species`` (None with an explicit coupling) from the keys of every
+    model: ``coupling`` or ``coupling_length`` (with the probe's mass from
+    ``species`` or ``mass``, by default the gas's)."""
+    d = condensate.dimension
+    width = quantity(body, _COMMON["width"])
+    length, coupling = _COMMON["coupling_length"], _COMMON["coupling"]
+    if coupling.name in body and length.name in body:
+        raise InputError(coupling.dotted,
+                         "give either coupling (energy x length^d) or "
+                         "coupling_length (probe-boson scattering length), not both")
+    if coupling.name in body:
+        not_applicable(body, _S, {"mass", "species"},
+                       "with an explicit coupling (only with coupling_length, "
+                       "to form the reduced mass)")
+        kappa = quantity(body, coupling, dimension=d)
+        probe_mass, probe_species = None, None
+    elif length.name in body:
+        a_pb = quantity(body, length)
+        probe_mass, probe_species = mass(body, _COMMON["species"], _COMMON["mass"],
+                                         default=condensate.mass, default_label=gas_species)
+        kappa = coupling_from_scattering_length(a_pb, condensate.mass, probe_mass,
+                                                condensate, width)
+    else:
+        raise InputError(length.dotted,
+                         f"missing; add e.g. {length.name} = {length.example} or "
+                         f"{coupling.name} = {example(coupling.kind, d)}")
+    return {"coupling": kappa, "width": width, "mass": probe_mass,
+            "species": probe_species}

@@ -1,0 +1,138 @@
+"""The schema of scenario files, collected from the keys declared by what
+they build (see ``probe.scenarios.keys``), and everything derived from it:
+the section -> key -> example table ``SCHEMA``, the checks of section and
+key names with their messages, the numeric keys that ``--vary`` accepts
+(``NUMERIC_KEYS``), the keys the engines take as arrays (``VECTOR_KEYS``),
+the plot labels (``KEY_LABELS``) and the Markdown tables of the
+documentation (:func:`markdown_tables`).
+"""
+from __future__ import annotations
+
+from probe.errors import InputError
+from probe.scenarios import detector, gas, numerics, path
+from probe.scenarios.keys import suggest
+
+#: every part of a scenario, in the order of the schema (sections in the
+#: order condensate, probe, trajectory, numerics)
+PARTS = (*gas.PARTS, *detector.PARTS, *path.PARTS, *numerics.PARTS)
+
+#: sections every scenario has
+REQUIRED_SECTIONS = ("condensate", "probe", "trajectory")
+
+
+def _first_declarations():
+    """``"section.name"`` -> Key, the first declaration of each name in its
+    section (a name read by two parts, such as ``trajectory.start``, keeps
+    the first one)."""
+    out = {}
+    for part in PARTS:
+        for key in part.keys:
+            out.setdefault(key.dotted, key)
+    return out
+
+
+#: ``"section.name"`` -> Key (the first declaration of each)
+KEYS = _first_declarations()
+
+#: section -> key -> example value (the allowed names, in order)
+SCHEMA = {}
+for _key in KEYS.values():
+    SCHEMA.setdefault(_key.section, {})[_key.name] = _key.example
+
+#: numeric configuration keys that a grid may vary, and the kind of quantity
+#: (as understood by :func:`probe.scenarios.units.parse_quantity`)
+NUMERIC_KEYS = {key.dotted: key.kind
+                for key in sorted((k for k in KEYS.values() if k.vary is not None),
+                                  key=lambda k: k.vary)}
+
+#: keys whose values the engines take as arrays (name of the engine argument)
+VECTOR_KEYS = {key.dotted: key.array for key in KEYS.values() if key.array}
+
+#: plot labels of the keys that have one
+KEY_LABELS = {key.dotted: key.label for key in KEYS.values() if key.label}
+
+
+def check_key(section, key):
+    """Raise InputError for an unknown section, or an unknown key (``key``
+    None: check the section only), with a suggestion."""
+    if section not in SCHEMA:
+        raise InputError(
+            section, f"unknown section; {suggest(section, SCHEMA)}"
+            f"allowed: {', '.join(SCHEMA)}")
+    if key is not None and key not in SCHEMA[section]:
+        raise InputError(
+            f"{section}.{key}", f"unknown key; {suggest(key, SCHEMA[section])}"
+            f"allowed: {', '.join(SCHEMA[section])}")
+
+
+def validate_keys(raw):
+    """Check the section and key names of a configuration dict."""
+    if not isinstance(raw, dict):
+        raise InputError("config", f"must be a table of sections, got {raw!r}")
+    for section, body in raw.items():
+        check_key(section, None)
+        if not isinstance(body, dict):
+            raise InputError(section, f"must be a table [{section}], got {body!r}")
+        for key in body:
+            check_key(section, key)
+    for section in REQUIRED_SECTIONS:
+        if section not in raw:
+            raise InputError(section, f"missing section [{section}]")
+
+
+def _toml(value):
+    """A default value written as in a scenario file."""
+    if isinstance(value, str):
+        return f'"{value}"'
+    if isinstance(value, (tuple, list)):
+        return "[" + ", ".join(_toml(v) for v in value) + "]"
+    if isinstance(value, float):
+        mantissa, _, exponent = f"{value:g}".partition("e")
+        return f"{mantissa}e{int(exponent)}" if exponent else mantissa
+    return str(value)
+
+
+def _value(key):
+    """What a key takes, in words."""
+    if key.choices:
+        return ", ".join(f'"{c}"' for c in key.choices)
+    if key.kind is None:
+        return "see example"
+    kind = key.kind.replace("_", " ")
+    if key.kind == "speed":
+        kind += " (or in c_s)"
+    return f"list of {kind}" if key.vector else kind
+
+
+def _need(key):
+    """The default column: the default, "required", or the condition."""
+    if key.required is True:
+        return "required"
+    if key.required:
+        return key.required
+    return "" if key.default is None else _toml(key.default)
+
+
+def markdown_tables():
+    """The key tables of the documentation (Markdown): one table per
+    section, a row per key and part that reads it (``used by``), with an
+    example, what it takes, its default or whether it is required, and
+    what it sets."""
+    out = []
+    for section in SCHEMA:
+        rows, seen = [], set()
+        for part in PARTS:
+            if part.section != section:
+                continue
+            for key in part.keys:
+                if id(key) in seen:
+                    continue
+                seen.add(id(key))
+                users = [p.used_by for p in PARTS if any(k is key for k in p.keys)]
+                used = ", ".join(u for u in users if u)
+                rows.append(f"| `{key.name}` | {used} | `{key.example}` | {_value(key)} "
+                            f"| {_need(key)} | {key.help} |")
+        out += [f"`[{section}]`", "",
+                "| key | used by | example | value | default | meaning |",
+                "|---|---|---|---|---|---|", *rows, ""]
+    return "\n".join(out)
