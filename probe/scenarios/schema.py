@@ -86,10 +86,10 @@ def _toml(value):
         return f'"{value}"'
     if isinstance(value, (tuple, list)):
         return "[" + ", ".join(_toml(v) for v in value) + "]"
-    if isinstance(value, float):
-        mantissa, _, exponent = f"{value:g}".partition("e")
-        return f"{mantissa}e{int(exponent)}" if exponent else mantissa
-    return str(value)
+    if isinstance(value, float) and value and not 1e-3 <= abs(value) < 1e6:
+        mantissa, _, exponent = f"{value:e}".partition("e")
+        return f"{mantissa.rstrip('0').rstrip('.')}e{int(exponent)}"
+    return f"{value:g}" if isinstance(value, float) else str(value)
 
 
 def _value(key):
@@ -97,11 +97,11 @@ def _value(key):
     if key.choices:
         return ", ".join(f'"{c}"' for c in key.choices)
     if key.kind is None:
-        return "see example"
-    kind = key.kind.replace("_", " ")
+        return {'"': "text", "{": "table"}.get(key.example[0], "integer")
+    kind = "number" if key.kind == "dimensionless" else key.kind.replace("_", " ")
     if key.kind == "speed":
         kind += " (or in c_s)"
-    return f"list of {kind}" if key.vector else kind
+    return f"list of {kind}s" if key.vector else kind
 
 
 def _need(key):
