@@ -137,17 +137,13 @@ def _two_level(gap_hz=100.0, length=3e-9):
     return probe_at
 
 
-def _straight(gas, probe, speed):
-    return inertial_rates(gas, probe, speed)
-
-
 def test_a_huge_trap_reproduces_the_uniform_engine_at_the_centre():
     """Local-density limit: a trap so weak that the density is flat over the
     samples gives the uniform gas's rates at the peak density."""
     trap = HarmonicTrap(rb3d(), TWO_PI * np.array([0.01, 0.01, 0.01]), peak_density=1e19)
     v = 1.7 * trap.centre.sound_speed
     path = Linear(v, (1, 0, 0), (-5e-6, 0, 0))
-    res = passage(trap, _two_level(), _straight, path, np.linspace(0, 10e-6 / v, 11))
+    res = passage(trap, _two_level(), path, np.linspace(0, 10e-6 / v, 11))
     want = inertial_rates(trap.centre, _two_level()(trap.centre), v)
     # the density varies by (5 um / R)^2 ~ 1.5e-7 over the path (R ~ 13 mm)
     assert np.max(np.abs(res.density / trap.peak_density - 1)) < 2e-7
@@ -163,7 +159,7 @@ def test_the_up_rate_switches_on_where_the_local_threshold_drops_below_the_speed
     v = 0.8 * trap.centre.sound_speed
     path = Linear(v, (1, 0, 0), (0, 0, 0))
     t_in, t_out = path.times_within(trap.radii)
-    res = passage(trap, _two_level(), _straight, path, np.linspace(t_in, t_out, 301)[1:-1])
+    res = passage(trap, _two_level(), path, np.linspace(t_in, t_out, 301)[1:-1])
     gap = TWO_PI * 100.0
     vth = np.array([trap.local_gas(n).dispersion.threshold(
         np.array([gap / trap.local_gas(n).frequency_unit]))[0][0]
@@ -188,7 +184,7 @@ def test_a_dressed_detector_follows_the_local_mean_field_shift():
     v = 1.5 * trap.centre.sound_speed
     path = Linear(v, (1, 0, 0), (0, 0, 0))
     t_in, t_out = path.times_within(trap.radii)
-    res = passage(trap, probe_at, _straight, path, np.linspace(t_in, t_out, 41)[1:-1])
+    res = passage(trap, probe_at, path, np.linspace(t_in, t_out, 41)[1:-1])
     ka = coupling_from_scattering_length(3e-9, M_RB, M_K, trap.centre, 0.2e-6)
     kb = coupling_from_scattering_length(5e-9, M_RB, M_K, trap.centre, 0.2e-6)
     shift = (kb - ka) * res.density / HBAR

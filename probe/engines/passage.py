@@ -28,7 +28,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import constants as sc
 
-from probe.engines.stationary import MAX_SPEED_OVER_C
+from probe.engines.stationary import MAX_SPEED_OVER_C, inertial_rates
+from probe.engines.stationary.local import local_inertial_rates
 from probe.errors import InputError
 
 HBAR = sc.hbar
@@ -122,32 +123,51 @@ def straight_crossing(trap, start, direction, speed):
 
 
 # --- the local rates ----------------------------------------------------------
-def local_rates(trap, probe_at, rate_function, positions, speeds):
+def local_rates(trap, probe_at, positions, speeds, rate_function=None, rtol=1e-8):
     """Local-density rates at each sample: ``probe_at(gas)`` gives the probe
-    model in the local uniform gas ``gas``; ``rate_function(gas, probe,
-    speed)`` its stationary :class:`RateResult`.  Outside the cloud (density
-    0) every rate is 0.  Returns (density, sound speed, {output: array},
+    model in the local uniform gas ``gas``.  By default the straight-motion
+    rates at the instantaneous speed, all samples at once
+    (``local_inertial_rates``); ``rate_function(gas, probe, speed)``, a
+    :class:`RateResult` per sample, replaces them (circular motion).
+    Outside the cloud (density 0), and in the sliver of the edge where the
+    probe outruns the local sound speed by more than the engine's range,
+    every rate is 0.  Returns (density, sound speed, {output: array},
     warnings of the uniform-gas engine at the densest sample)."""
     n = trap.density(positions)
-    m = len(n)
-    c = np.zeros(m)
-    values, warns = {}, []
-    densest = int(np.argmax(n))
-    for i in np.flatnonzero(n > 0):
-        gas = trap.local_gas(float(n[i]))
-        c[i] = gas.sound_speed
-        if speeds[i] > MAX_SPEED_OVER_C * gas.sound_speed:
-            continue            # the last sliver of the edge: see edge_sliver_warning
-        probe = probe_at(gas)
-        res = rate_function(gas, probe, float(speeds[i]))
-        for name in probe.rate_outputs + ("gap",):
-            value = getattr(res, name, None)
-            if value is None:
-                continue
-            values.setdefault(name, np.zeros(m))[i] = float(np.asarray(value))
-        if i == densest:
-            warns = [f"at the densest point of the path: {w}" for w in res.warnings]
-    return n, c, values, warns
+    c = np.zeros(len(n))
+    inside = np.flatnonzero(n > 0)
+    gases = [trap.local_gas(float(n[i])) for i in inside]
+    for i, g in zip(inside, gases):
+        c[i] = g.sound_speed
+    keep = [(i, g) for i, g in zip(inside, gases)
+            if speeds[i] <= MAX_SPEED_OVER_C * g.sound_speed]
+    if not keep:
+        return n, c, {}, []
+    idx, gases = [k[0] for k in keep], [k[1] for k in keep]
+    probes = [probe_at(g) for g in gases]
+    if rate_function is None:
+        rows = local_inertial_rates(gases, probes, [float(speeds[i]) for i in idx], rtol)
+    else:
+        rows = [_row(rate_function(g, p, float(speeds[i])), p) for i, g, p in
+                zip(idx, gases, probes)]
+    values = {name: np.zeros(len(n)) for name in rows[0]}
+    for i, row in zip(idx, rows):
+        for name, value in row.items():
+            values[name][i] = value
+    densest = idx[int(np.argmax(n[idx]))]
+    k = idx.index(densest)
+    uniform = inertial_rates(gases[k], probes[k], float(speeds[densest]), rtol=rtol) \
+        if rate_function is None else rate_function(gases[k], probes[k], float(speeds[densest]))
+    return n, c, values, [f"at the densest point of the path: {w}" for w in uniform.warnings]
+
+
+def _row(result, probe):
+    row = {}
+    for name in probe.rate_outputs + ("gap",):
+        value = getattr(result, name, None)
+        if value is not None:
+            row[name] = float(np.asarray(value))
+    return row
 
 
 # --- the rate equation --------------------------------------------------------
@@ -172,17 +192,17 @@ def integral(time, rate):
     return float(np.sum(0.5 * (rate[1:] + rate[:-1]) * np.diff(time)))
 
 
-def passage(trap, probe_at, rate_function, path, times):
+def passage(trap, probe_at, path, times, rate_function=None, rtol=1e-8):
     """The passage along ``path`` (a trajectory: ``position(t)``,
-    ``velocity(t)``) sampled at ``times`` (s): local rates, populations and
-    totals (see :class:`PassageResult`)."""
+    ``velocity(t)``) sampled at ``times`` (s): local rates (see
+    :func:`local_rates`), populations and totals (:class:`PassageResult`)."""
     times = np.asarray(times, float)
     if times.ndim != 1 or times.size < 3 or np.any(np.diff(times) <= 0):
         raise InputError("numerics.passage_samples", "a passage needs at least 3 "
                                                        "increasing time samples")
     pos = _pad(np.asarray(path.position(times), float), trap.dimension)
     speed = np.linalg.norm(np.asarray(path.velocity(times), float), axis=-1)
-    n, c, values, warns = local_rates(trap, probe_at, rate_function, pos, speed)
+    n, c, values, warns = local_rates(trap, probe_at, pos, speed, rate_function, rtol)
     with np.errstate(divide="ignore", invalid="ignore"):
         mach = np.where(c > 0, speed / np.where(c > 0, c, 1.0), np.inf)
     model = probe_at(trap.centre).name
