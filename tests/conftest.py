@@ -189,6 +189,10 @@ PROBE_SECTIONS = {
     "two-level": {"model": "two-level", "gap": "0.2 kHz", "coupling_length": "2 nm",
                   "width": "0.3 um"},
     "density": {"model": "density", "coupling_length": "2 nm", "width": "0.3 um"},
+    "dressed": {"model": "dressed", "coupling_length_a": "1 nm", "coupling_length_b": "3 nm",
+                "rabi_frequency": "0.2 kHz", "detuning": "50 Hz", "width": "0.3 um"},
+    "ramsey": {"model": "ramsey", "coupling_length_a": "1 nm", "coupling_length_b": "3 nm",
+               "width": "0.3 um"},
 }
 
 

@@ -170,7 +170,14 @@ class ProbeModel:
         Key("probe", "width", '"0 um"', "rms width of the Gaussian probe density per "
             "direction (0: a point probe)", kind="length", default="0 um",
             label="probe width $s$", vary=11),
+        Key("probe", "tweezer_frequency", '"20 kHz"', "trap frequency of the tweezer "
+            "holding the probe, instead of width: the width becomes the rms width of "
+            "the tweezer's ground-state density, sqrt(hbar/(2 m_p w))", kind="frequency",
+            label=r"tweezer frequency $\omega_\mathrm{tw}/2\pi$", vary=22),
     )
+    #: the common keys that form the single coupling kappa (a model with
+    #: couplings of its own leaves them out of ``coupling_config_keys``)
+    coupling_config_keys = ("coupling_length", "coupling")
     #: the keys of ``[probe]`` that this model alone reads (by name in the
     #: values handed to ``from_config``)
     config_keys: tuple = ()

@@ -37,6 +37,51 @@ import numpy as np
 from probe.detectors.base import (HBAR, Channel, InputError, _number,
                                   coupling_from_scattering_length)
 from probe.detectors.two_level import TwoLevelProbe
+from probe.scenarios.keys import Key
+
+#: the two states' couplings to the density: scattering lengths (with the
+#: probe's mass for the reduced mass) or the couplings themselves
+STATE_COUPLING_KEYS = (
+    Key("probe", "coupling_length_a", '"3 nm"', "impurity-boson scattering length of "
+        "the lower state a (any sign; kappa_a as for coupling_length)", kind="length",
+        required="this or coupling_a", label="scattering length $a_a$", vary=23),
+    Key("probe", "coupling_length_b", '"5 nm"', "impurity-boson scattering length of "
+        "the upper state b", kind="length", required="this or coupling_b",
+        label="scattering length $a_b$", vary=24),
+    Key("probe", "coupling_a", '"4.5e-51 J m^3"', "the coupling kappa_a of state a "
+        "itself (energy x length^dimension), instead of coupling_length_a",
+        kind="coupling", label=r"coupling $\kappa_a$", vary=25),
+    Key("probe", "coupling_b", '"7.5e-51 J m^3"', "the coupling kappa_b of state b "
+        "itself, instead of coupling_length_b", kind="coupling",
+        label=r"coupling $\kappa_b$", vary=26),
+)
+
+
+def state_couplings(values, condensate):
+    """``(kappa_a, kappa_b, scattering lengths or None)`` from the parsed
+    ``[probe]`` values: both lengths (each coupling as for a single-state
+    probe: reduced mass, transverse overlap) or both couplings."""
+    lengths = (values.get("coupling_length_a"), values.get("coupling_length_b"))
+    kappas = (values.get("coupling_a"), values.get("coupling_b"))
+    if any(v is not None for v in lengths) and any(v is not None for v in kappas):
+        raise InputError("probe.coupling_a", "give the two states' scattering lengths "
+                                             "(coupling_length_a, coupling_length_b) or "
+                                             "their couplings (coupling_a, coupling_b), "
+                                             "not both")
+    if all(v is not None for v in kappas):
+        return kappas[0], kappas[1], None
+    if all(v is not None for v in lengths):
+        ka, kb = (coupling_from_scattering_length(a, condensate.mass, values["mass"],
+                                                  condensate, values["width"])
+                  for a in lengths)
+        return ka, kb, lengths
+    # name the first missing key of the pair that was begun (lengths by default)
+    pair = ("coupling_a", "coupling_b") if any(v is not None for v in kappas) else \
+        ("coupling_length_a", "coupling_length_b")
+    given = kappas if pair[0] == "coupling_a" else lengths
+    missing = pair[0] if given[0] is None else pair[1]
+    key = next(k for k in STATE_COUPLING_KEYS if k.name == missing)
+    raise InputError(key.dotted, f"missing; add e.g. {missing} = {key.example}")
 
 
 def dressed_parameters(coupling_a, coupling_b, rabi_frequency, detuning, density):
@@ -70,6 +115,27 @@ class DressedProbe(TwoLevelProbe):
         "dephasing_rate", "transition_coupling", "detuning_in_gas")
     transit_outputs = TwoLevelProbe.transit_outputs
     array_keys = {}
+    coupling_config_keys = ()
+    config_keys = STATE_COUPLING_KEYS + (
+        Key("probe", "rabi_frequency", '"150 Hz"', "Rabi frequency Omega_R of the drive "
+            "between a and b (Hz: ordinary frequency; rad/s: angular)", kind="frequency",
+            required=True, label=r"Rabi frequency $\Omega_R/2\pi$", vary=27),
+        Key("probe", "detuning", '"0 Hz"', "drive frequency minus the FREE-space "
+            "transition frequency a -> b (may be negative; the mean-field shift is "
+            "added by the tool)", kind="frequency", default="0 Hz",
+            label=r"detuning $\delta/2\pi$", vary=28),
+    )
+    unused_config_keys = {"gap": "the dressed gap follows from rabi_frequency and "
+                                 "detuning"}
+
+    @classmethod
+    def from_config(cls, values, condensate):
+        ka, kb, lengths = state_couplings(values, condensate)
+        probe = cls(ka, kb, values["rabi_frequency"], values["detuning"], condensate.density,
+                    values["width"])
+        if lengths is not None:
+            probe.scattering_lengths = tuple(float(a) for a in lengths)
+        return probe
 
     def __init__(self, coupling_a, coupling_b, rabi_frequency, detuning=0.0,
                  density=0.0, width=0.0):

@@ -26,7 +26,8 @@ import math
 
 from probe.detectors.base import (HBAR, Channel, InputError, ProbeModel, _number,
                                   coupling_from_scattering_length)
-from probe.detectors.dressed import scattering_length_warnings
+from probe.detectors.dressed import (STATE_COUPLING_KEYS, scattering_length_warnings,
+                                     state_couplings)
 
 
 class RamseyProbe(ProbeModel):
@@ -39,6 +40,19 @@ class RamseyProbe(ProbeModel):
     transit_outputs = ("contrast", "decoherence_exponent", "decoherence_exponent_error",
                        "mean_field_phase")
     array_keys = {}
+    coupling_config_keys = ()
+    config_keys = STATE_COUPLING_KEYS
+    unused_config_keys = {"gap": "a Ramsey detector has no drive and no gap",
+                          "rabi_frequency": "a Ramsey detector has no drive",
+                          "detuning": "a Ramsey detector has no drive"}
+
+    @classmethod
+    def from_config(cls, values, condensate):
+        ka, kb, lengths = state_couplings(values, condensate)
+        probe = cls(ka, kb, condensate.density, values["width"])
+        if lengths is not None:
+            probe.scattering_lengths = tuple(float(a) for a in lengths)
+        return probe
 
     def __init__(self, coupling_a, coupling_b, density=0.0, width=0.0):
         ka = _number("probe.coupling_a", coupling_a)

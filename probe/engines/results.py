@@ -67,4 +67,15 @@ class RateResult:
     warnings: list = field(default_factory=list)
 
     def to_dict(self):
-        return {f.name: _jsonable(getattr(self, f.name)) for f in fields(self)}
+        """Every field, and every other registered output quantity the result
+        holds (those of models whose outputs have no field here), JSON-safe."""
+        out = {f.name: _jsonable(getattr(self, f.name)) for f in fields(self)}
+        out.update(extra_outputs(self, out))
+        return out
+
+
+def extra_outputs(result, known):
+    """The registered output quantities set on ``result`` beyond ``known``."""
+    from probe.quantities import QUANTITIES
+    return {name: _jsonable(value) for name, value in vars(result).items()
+            if name in QUANTITIES and name not in known}

@@ -9,6 +9,10 @@ models exist beyond ``probe.detectors.PROBE_MODELS``.
 """
 from __future__ import annotations
 
+import math
+
+from scipy import constants as sc
+
 from probe.detectors import PROBE_MODELS, ProbeModel, coupling_from_scattering_length
 from probe.errors import InputError
 from probe.scenarios.keys import Key, Part
@@ -16,6 +20,7 @@ from probe.scenarios.units import example
 from probe.scenarios.values import choice, mass, not_applicable, quantity, read
 
 _S = "probe"
+HBAR = sc.hbar
 
 MODEL = Key(_S, "model", '"two-level"', "the probe model: the two-level detector "
             "(up and down transitions) or the structureless impurity \"density\" "
@@ -37,7 +42,7 @@ def build_probe(body, condensate, gas_species=None):
     probe species)."""
     model = PROBE_MODELS[choice(body, MODEL)]
     _reject_other_models(body, model)
-    values = _common_values(body, condensate, gas_species)
+    values = _shared_values(body, model, condensate, gas_species)
     for key in model.config_keys:
         values[key.name] = read(body, key, dimension=condensate.dimension,
                                 sound_speed=condensate.sound_speed)
@@ -46,13 +51,50 @@ def build_probe(body, condensate, gas_species=None):
 
 
 def _reject_other_models(body, model):
-    """InputError for a key of another model that ``model`` does not read."""
+    """InputError for a key of another model (or a common key) that ``model``
+    does not read."""
     own = {key.name for key in model.config_keys}
-    others = {key.name for m in PROBE_MODELS.values() for key in m.config_keys} - own
-    for name in sorted(others):
+    own |= {key.name for key in model.common_config_keys}
+    if not model.coupling_config_keys:
+        own -= set(ProbeModel.coupling_config_keys)
+    others = {key.name for m in PROBE_MODELS.values() for key in m.config_keys}
+    others |= set(ProbeModel.coupling_config_keys)
+    for name in sorted(others - own):
         why = model.unused_config_keys.get(name)
         not_applicable(body, _S, {name}, f"by the {model.name} model"
                                          + (f" ({why})" if why else ""))
+
+
+def _shared_values(body, model, condensate, gas_species):
+    """``width`` (given, or that of a tweezer's ground state), the probe's
+    ``mass`` and ``species`` and, for a model with one coupling, ``coupling``
+    (kappa, J m^d) from the keys every model reads."""
+    if not model.coupling_config_keys:
+        probe_mass, species = _probe_mass(body, condensate, gas_species)
+        width = _width(body, probe_mass)
+        return {"width": width, "mass": probe_mass, "species": species, "coupling": None}
+    return _common_values(body, condensate, gas_species)
+
+
+def _probe_mass(body, condensate, gas_species):
+    return mass(body, _COMMON["species"], _COMMON["mass"], default=condensate.mass,
+                default_label=gas_species)
+
+
+def _width(body, probe_mass):
+    """The probe's rms width: ``width``, or from ``tweezer_frequency`` the
+    rms width sqrt(hbar/(2 m_p w)) of the tweezer's ground-state density
+    (the harmonic oscillator's ground state)."""
+    tweezer = _COMMON["tweezer_frequency"]
+    if tweezer.name not in body:
+        return quantity(body, _COMMON["width"])
+    if "width" in body:
+        raise InputError(tweezer.dotted, "give either width or tweezer_frequency "
+                                         "(which sets the width), not both")
+    w = quantity(body, tweezer)
+    if not w > 0:
+        raise InputError(tweezer.dotted, f"must be > 0, got {w!r} rad/s")
+    return math.sqrt(HBAR / (2 * probe_mass * w))
 
 
 def _common_values(body, condensate, gas_species):
@@ -61,22 +103,26 @@ def _common_values(body, condensate, gas_species):
     model: ``coupling`` or ``coupling_length`` (with the probe's mass from
     ``species`` or ``mass``, by default the gas's)."""
     d = condensate.dimension
-    width = quantity(body, _COMMON["width"])
+    tweezer = _COMMON["tweezer_frequency"].name in body
+    width = None if tweezer else quantity(body, _COMMON["width"])
     length, coupling = _COMMON["coupling_length"], _COMMON["coupling"]
     if coupling.name in body and length.name in body:
         raise InputError(coupling.dotted,
                          "give either coupling (energy x length^d) or "
                          "coupling_length (probe-boson scattering length), not both")
     if coupling.name in body:
-        not_applicable(body, _S, {"mass", "species"},
-                       "with an explicit coupling (only with coupling_length, "
-                       "to form the reduced mass)")
+        if not tweezer:
+            not_applicable(body, _S, {"mass", "species"},
+                           "with an explicit coupling (only with coupling_length, "
+                           "to form the reduced mass)")
         kappa = quantity(body, coupling, dimension=d)
-        probe_mass, probe_species = None, None
+        probe_mass, probe_species = _probe_mass(body, condensate, gas_species) if tweezer \
+            else (None, None)
+        width = _width(body, probe_mass) if tweezer else width
     elif length.name in body:
         a_pb = quantity(body, length)
-        probe_mass, probe_species = mass(body, _COMMON["species"], _COMMON["mass"],
-                                         default=condensate.mass, default_label=gas_species)
+        probe_mass, probe_species = _probe_mass(body, condensate, gas_species)
+        width = _width(body, probe_mass) if tweezer else width
         kappa = coupling_from_scattering_length(a_pb, condensate.mass, probe_mass,
                                                 condensate, width)
     else:
