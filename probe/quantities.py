@@ -44,6 +44,7 @@ produces it list its name.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 #: SI unit text (CSV headers, JSON docs) of each kind of quantity; ``d`` is
@@ -60,7 +61,9 @@ SI_UNITS = {
 TABLE_UNITS = {
     "rate": ("s^-1", 1.0), "temperature": ("nK", 1e-9), "speed": ("m/s", 1.0),
     "force": ("N", 1.0), "power": ("W", 1.0), "energy": ("J", 1.0),
-    "dimensionless": ("", 1.0), "count": ("", 1.0),
+    "dimensionless": ("", 1.0), "count": ("", 1.0), "phase": ("rad", 1.0),
+    # angular frequencies shown as ordinary ones, the angular value beside
+    "frequency": ("Hz", 2 * math.pi),
 }
 
 #: units of each kind in plots and printed summaries, smallest first (the

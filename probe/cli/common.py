@@ -82,9 +82,14 @@ def _energy_extra(value, sound_speed):
     return f"  (E/h = {num(np.asarray(value, float) / sc.h)} Hz)"
 
 
+def _frequency_extra(value, sound_speed):
+    return f"  ({num(np.asarray(value, float))} rad/s)"
+
+
 #: what a table adds after a value of each kind: a speed in units of the
-#: sound speed, an energy as a frequency E/h
-KIND_EXTRAS = {"speed": _speed_extra, "energy": _energy_extra}
+#: sound speed, an energy as a frequency E/h, an (ordinary) frequency in rad/s
+KIND_EXTRAS = {"speed": _speed_extra, "energy": _energy_extra,
+               "frequency": _frequency_extra}
 
 
 def quantity_text(name, value, error=None, note="", sound_speed=None, dimension=3):

@@ -16,9 +16,21 @@ import click
 from scipy import constants as sc
 
 from probe.cli.app import cli
-from probe.cli.common import (fail, input_errors, json_value, num, outputs_json, q,
-                               result_rows, write_atomic)
-from probe.quantities import stationary_outputs
+from probe.cli.common import (KIND_EXTRAS, fail, input_errors, json_value, num,
+                               outputs_json, q, result_rows, write_atomic)
+from probe.quantities import stationary_outputs, table_unit
+
+
+def kind_text(value, kind, dimension):
+    """A value of a kind of quantity in its table unit (frequencies as
+    ordinary frequencies with rad/s beside)."""
+    if kind == "length":
+        return q(value, "nm", 1e-9)
+    if kind == "coupling":
+        return q(value, "J m" if dimension == 1 else f"J m^{dimension}")
+    unit, scale = table_unit(kind, dimension)
+    extra = KIND_EXTRAS.get(kind)
+    return q(value, unit, scale) + (extra(value, None) if extra else "")
 
 
 def rows_inputs(sc_, info):
@@ -40,6 +52,8 @@ def rows_inputs(sc_, info):
     rows += [("temperature", q(cond.temperature, "nK", 1e-9)),
              ("dispersion", gas["dispersion"]),
              ("probe model", prb["model"])]
+    rows += [(label, kind_text(value, kind, d)) for label, value, kind in
+             sc_.probe.input_rows()]
     if prb["gap"] is not None:
         rows.append(("gap Omega/(2 pi)", f"{q(prb['gap'] / (2 * math.pi), 'Hz')}  "
                                          f"(Omega = {q(prb['gap'], 'rad/s')})"))

@@ -248,6 +248,11 @@ class ProbeModel:
         the gas's regime checks: e.g. where an output is undetermined."""
         return []
 
+    def input_rows(self):
+        """Rows the model adds to a table's inputs: ``(label, SI value, kind
+        of quantity)`` (kinds as in ``probe.quantities.SI_UNITS``)."""
+        return []
+
     def transit_warnings(self, values):
         """Checks of a finite transit's outputs (name -> value) that belong to
         this model (sentences)."""

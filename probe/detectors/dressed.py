@@ -84,6 +84,18 @@ def state_couplings(values, condensate):
     raise InputError(key.dotted, f"missing; add e.g. {missing} = {key.example}")
 
 
+def state_rows(probe):
+    """Input rows of a two-state impurity: the states' scattering lengths
+    (when given) and couplings."""
+    rows = []
+    lengths = getattr(probe, "scattering_lengths", None)
+    if lengths:
+        rows += [("scattering length a_a", lengths[0], "length"),
+                 ("scattering length a_b", lengths[1], "length")]
+    return rows + [("coupling kappa_a", probe.coupling_a, "coupling"),
+                   ("coupling kappa_b", probe.coupling_b, "coupling")]
+
+
 def dressed_parameters(coupling_a, coupling_b, rabi_frequency, detuning, density):
     """The dressed detector's parameters (SI): ``detuning_in_gas`` (rad/s),
     ``gap`` Omega_eff (rad/s), ``sin_theta``, ``cos_theta``,
@@ -198,6 +210,15 @@ class DressedProbe(TwoLevelProbe):
         out += _suppression_warnings(self)
         out += scattering_length_warnings(self, condensate)
         return out
+
+    def input_rows(self):
+        return state_rows(self) + [
+            ("Rabi frequency", self.rabi_frequency, "frequency"),
+            ("detuning (free space)", self.detuning, "frequency"),
+            ("mean-field shift 2 lambda n/hbar", self.parameters["mean_field_shift"],
+             "frequency"),
+            ("detuning in the gas", self.parameters["detuning_in_gas"], "frequency"),
+            ("dephasing coupling", self.parameters["dephasing_coupling"], "coupling")]
 
     def describe(self):
         out = super().describe()

@@ -27,7 +27,7 @@ import math
 from probe.detectors.base import (HBAR, Channel, InputError, ProbeModel, _number,
                                   coupling_from_scattering_length)
 from probe.detectors.dressed import (STATE_COUPLING_KEYS, scattering_length_warnings,
-                                     state_couplings)
+                                     state_couplings, state_rows)
 
 
 class RamseyProbe(ProbeModel):
@@ -117,6 +117,9 @@ class RamseyProbe(ProbeModel):
 
     def regime_warnings(self, condensate, result):
         return scattering_length_warnings(self, condensate)
+
+    def input_rows(self):
+        return state_rows(self)
 
     def describe(self):
         out = super().describe()
