@@ -229,14 +229,15 @@ class ProbeModel:
         ``absorption`` in 1/s and ``power`` in W for one without)."""
         raise NotImplementedError
 
-    def transit_results(self, raw):
+    def transit_results(self, raw, context=None):
         """Outputs of a finite transit from the raw channel probabilities
         (``raw[label]``: ``up``, ``down`` as ``(P, error)`` and
         ``up_emission``, ``down_emission`` for a channel with a detuning;
         ``emission`` as ``(N, error)`` and ``absorption`` without one; and
         ``energy`` (J) of the main emission channel).  Returns ``(values,
         checked)``: the outputs, and the probabilities (label -> value) that
-        the transit engine checks against first order and its floor."""
+        the transit engine checks against first order and its floor.
+        ``context`` (from the engine): ``switching_integral``, int chi dt (s)."""
         raise NotImplementedError
 
     def regime_warnings(self, condensate, result):

@@ -36,7 +36,7 @@ class DensityProbe(ProbeModel):
         return {"emission_rate": em, "emission_rate_error": em_err,
                 "absorption_rate": ch["absorption"][0], "power": power, "drag_force": drag}
 
-    def transit_results(self, raw):
+    def transit_results(self, raw, context=None):
         ch = raw["density"]
         em, em_err = ch["emission"]
         values = {"emitted_phonons": em, "emitted_phonons_error": em_err,

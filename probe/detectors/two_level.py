@@ -69,7 +69,7 @@ class TwoLevelProbe(ProbeModel):
             out["up_threshold_speed"] = vt * cond.sound_speed
         return out
 
-    def transit_results(self, raw):
+    def transit_results(self, raw, context=None):
         ch = raw["gap"]
         (up, up_err), (dn, dn_err) = ch["up"], ch["down"]
         values = {"up_probability": up, "down_probability": dn,

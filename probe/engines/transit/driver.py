@@ -58,12 +58,19 @@ def transit_probabilities(condensate, probe, trajectory, switching, rtol=1e-4,
     Returns a :class:`TransitResult`.
     """
     rtol = _checked_inputs(switching, rtol, method)
-    problem = TransitProblem(condensate, probe, trajectory, switching, rtol,
-                             spectrum=spectrum, spectrum_bins=spectrum_bins, method=method,
-                             max_memory=max_memory, workers=workers)
-    routes = candidates(problem)
-    out, warnings = _converge(problem, routes, max_refinements)
-    return _si_result(problem, out, warnings)
+    channels = probe.channels()
+    passes, notes = [], []
+    for i, channel in enumerate(channels):
+        # the spectrum is that of the first (main) channel
+        problem = TransitProblem(condensate, probe, trajectory, switching, rtol, channel,
+                                 spectrum=spectrum and i == 0, spectrum_bins=spectrum_bins,
+                                 method=method, max_memory=max_memory, workers=workers)
+        routes = candidates(problem)
+        out, note = _converge(problem, routes, max_refinements,
+                              channel.label if len(channels) > 1 else None)
+        passes.append((problem, out))
+        notes += note
+    return _si_result(passes, notes)
 
 
 def _checked_inputs(switching, rtol, method):
@@ -91,9 +98,10 @@ def _one_pass(problem, routes, res, pool):
     return estimate(problem, route, plan, sums, sample.geom)
 
 
-def _converge(problem, routes, max_refinements):
+def _converge(problem, routes, max_refinements, label=None):
     """Passes from the starting resolution until the error budget is met
-    (or max_refinements are spent, with a warning); returns the last
+    (or max_refinements are spent, with a warning naming the channel
+    ``label`` if given); returns the last
     :class:`~probe.engines.transit.estimate.PassResult` and the warnings.
 
     The starting time step puts the sub-rule (2 dt) at the sampling bound
@@ -102,7 +110,7 @@ def _converge(problem, routes, max_refinements):
     case (every lag of the switching window weighted fully), so the
     sub-rule check usually accepts it and refines h only when needed."""
     res = Resolution(problem.q_max)
-    warnings = list(problem.warnings)
+    warnings = []
     workers = problem.workers
     pool = ThreadPoolExecutor(max_workers=workers) if workers > 1 else None
     try:
@@ -114,8 +122,9 @@ def _converge(problem, routes, max_refinements):
                 if not any(bad.values()):
                     break
                 if attempt == max_refinements:
+                    where = "" if label is None else f" ({label} channel)"
                     warnings.append(
-                        f"transit: not converged to rtol = {problem.rtol:g} after "
+                        f"transit{where}: not converged to rtol = {problem.rtol:g} after "
                         f"{max_refinements} refinements (achieved {out.achieved:.2g})")
                     break
                 res.refine(bad)
@@ -137,37 +146,47 @@ def _raw_channels(problem, vals, err_total):
     return raw
 
 
-def _si_result(problem, out, warnings):
-    """The :class:`TransitResult` of the last pass, in SI units."""
-    pref = problem.prefactor
-    vals = {k: v * pref for k, v in out.values.items()}
-    err_total = {ch: sum(out.errors[k][ch] for k in out.errors) * pref
-                 for ch in out.tolerances}
-    cond, probe, channel = problem.condensate, problem.probe, problem.channel
-    res = TransitResult(model=probe.name, dimension=problem.d, sound_speed=problem.c,
-                        healing_length=problem.xi,
+def _si_result(passes, notes):
+    """The :class:`TransitResult` of the last pass of each channel, in SI
+    units: the probe combines the channels' results into its outputs; grid,
+    error budget and spectrum are those of the first (main) channel, the
+    achieved accuracy the worst of all."""
+    main, out = passes[0]
+    cond, probe = main.condensate, main.probe
+    raw, err_total = {}, {}
+    for problem, p_out in passes:
+        pref = problem.prefactor
+        vals = {k: v * pref for k, v in p_out.values.items()}
+        errs = {ch: sum(p_out.errors[k][ch] for k in p_out.errors) * pref
+                for ch in p_out.tolerances}
+        raw[problem.channel.label] = _raw_channels(problem, vals, errs)
+        err_total = {**errs, **err_total}
+    res = TransitResult(model=probe.name, dimension=main.d, sound_speed=main.c,
+                        healing_length=main.xi,
                         chemical_potential=cond.chemical_potential)
-    if channel.gapped:
-        res.gap = problem.Om * problem.w0
-    values, probs = probe.transit_results({channel.label: _raw_channels(problem, vals,
-                                                                         err_total)})
+    if main.channel.gapped:
+        res.gap = main.Om * main.w0
+    values, probs = probe.transit_results(raw, {"switching_integral":
+                                                main.switching.integral})
     for name, value in values.items():
         setattr(res, name, value)
-    res.achieved_rtol = out.achieved
+    res.achieved_rtol = max(p_out.achieved for _, p_out in passes)
+    pref = main.prefactor
     res.error_budget = {k: {ch: v * pref for ch, v in e.items()}
                         for k, e in out.errors.items()}
     res.grid = out.grid
-    res.warnings = warnings + _probability_warnings(probs, err_total)
-    if problem.spectrum:
-        res.spectrum = _spectrum_si(problem, out.spectrum, pref)
+    res.warnings = (main.warnings + notes + _probability_warnings(probs, err_total)
+                    + probe.transit_warnings(values))
+    if main.spectrum:
+        res.spectrum = _spectrum_si(main, out.spectrum, pref)
     return res
 
 
 def _probability_warnings(probs, err_total):
-    """Channels too small for a relative accuracy, or too large for first
-    order."""
+    """Checked probabilities (name -> value; a model may check none) too
+    small for a relative accuracy, or too large for first order."""
     warnings = []
-    scale = max(probs.values())
+    scale = max(probs.values(), default=0.0)
     for name, p in probs.items():
         if p < FLOOR * scale:
             warnings.append(

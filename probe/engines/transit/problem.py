@@ -76,11 +76,11 @@ class PathSample:
 
 
 class TransitProblem:
-    """The scales of a transit, computed once for all passes.
+    """The scales of a transit in one of the probe's channels (an item of
+    ``probe.channels()``), computed once for all passes.
 
-    The probe answers through its one channel (``probe.channels()``): a
-    gapped channel has the detunings D = +-Omega (up, down), an ungapped
-    one D = 0.  Attributes in natural units: ``d``, ``xi``, ``c``, ``w0``
+    A gapped channel has the detunings D = +-Omega (up, down), an ungapped
+    one D = 0; its coupling sets the prefactor.  Attributes in natural units: ``d``, ``xi``, ``c``, ``w0``
     (c/xi), ``tu`` (xi/c in s), ``s`` (probe width), ``Tdl`` (k_B T/m c^2),
     ``Om``, ``Ds``, ``t_lo``/``t_hi`` (switching support), ``bw``
     (switching bandwidth), ``corr`` (its correlation length), ``vmax``,
@@ -88,7 +88,7 @@ class TransitProblem:
     chirp tail), ``q_max`` (first cutoff), ``edges`` (direction-spectrum bin
     edges or None); ``warnings`` of the switching and the path."""
 
-    def __init__(self, condensate, probe, trajectory, switching, rtol, spectrum=False,
+    def __init__(self, condensate, probe, trajectory, switching, rtol, channel, spectrum=False,
                  spectrum_bins=None, method="auto", max_memory=500e6, workers=None):
         self.condensate, self.probe = condensate, probe
         self.trajectory, self.switching = trajectory, switching
@@ -101,7 +101,7 @@ class TransitProblem:
         self.tu = 1.0 / self.w0                         # time unit xi/c, s
         self.s = probe.width / self.xi
         self.Tdl = KB * condensate.temperature / condensate.energy_unit
-        self._detunings()
+        self._detunings(channel)
         self.workers = workers or available_cpus()
         self.warnings = list(switching.warnings)
         self.warnings += list(getattr(trajectory, "warnings", []) or [])
@@ -110,8 +110,7 @@ class TransitProblem:
         self.q_max = self._wavenumber_cutoff()
         self.edges = self._spectrum_edges()
 
-    def _detunings(self):
-        (channel,) = self.probe.channels()
+    def _detunings(self, channel):
         self.channel = channel
         if channel.gapped:
             gap = np.asarray(channel.detuning, float)

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, fields
 
-from probe.engines.results import _jsonable
+from probe.engines.results import _jsonable, extra_outputs
 
 
 @dataclass
@@ -31,6 +31,9 @@ class TransitResult:
     ``dN_dphi`` with phi the angle from ``axis`` (mean-velocity direction
     or x), counter-clockwise; 1D: ``dN_forward`` (along +x) and
     ``dN_backward``.  Direction densities are averages over each bin.
+
+    Outputs of other models (e.g. a Ramsey detector's ``contrast``) are set
+    on the result by name, as the model's ``transit_results`` gives them.
     """
 
     model: str
@@ -55,6 +58,8 @@ class TransitResult:
     warnings: list = field(default_factory=list)
 
     def to_dict(self):
+        """Every field, and every other registered output quantity the result
+        holds (those of models whose outputs have no field here), JSON-safe."""
         out = {}
         for f in fields(self):
             v = getattr(self, f.name)
@@ -63,4 +68,5 @@ class TransitResult:
             else:
                 v = _jsonable(v)
             out[f.name] = v
+        out.update(extra_outputs(self, out))
         return out
