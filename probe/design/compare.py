@@ -252,6 +252,10 @@ def _probe_variants(raw, base, varied, given):
             r["probe"][key.split(".", 1)[1]] = given[key]
         what = ", ".join(f"{arg} {given[key]}" for key, arg in needed) or "structureless"
         out.append((name.replace("-", "_"), f"{name} probe ({what})", r))
+    for name, label, table in base.probe.reference_detectors(base.condensate.dimension):
+        r = copy.deepcopy(raw)
+        r["probe"] = table
+        out.append((name, label, r))
     return out
 
 
@@ -266,6 +270,7 @@ def _width_variants(raw, base, varied, given):
     if "probe.width" in varied:
         raise _Skip("probe.width is varied")
     r = copy.deepcopy(raw)
+    r["probe"].pop("tweezer_frequency", None)     # the other way to set the width
     if base.probe.width > 0:
         r["probe"]["width"] = "0 um"
         return [("point", "point probe (width 0)", r)]

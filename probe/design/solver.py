@@ -11,6 +11,7 @@ Python use::
 """
 from __future__ import annotations
 
+import copy
 import math
 from dataclasses import dataclass, field
 
@@ -133,6 +134,27 @@ def _threshold_notes(cond, engine):
     return notes
 
 
+def _gapped_stand_in(raw, base, source):
+    """``(raw, scenario, notes)`` of a model whose gap the table can vary: the
+    configured one, or the simpler detector it declares with the same gap
+    (a dressed detector's two-level equivalent); InputError for a model with
+    no gap."""
+    from probe.scenarios.config import scenario_from_dict
+
+    if "probe.gap" in base.probe.array_keys:
+        return raw, base, []
+    for name, label, table in base.probe.reference_detectors(base.condensate.dimension):
+        if "probe.gap" in PROBE_MODELS[table["model"]].array_keys:
+            r = copy.deepcopy(raw)
+            r["probe"] = table
+            note = (f"the {base.probe.name} probe's threshold is that of its {label} "
+                    "(the threshold depends on the gap alone)")
+            return r, scenario_from_dict(r, source=source), [note]
+    gapped = [n for n, m in PROBE_MODELS.items() if "probe.gap" in m.array_keys]
+    raise InputError("probe.model", f"the {base.probe.name} probe has no gap and no "
+                                    f"threshold; use model = \"{gapped[0]}\"")
+
+
 def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
     """The threshold table for the gaps of ``vary`` (a ``probe.gap`` entry
     as for :func:`probe.sweep.sweep`), by default a decade either side of
@@ -142,10 +164,7 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
 
     raw, source = raw_config(config, overrides, removals=removals)
     base = scenario_from_dict(raw, source=source)
-    if "probe.gap" not in base.probe.array_keys:
-        gapped = [n for n, m in PROBE_MODELS.items() if "probe.gap" in m.array_keys]
-        raise InputError("probe.model", f"the {base.probe.name} probe has no gap and no "
-                                        f"threshold; use model = \"{gapped[0]}\"")
+    raw, base, stand_in = _gapped_stand_in(raw, base, source)
     gap = float(base.probe.gap)
     vary = list(vary)
     if not vary:
@@ -174,7 +193,7 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
     speed = None
     if engine is not None and engine.has_threshold:
         speed = float(base.trajectory.stationary_parameters()["speed"])
-    notes = _threshold_notes(cond, engine)
+    notes = _threshold_notes(cond, engine) + stand_in
     return ThresholdTable(columns=[c_ for c_, _ in cols], units=[u for _, u in cols],
                           data=data,
                           configured={"gap": gap, "threshold_speed": float(vt0[0] * c),

@@ -249,6 +249,13 @@ class ProbeModel:
         the gas's regime checks: e.g. where an output is undetermined."""
         return []
 
+    def reference_detectors(self, dimension):
+        """Simpler detectors that ``probe compare`` sets beside this one:
+        ``[(name, label, [probe] table)]`` with the table's values written as
+        strings with SI units (``dimension`` of the gas for the coupling's
+        unit)."""
+        return []
+
     def input_rows(self):
         """Rows the model adds to a table's inputs: ``(label, SI value, kind
         of quantity)`` (kinds as in ``probe.quantities.SI_UNITS``)."""

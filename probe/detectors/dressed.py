@@ -211,6 +211,14 @@ class DressedProbe(TwoLevelProbe):
         out += scattering_length_warnings(self, condensate)
         return out
 
+    def reference_detectors(self, dimension):
+        gap_hz = self.gap / (2 * math.pi)
+        table = {"model": "two-level", "gap": f"{self.gap!r} rad/s",
+                 "coupling": f"{self.coupling!r} {_coupling_unit(dimension)}",
+                 "width": f"{self.width!r} m"}
+        return [("ideal", f"ideal sigma_x detector (gap {gap_hz:.4g} Hz, coupling "
+                          f"{self.coupling:.3g} {_coupling_unit(dimension)})", table)]
+
     def input_rows(self):
         return state_rows(self) + [
             ("Rabi frequency", self.rabi_frequency, "frequency"),
@@ -267,6 +275,10 @@ def scattering_length_warnings(probe, condensate):
             f"against the healing length ({xi * 1e9:.4g} nm; limit "
             f"{LENGTH_OVER_XI_LIMIT} xi): the coupling to the density is beyond the "
             "linear (Born) picture the model assumes"]
+
+
+def _coupling_unit(dimension):
+    return "J m" if dimension == 1 else f"J m^{dimension}"
 
 
 def _finite(key, value):

@@ -121,6 +121,14 @@ class RamseyProbe(ProbeModel):
     def input_rows(self):
         return state_rows(self)
 
+    def reference_detectors(self, dimension):
+        unit = "J m" if dimension == 1 else f"J m^{dimension}"
+        table = {"model": "density", "coupling": f"{self.coupling!r} {unit}",
+                 "width": f"{self.width!r} m"}
+        return [("difference", f"density probe of coupling kappa_b - kappa_a "
+                               f"({self.coupling:.3g} {unit}; its emission plus absorption "
+                               "is twice the dephasing)", table)]
+
     def describe(self):
         out = super().describe()
         out.update(coupling_a=self.coupling_a, coupling_b=self.coupling_b)
