@@ -198,3 +198,70 @@ def test_equal_couplings_are_refused():
 def test_rabi_frequency_must_be_positive(rabi):
     with pytest.raises(InputError, match="rabi_frequency"):
         DressedProbe(KA, KB, rabi, density=1e19)
+
+
+# --- the command line ------------------------------------------------------------
+def _cli(*args):
+    from click.testing import CliRunner
+    from probe.cli import cli
+    return CliRunner().invoke(cli, list(args))
+
+
+EXAMPLES = __import__("pathlib").Path(__file__).resolve().parents[1] / "examples"
+DRESSED = str(EXAMPLES / "dressed3d_drive.toml")
+RAMSEY = str(EXAMPLES / "transits" / "ramsey3d_moving.toml")
+
+
+def test_dressed_example_json_has_the_documented_keys():
+    import json
+    r = _cli("rates", DRESSED, "--json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.output)
+    for key in ("gap", "transition_coupling", "detuning_in_gas", "up_rate", "down_rate",
+                "dephasing_rate", "effective_temperature", "excited_population"):
+        assert data[key] is not None, key
+    # the tweezer of 30 kHz sets the width sqrt(hbar/(2 m_p w)) (harmonic
+    # oscillator ground state of the 41K probe)
+    m_k = data["inputs"]["probe"]["mass"]
+    assert data["inputs"]["probe"]["width"] == pytest.approx(
+        math.sqrt(HBAR / (2 * m_k * 2 * math.pi * 30e3)), rel=1e-12)
+
+
+def test_ramsey_transit_json_has_the_documented_keys():
+    import json
+    r = _cli("transit", RAMSEY, "--json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.output)
+    assert 0 < data["contrast"] < 1
+    assert data["contrast"] == pytest.approx(math.exp(-data["decoherence_exponent"]))
+    assert data["mean_field_phase"] > 0
+    rates = json.loads(_cli("rates", RAMSEY, "--json").output)
+    assert rates["dephasing_rate"] > 0
+
+
+@pytest.mark.parametrize("args, key", [
+    (("rates", DRESSED, "--set", "probe.coupling_length_b=3 nm"), "probe.coupling_length_b"),
+    (("rates", DRESSED, "--set", "probe.rabi_frequency=0 Hz"), "probe.rabi_frequency"),
+    (("rates", DRESSED, "--set", "probe.rabi_frequency=-5 Hz"), "probe.rabi_frequency"),
+    (("rates", DRESSED, "--set", "probe.width=1 um"), "probe.tweezer_frequency"),
+    (("rates", DRESSED, "--set", "probe.gap=100 Hz"), "probe.gap"),
+    (("rates", DRESSED, "--unset", "probe.coupling_length_b"), "probe.coupling_length_b"),
+    (("solve", RAMSEY, "--for", "trajectory.speed", "--target", "up_rate=1 1/s"), "--target"),
+])
+def test_bad_detector_input_is_one_line_naming_the_key(args, key):
+    r = _cli(*args)
+    assert r.exit_code == 2
+    lines = r.output.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith(f"error: {key}:"), r.output
+    assert "Traceback" not in r.output
+
+
+def test_ramsey_solve_names_the_quantities_it_has():
+    r = _cli("solve", RAMSEY, "--for", "trajectory.speed", "--target", "up_rate=1 1/s")
+    assert "contrast" in r.output and "decoherence_exponent" in r.output
+
+
+def test_solve_for_a_contrast():
+    r = _cli("solve", RAMSEY, "--for", "trajectory.speed", "--target", "contrast=0.5")
+    assert r.exit_code == 0, r.output
+    assert "gives contrast = 0.5" in r.output

@@ -12,6 +12,7 @@ import re
 from pathlib import Path
 
 import pytest
+from conftest import PROBE_SECTIONS
 
 from probe.detectors import PROBE_MODELS, ProbeModel
 from probe.errors import InputError
@@ -164,6 +165,10 @@ _BASE = {
 def test_missing_required_key_names_its_example(dotted):
     section, name = dotted.split(".")
     raw = {s: dict(b) for s, b in _BASE.items()}
+    owner = [m for m, cls in PROBE_MODELS.items()
+             if section == "probe" and name in {k.name for k in cls.config_keys}]
+    if owner and "two-level" not in owner:      # a key of another model: use its section
+        raw["probe"] = dict(PROBE_SECTIONS[owner[0]])
     raw[section].pop(name, None)
     with pytest.raises(InputError) as err:
         scenario_from_dict(raw)
