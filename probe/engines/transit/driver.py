@@ -156,7 +156,10 @@ def _si_result(passes, notes):
     raw, err_total = {}, {}
     for problem, p_out in passes:
         pref = problem.prefactor
-        vals = {k: v * pref for k, v in p_out.values.items()}
+        # every value is an integral of a non-negative integrand: a value
+        # below zero is rounding of an (exponentially) small one, within its
+        # error estimate; 0 is then closer to the truth
+        vals = {k: max(v * pref, 0.0) for k, v in p_out.values.items()}
         errs = {ch: sum(p_out.errors[k][ch] for k in p_out.errors) * pref
                 for ch in p_out.tolerances}
         raw[problem.channel.label] = _raw_channels(problem, vals, errs)
