@@ -18,8 +18,10 @@ A quantity is declared once, with
 - ``role``: ``output`` (listed by the probe models in ``rate_outputs`` /
   ``transit_outputs``), ``motion`` (an output of the stationary engine itself,
   whatever the probe), ``derived`` (formed by the tools from the outputs),
-  ``grid`` (an engine argument: speed, radius, gap) or ``gas`` (the gas at a
-  point of a sweep);
+  ``grid`` (an engine argument: speed, radius, gap), ``gas`` (the gas at a
+  point of a sweep) or ``passage`` (a total or a sample of a passage through
+  a cloud, ``probe passage``: which of them a passage gives follows from
+  the rates its model declares, ``probe.scenarios.passage``);
 - ``needs``: for outputs that only some stationary motions have, what the
   motion's engine must declare: an argument (``"radius"``: motion on a
   circle) or a capability that is true (``"has_threshold"``);
@@ -79,7 +81,7 @@ DISPLAY_UNITS = {
 #: takes precedence)
 KIND_NOUNS = {"rate": "rate"}
 
-ROLES = ("output", "motion", "derived", "grid", "gas")
+ROLES = ("output", "motion", "derived", "grid", "gas", "passage")
 
 
 def si_unit(kind, dimension=3):
@@ -216,6 +218,22 @@ _add("sound_speed", "speed", "sound speed", role="gas")
 _add("healing_length", "length", "healing length", role="gas")
 _add("density", "density", "density", role="gas")
 _add("temperature", "temperature", "temperature", role="gas")
+_add("atom_number", "dimensionless", "atom number", "atom number $N$", role="gas")
+
+# --- passages through a cloud (probe passage) ----------------------------------
+_add("excited_probability", "dimensionless", "excited probability",
+     r"excited probability $p_e$", target=True, headline=1, role="passage",
+     note="(rate equation, at the end of the passage)", noun="probability")
+_add("first_order_up_probability", "dimensionless", "first-order up probability",
+     r"first order $\int\Gamma_\uparrow dt$", target=True, role="passage",
+     note="(int Gamma_up dt)", noun="probability")
+_add("passage_duration", "time", "passage duration", role="passage")
+_add("max_mach", "dimensionless", "largest Mach number", "largest $v/c_s$", role="passage",
+     note="(v/c at the samples inside the cloud)")
+_add("time", "time", "time", "time $t$", role="passage")
+_add("x", "length", "x", "$x$", role="passage")
+_add("y", "length", "y", "$y$", role="passage")
+_add("z", "length", "z", "$z$", role="passage")
 
 
 def quantity(name):

@@ -16,6 +16,7 @@ import click
 from scipy import constants as sc
 
 from probe.cli.app import cli
+from probe.cli.cloud import cloud_derived_rows, cloud_input_rows, cloud_json
 from probe.cli.common import (KIND_EXTRAS, fail, input_errors, json_value, num,
                                outputs_json, q, result_rows, write_atomic)
 from probe.quantities import stationary_outputs, table_unit
@@ -49,6 +50,7 @@ def rows_inputs(sc_, info):
                      f"(w_perp = {q(cond.transverse_frequency, 'rad/s')})"))
     if cond.size is not None:
         rows.append(("uniform region radius", q(cond.size, "um", 1e-6)))
+    rows += cloud_input_rows(sc_)
     rows += [("temperature", q(cond.temperature, "nK", 1e-9)),
              ("dispersion", gas["dispersion"]),
              ("probe model", prb["model"])]
@@ -84,7 +86,7 @@ def rows_derived(sc_, info):
         rows.append(("ideal-gas T_c", q(der["critical_temperature"], "nK", 1e-9)))
     if der["transverse_length"] is not None:
         rows.append(("transverse length", q(der["transverse_length"], "um", 1e-6)))
-    return rows
+    return rows + cloud_derived_rows(sc_)
 
 
 def rows_results(scenario, result):
@@ -146,6 +148,7 @@ def result_json(scenario, result):
     out["gas_parameter"] = info["derived"]["gas_parameter"]
     out["gas_parameter_name"] = info["derived"]["gas_parameter_name"]
     out["healing_length_convention"] = "xi = hbar/(m c)"
+    out.update(cloud_json(scenario))
     out["inputs"] = {k: info[k] for k in ("condensate", "probe", "trajectory", "numerics")}
     out["inputs"]["condensate"]["size"] = scenario.condensate.size
     transit = _transit(scenario, result)

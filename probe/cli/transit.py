@@ -40,6 +40,7 @@ from pathlib import Path
 import click
 
 from probe.cli.app import cli
+from probe.cli.cloud import cloud_json
 from probe.cli.common import fail, input_errors, num, q, outputs_json, result_rows
 from probe.cli.rates import rows_derived, rows_inputs
 from probe.errors import InputError
@@ -178,6 +179,7 @@ def transit_json(scenario, result, info, extras, files=()):
     out["gas_parameter"] = info["derived"]["gas_parameter"]
     out["gas_parameter_name"] = info["derived"]["gas_parameter_name"]
     out["healing_length_convention"] = "xi = hbar/(m c)"
+    out.update(cloud_json(scenario))
     if files:
         out["spectrum_file"], out["spectrum_directions_file"] = files
     out["inputs"] = {k: info[k] for k in ("condensate", "probe", "trajectory",

@@ -256,6 +256,12 @@ class ProbeModel:
         unit)."""
         return []
 
+    def in_gas(self, condensate):
+        """The model in the uniform gas ``condensate`` of another density
+        (the local gas of a trapped cloud): this model itself where nothing
+        of it depends on the gas's density."""
+        return self
+
     def input_rows(self):
         """Rows the model adds to a table's inputs: ``(label, SI value, kind
         of quantity)`` (kinds as in ``probe.quantities.SI_UNITS``)."""

@@ -219,6 +219,16 @@ class DressedProbe(TwoLevelProbe):
         return [("ideal", f"ideal sigma_x detector (gap {gap_hz:.4g} Hz, coupling "
                           f"{self.coupling:.3g} {_coupling_unit(dimension)})", table)]
 
+    def in_gas(self, condensate):
+        """The detector in a gas of density ``condensate.density``: the same
+        couplings, drive and width; its mean-field shift, dressed gap and
+        transition coupling at that density."""
+        probe = type(self)(self.coupling_a, self.coupling_b, self.rabi_frequency,
+                           self.detuning, condensate.density, self.width)
+        if hasattr(self, "scattering_lengths"):
+            probe.scattering_lengths = self.scattering_lengths
+        return probe
+
     def input_rows(self):
         return state_rows(self) + [
             ("Rabi frequency", self.rabi_frequency, "frequency"),

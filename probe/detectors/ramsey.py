@@ -118,6 +118,14 @@ class RamseyProbe(ProbeModel):
     def regime_warnings(self, condensate, result):
         return scattering_length_warnings(self, condensate)
 
+    def in_gas(self, condensate):
+        """The detector in a gas of density ``condensate.density`` (which sets
+        its mean-field phase): the same couplings and width."""
+        probe = type(self)(self.coupling_a, self.coupling_b, condensate.density, self.width)
+        if hasattr(self, "scattering_lengths"):
+            probe.scattering_lengths = self.scattering_lengths
+        return probe
+
     def input_rows(self):
         return state_rows(self)
 

@@ -27,7 +27,8 @@ This is the entry of the scenario layer; the work is done by
 ``probe.scenarios.edits`` (reading and editing the TOML dict),
 ``schema`` (the keys, collected from their declarations), and the builders
 ``gas``, ``detector``, ``path`` (with ``spline`` and ``switching``) and
-``numerics``; ``transit`` runs and describes finite transits.
+``numerics``; ``transit`` runs and describes finite transits, ``passage``
+the passages through a cloud (a harmonic trap, or the box of ``size``).
 """
 from __future__ import annotations
 
@@ -37,10 +38,11 @@ from dataclasses import dataclass, field
 
 from probe.gas.condensate import Condensate
 from probe.scenarios import numerics
+from probe.scenarios import passage as _passage
 from probe.scenarios import transit as _transit
 from probe.scenarios.detector import build_probe
 from probe.scenarios.edits import apply_edits, override, read_toml, unset
-from probe.scenarios.gas import build_condensate
+from probe.scenarios.gas import build_gas
 from probe.scenarios.path import build_path
 from probe.scenarios.schema import SCHEMA, validate_keys
 from probe.scenarios.values import species_mass
@@ -67,6 +69,14 @@ class Scenario:
     switching: object = None          # finite transits: probe.scenarios.switching
     transit_rtol: float = 1e-4
     transit_method: str = "auto"
+    trap: object = None               # the HarmonicTrap of trap = "harmonic"
+    passage_samples: int = 1000
+
+    @property
+    def is_passage(self):
+        """True for a gas in a harmonic trap: its natural result is a passage
+        through the cloud (``probe passage``; sweeps compute passages)."""
+        return self.trap is not None
 
     @property
     def is_transit(self):
@@ -74,8 +84,18 @@ class Scenario:
         return self.switching is not None
 
     def transit(self, spectrum=False, workers=None):
-        """First-order transit probabilities (a :class:`TransitResult`)."""
-        return _transit.run_transit(self, spectrum=spectrum, workers=workers)
+        """First-order transit probabilities (a :class:`TransitResult`); in a
+        harmonic trap, of the uniform gas at its centre (said in a warning)."""
+        res = _transit.run_transit(self, spectrum=spectrum, workers=workers)
+        for w in (_passage.transit_region_warnings(self)
+                  + _passage.harmonic_notes(self, "probe transit")):
+            if w not in res.warnings:
+                res.warnings.append(w)
+        return res
+
+    def passage(self):
+        """The passage through the cloud (a :class:`PassageResult`)."""
+        return _passage.run_passage(self)
 
     def describe(self):
         """Inputs and derived quantities as a dict of SI values (JSON safe)."""
@@ -107,6 +127,12 @@ class Scenario:
             "critical_temperature": cond.critical_temperature,
             "transverse_length": cond.transverse_length,
         }
+        if self.trap is not None:
+            gas["trap"] = {"kind": "harmonic",
+                           "trap_frequencies": self.trap.frequencies.tolist(),
+                           **self.trap.summary()}
+        elif "trap" in self.raw["condensate"]:
+            gas["trap"] = {"kind": "box", "size": cond.size}
         return {"source": self.source, "condensate": gas, "probe": probe,
                 "trajectory": traj, "derived": derived,
                 "numerics": {"rtol": self.rtol}}
@@ -123,7 +149,7 @@ class Scenario:
         for w in regime_warnings(self.condensate, self.probe, result):
             if w not in existing:
                 existing.append(w)
-        result.warnings = existing + notes
+        result.warnings = existing + notes + _passage.harmonic_notes(self, "probe rates")
         return result
 
 
@@ -133,16 +159,18 @@ def scenario_from_dict(raw, overrides=(), source=None, removals=()):
     raw = apply_edits(raw, overrides, removals)
     validate_keys(raw)
     raw = copy.deepcopy(raw)
-    cond, species = build_condensate(raw["condensate"])
+    cond, species, trap = build_gas(raw["condensate"])
     probe, probe_mass, probe_species = build_probe(raw["probe"], cond, species)
     trajectory, switching = build_path(raw["trajectory"], cond, source)
+    _passage.turns(raw["trajectory"])
     rtol = numerics.rtol(raw)
     return Scenario(condensate=cond, probe=probe, trajectory=trajectory,
                     rtol=rtol, raw=raw, source=source, species=species,
                     probe_mass=probe_mass, probe_species=probe_species,
                     switching=switching,
                     transit_rtol=numerics.transit_rtol(raw, trajectory),
-                    transit_method=numerics.transit_method(raw))
+                    transit_method=numerics.transit_method(raw), trap=trap,
+                    passage_samples=numerics.passage_samples(raw))
 
 
 def load_config(path, overrides=(), removals=()):

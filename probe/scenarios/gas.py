@@ -1,12 +1,25 @@
 """The ``[condensate]`` table: its keys and the :class:`Condensate` they
-build."""
+build, and the cloud the gas fills (``trap``).
+
+Without ``trap`` (or with ``trap = "box"``) the gas is uniform, and
+``size`` is the radius of the uniform region (a box's half side).  With
+``trap = "harmonic"`` it is a Thomas-Fermi cloud
+(:class:`probe.gas.trap.HarmonicTrap`) of ``trap_frequencies`` (one per
+free direction, or one for all) holding ``atom_number`` atoms, or of peak
+``density``; the uniform :class:`Condensate` of the scenario is then the
+gas at the cloud's centre (peak density).
+"""
 from __future__ import annotations
+
+import numpy as np
 
 from probe.errors import InputError
 from probe.gas.condensate import Condensate
 from probe.gas.dispersion import DISPERSIONS
+from probe.gas.trap import HarmonicTrap
 from probe.scenarios.keys import Key, Part
-from probe.scenarios.values import choice, mass, quantity, require
+from probe.scenarios.units import parse_quantity, parse_vector
+from probe.scenarios.values import choice, mass, not_applicable, quantity, require
 
 _S = "condensate"
 
@@ -17,7 +30,8 @@ SPECIES = Key(_S, "species", '"87Rb"', "isotope of the bosons (mass from the ato
 MASS = Key(_S, "mass", '"86.909 u"', "boson mass, instead of species", kind="mass",
            required="this or species", label="boson mass", vary=5)
 DENSITY = Key(_S, "density", '"1.2e20 m^-3"', "number density per length^dimension "
-              "(m^-2 in 2D, m^-1 in 1D)", kind="density", required=True,
+              "(m^-2 in 2D, m^-1 in 1D); in a harmonic trap the peak density",
+              kind="density", required='yes; with trap = "harmonic" this or atom_number',
               label="density $n$", vary=1)
 SCATTERING_LENGTH = Key(_S, "scattering_length", '"5.3 nm"', "boson-boson s-wave "
                         "scattering length a (3D)", kind="length", required=True,
@@ -33,19 +47,107 @@ DISPERSION = Key(_S, "dispersion", '"bogoliubov"', "excitation spectrum: Bogoliu
                  default="bogoliubov")
 SIZE = Key(_S, "size", '"50 um"', "radius of the uniform region about the origin (cloud "
            "radius or half the box side): paths leaving it are warned about, straight "
-           "crossings get a transit time", kind="length", vary=6)
+           "crossings get a transit time", kind="length", required='with trap = "box"',
+           vary=6)
+TRAP = Key(_S, "trap", '"harmonic"', "the cloud: a box (the uniform gas within size) or "
+           "a harmonic trap (a Thomas-Fermi cloud; 'probe passage' follows its local "
+           "density)", choices=("box", "harmonic"))
+TRAP_FREQUENCIES = Key(_S, "trap_frequencies", '["30 Hz", "30 Hz", "30 Hz"]', "frequencies "
+                       "of the harmonic trap: one string for every free direction, or a "
+                       "list of one per free direction (3 in 3D, 2 in quasi-2D, 1 in "
+                       "quasi-1D); Hz ordinary, rad/s angular", kind="frequency",
+                       required='with trap = "harmonic"',
+                       label=r"trap frequency $\omega/2\pi$", vary=40)
+ATOM_NUMBER = Key(_S, "atom_number", "2e5", "atoms in the harmonic trap (a plain number), "
+                  "instead of density (the peak density)", kind="dimensionless",
+                  required='with trap = "harmonic": this or density',
+                  label="atom number $N$", vary=41)
 
 #: the keys of ``[condensate]``, in the order of the schema
 PARTS = (Part(_S, "", (DIMENSION, SPECIES, MASS, DENSITY, SCATTERING_LENGTH,
-                       TRANSVERSE_FREQUENCY, TEMPERATURE, DISPERSION, SIZE)),)
+                       TRANSVERSE_FREQUENCY, TEMPERATURE, DISPERSION, SIZE)),
+         Part(_S, "", (TRAP,)),
+         Part(_S, 'trap = "harmonic"', (TRAP_FREQUENCIES, ATOM_NUMBER)))
+
+#: the keys only a harmonic trap reads
+_HARMONIC_ONLY = (TRAP_FREQUENCIES, ATOM_NUMBER)
 
 
 def build_condensate(body):
-    """``(Condensate, species or None)`` from the ``[condensate]`` table."""
+    """``(Condensate, species or None)`` from the ``[condensate]`` table (the
+    gas at the centre of a harmonic trap)."""
+    cond, species, _ = build_gas(body)
+    return cond, species
+
+
+def build_gas(body):
+    """``(Condensate, species or None, trap)`` from the ``[condensate]``
+    table: ``trap`` is the :class:`HarmonicTrap` of ``trap = "harmonic"``
+    (and the Condensate the gas at its centre), else None."""
+    trap = choice(body, TRAP, default="box") if TRAP.name in body else None
+    if trap != "harmonic":
+        for key in _HARMONIC_ONLY:
+            if key.name in body:
+                raise InputError(key.dotted, 'used only by a harmonic trap; add '
+                                             'trap = "harmonic" (or remove it)')
+        if trap == "box":
+            require(body, SIZE)
+        cond, species = _uniform_gas(body)
+        return cond, species, None
+    not_applicable(body, _S, {SIZE.name}, "by a harmonic trap (the cloud's extent is "
+                                          "its Thomas-Fermi radii)")
+    return _harmonic_gas(body)
+
+
+def _harmonic_gas(body):
+    """The Thomas-Fermi cloud of ``trap = "harmonic"`` and its centre."""
+    dim = _dimension(body)
+    require(body, TRAP_FREQUENCIES)
+    frequencies = trap_frequencies(body[TRAP_FREQUENCIES.name], dim)
+    if DENSITY.name in body and ATOM_NUMBER.name in body or \
+            DENSITY.name not in body and ATOM_NUMBER.name not in body:
+        raise InputError(ATOM_NUMBER.dotted, "give either atom_number or density (the "
+                                             "peak density) for a harmonic trap, not "
+                                             "both and not neither")
+    peak = quantity(body, DENSITY, dimension=dim) if DENSITY.name in body else None
+    atoms = quantity(body, ATOM_NUMBER) if ATOM_NUMBER.name in body else None
+    # the gas's mass and interaction (its density, unused, is set by the trap)
+    shape, species = _uniform_gas({**body, DENSITY.name: f"1 m^-{dim}"}, size=False)
+    centre = HarmonicTrap(shape, frequencies, atom_number=atoms, peak_density=peak).centre
+    return centre, species, HarmonicTrap(centre, frequencies, peak_density=centre.density)
+
+
+def trap_frequencies(value, dimension):
+    """The angular trap frequencies (rad/s), one per free direction, from
+    one string (every direction) or a list of ``dimension`` of them."""
+    key = TRAP_FREQUENCIES.dotted
+    if isinstance(value, (list, tuple)):
+        if len(value) != dimension:
+            raise InputError(key, f"needs one frequency per free direction: "
+                                  f"{dimension} in a {dimension}D gas (or one string "
+                                  f"for all), got {len(value)}")
+        w = parse_vector(value, key, "frequency", sizes=(dimension,))
+    else:
+        w = np.full(dimension, parse_quantity(value, key, "frequency"))
+    if not np.all(w > 0):
+        raise InputError(key, f"must be > 0 in every direction, got "
+                              f"{(w / (2 * np.pi)).tolist()} Hz")
+    return w
+
+
+def _dimension(body):
     dim = require(body, DIMENSION)
     if isinstance(dim, bool) or not isinstance(dim, int) or dim not in (1, 2, 3):
         raise InputError(DIMENSION.dotted, f"must be the integer 1, 2 or 3, got {dim!r}")
+    return dim
+
+
+def _uniform_gas(body, size=True):
+    """``(Condensate, species or None)`` of a uniform gas (``size``: read
+    the uniform region's radius)."""
+    dim = _dimension(body)
     boson_mass, species = mass(body, SPECIES, MASS)
+    require(body, DENSITY)
     density = quantity(body, DENSITY, dimension=dim)
     a = quantity(body, SCATTERING_LENGTH)
     if dim < 3:
@@ -53,7 +155,7 @@ def build_condensate(body):
     wperp = quantity(body, TRANSVERSE_FREQUENCY)
     temperature = quantity(body, TEMPERATURE)
     dispersion = choice(body, DISPERSION)
-    size = quantity(body, SIZE)
     cond = Condensate(dim, boson_mass, density, a, transverse_frequency=wperp,
-                      temperature=temperature, dispersion=dispersion, size=size)
+                      temperature=temperature, dispersion=dispersion,
+                      size=quantity(body, SIZE) if size else None)
     return cond, species

@@ -28,7 +28,10 @@ TRANSIT_METHOD = Key(_S, "transit_method", '"auto"', "how the transit's mode amp
                      "exact angular average); the same result", choices=TRANSIT_METHODS,
                      default="auto")
 
-PARTS = (Part(_S, "", (RTOL, TRANSIT_RTOL, TRANSIT_METHOD)),)
+PASSAGE_SAMPLES = Key(_S, "passage_samples", "1000", "time samples of a passage "
+                      "('probe passage'), at least 3", default=1000)
+
+PARTS = (Part(_S, "", (RTOL, TRANSIT_RTOL, TRANSIT_METHOD, PASSAGE_SAMPLES)),)
 
 
 def _number(body, key, example):
@@ -76,3 +79,13 @@ def transit_method(raw):
                          f"must be one of {', '.join(repr(m) for m in TRANSIT_METHOD.choices)} "
                          f"(\"auto\" picks the cheaper), got {value!r}")
     return value.strip().lower()
+
+
+def passage_samples(raw):
+    """``numerics.passage_samples`` (default 1000): the time samples of a
+    passage, a whole number >= 3."""
+    value = raw.get(_S, {}).get(PASSAGE_SAMPLES.name, PASSAGE_SAMPLES.default)
+    if isinstance(value, bool) or not isinstance(value, int) or value < 3:
+        raise InputError(PASSAGE_SAMPLES.dotted, f"must be a whole number >= 3 "
+                                                 f"(e.g. 1000), got {value!r}")
+    return value

@@ -47,6 +47,8 @@ CENTRE = Key(_S, "centre", '["0 um", "0 um", "0 um"]', "centre of the circle (2 
              "components; default: the origin)", kind="length", vector=True)
 NORMAL = Key(_S, "normal", "[0, 0, 1]", "normal of the circle's plane (along z in a 2D "
              "gas)", kind="dimensionless", vector=True, default=(0, 0, 1))
+TURNS = Key(_S, "turns", "1", "turns of the circle that 'probe passage' follows (a "
+            "number > 0)", kind="dimensionless", default=1)
 
 
 @dataclass(frozen=True)
@@ -181,7 +183,7 @@ def build_circular(body, condensate, source=None):
 #: ``trajectory.kind`` name -> the kind (the order of messages and of the schema)
 PATH_KINDS = {kind.name: kind for kind in (
     PathKind("linear", (SPEED, DIRECTION, START), build_linear),
-    PathKind("circular", (RADIUS, SPEED, ANGULAR_FREQUENCY, CENTRE, NORMAL),
+    PathKind("circular", (RADIUS, SPEED, ANGULAR_FREQUENCY, CENTRE, NORMAL, TURNS),
              build_circular, min_dimension=2),
     PathKind("spline", spline.KEYS, spline.build_spline, finite=True),
 )}

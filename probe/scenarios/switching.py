@@ -7,7 +7,11 @@ per switching function of :mod:`probe.detectors.switching`.
 - ``"window"``: on from ``start`` to ``stop`` with smooth ramps of ``ramp``
   at both ends (default 5 % of the window);
 - ``"path"`` (a spline's default): on over the path's own time span, with
-  ``ramp`` (default 5 % of the span).
+  ``ramp`` (default 5 % of the span);
+- ``"crossing"``: on while the probe is inside the uniform region of radius
+  ``condensate.size`` (a box), from its entry to its exit (the roots of
+  ``|x(t)| = size``), with ramps of ``ramp`` (default 5 % of the crossing)
+  centred on both.
 
 Times are on the path's clock (waypoint times; ``t`` in x = start + v t for
 a linear path).  With ``switching = "window"`` on a linear path, ``start``
@@ -21,7 +25,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Callable
 
-from probe.detectors.switching import Gaussian, PathSpan, Window
+import math
+
+from probe.detectors.switching import Crossing, Gaussian, PathSpan, Window
 from probe.errors import InputError
 from probe.scenarios.keys import Key, Part
 from probe.scenarios.limits import MAX_TIME_OVER_TU, fmt_time, scales
@@ -38,7 +44,8 @@ START = Key(_S, "start", '"0 ms"', "the window's start time", kind="time", requi
 STOP = Key(_S, "stop", '"10 ms"', "the window's stop time", kind="time", required=True,
            vary=19)
 RAMP = Key(_S, "ramp", '"1 ms"', "duration of the smooth ramp at both ends (default 5 % "
-           "of the window or the path's span; 0 is a hard cut)", kind="time", vary=18)
+           "of the window, the path's span or the crossing; 0 is a hard cut)", kind="time",
+           vary=18)
 
 
 @dataclass(frozen=True)
@@ -105,11 +112,55 @@ def _window(body, trajectory, kind, condensate):
     return Window(a, b, ramp)
 
 
+def crossing_times(trajectory, condensate, kind):
+    """``(t_in, t_out)``: when a path enters and leaves the uniform region
+    (the ball of radius ``condensate.size``); InputError when there is no
+    such region, the path never enters it or never leaves it."""
+    size = condensate.size
+    if size is None:
+        raise InputError(f"{_S}.switching",
+                         "'crossing' switches the coupling on while the probe is inside "
+                         "the box; give its radius as condensate.size (with trap = "
+                         "\"box\" or alone); a harmonic trap's cloud is followed by "
+                         "'probe passage'")
+    if kind == "circular":
+        raise InputError(f"{_S}.switching", "'crossing' needs a path that enters and "
+                                             "leaves the box once (linear or spline); a "
+                                             "circle does not")
+    radii = [size] * condensate.dimension
+    times = trajectory.times_within(radii)
+    if times is None:
+        b = trajectory.closest_approach(radii) * size
+        key = f"{_S}.start" if kind == "linear" else f"{_S}.switching"
+        raise InputError(key, f"the path never enters the box: it passes the "
+                                         f"centre at {b * 1e6:.4g} um, outside "
+                                         f"condensate.size = {size * 1e6:.4g} um")
+    if not all(math.isfinite(t) for t in times):
+        raise InputError(f"{_S}.speed", "a probe at rest inside the box never crosses it; "
+                                         "give it a speed")
+    return times
+
+
+def _crossing(body, trajectory, kind, condensate):
+    t_in, t_out = crossing_times(trajectory, condensate, kind)
+    ramp = quantity(body, RAMP)
+    if ramp is None:
+        ramp = 0.05 * (t_out - t_in)
+    elif not 0 <= ramp <= t_out - t_in:
+        raise InputError(RAMP.dotted, f"must be between 0 and the crossing time "
+                                      f"{fmt_time(t_out - t_in)}, got {body['ramp']!r}")
+    for t in (t_in, t_out):
+        _check_switching_range(f"{_S}.switching", "crossing", (t, t), condensate,
+                               trajectory.stationary)
+    return Crossing(t_in, t_out, ramp)
+
+
 #: switching name -> its keys and builder (the order of messages)
 SWITCHINGS = {kind.name: kind for kind in (
     SwitchingKind("gaussian", (SWITCHING_WIDTH, SWITCHING_CENTRE), _gaussian),
     SwitchingKind("window", (START, STOP, RAMP), _window),
     SwitchingKind("path", (RAMP,), _path_span),
+    SwitchingKind("crossing", (RAMP,), _crossing),
 )}
 
 SWITCHING = Key(_S, "switching", '"gaussian"', "how the coupling is switched on and off: "
