@@ -27,11 +27,11 @@ import numpy as np
 
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_json
-from probe.cli.common import (fail, input_errors, json_value, num, q, result_rows,
+from probe.cli.common import (fail, input_errors, json_value, num, q, quantity_text,
                               write_atomic)
 from probe.cli.rates import rows_derived, rows_inputs
 from probe.errors import InputError
-from probe.quantities import kind_of, si_unit
+from probe.quantities import kind_of, quantity, si_unit
 from probe.scenarios.limits import fmt_time
 
 _SET_HELP = ("Override a configuration entry, e.g. --set 'condensate.atom_number=1e5'. "
@@ -89,9 +89,12 @@ def _result_rows(scenario, result, files):
     from probe.scenarios.passage import passage_outputs
 
     values = result.to_dict()
-    rows = result_rows(result, passage_outputs(scenario.probe), values=values,
-                       sound_speed=scenario.condensate.sound_speed,
-                       dimension=scenario.condensate.dimension)
+    rows = []
+    for name in passage_outputs(scenario.probe):     # the totals of the model, in order
+        qty = quantity(name)
+        rows.append((qty.label, quantity_text(name, values[name], note=qty.note,
+                                              sound_speed=scenario.condensate.sound_speed,
+                                              dimension=scenario.condensate.dimension)))
     for label, name in files:
         rows.append((label, name))
     return rows

@@ -243,7 +243,8 @@ def harmonic_notes(scenario, command):
 
 def transit_region_warnings(scenario):
     """A transit of a box (``condensate.size``) whose path is outside it while
-    the coupling is on (sampled over the switching's extent)."""
+    the coupling is on (chi >= 1/2, sampled over the switching's extent; a
+    crossing's ramps are centred on the edges, where chi = 1/2)."""
     from probe.scenarios.transit import switching_interval
 
     size = scenario.condensate.size
@@ -253,7 +254,7 @@ def transit_region_warnings(scenario):
     t = np.linspace(t0, t1, 2001)
     d = scenario.condensate.dimension
     r = np.linalg.norm(np.asarray(scenario.trajectory.position(t), float)[..., :d], axis=-1)
-    out = r > size * (1 + EDGE_TOLERANCE)
+    out = (r > size * (1 + EDGE_TOLERANCE)) & (np.asarray(scenario.switching(t)) > 0.5)
     if not np.any(out):
         return []
     return [f"the path leaves the box (condensate.size = {size * 1e6:.4g} um) while the "

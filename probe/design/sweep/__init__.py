@@ -40,7 +40,9 @@ the versions of the tool and its libraries.
 Finite transits.  When the scenario is a switched transit
 (``Scenario.is_transit``) every point is one transit and the columns are the
 probe model's transit outputs (``up_probability``, ``down_probability`` or
-``emitted_phonons`` ...) instead of rates; evaluators are chosen by
+``emitted_phonons`` ...) instead of rates; in a harmonic trap (``Scenario.is_passage``) every point
+is one passage through the cloud (``probe passage``) and the columns are
+its results (``excited_probability`` ...); evaluators are chosen by
 :func:`evaluator_for`.
 
 Modules: ``keys`` (the numeric keys, edits of a configuration), ``grid``
@@ -57,8 +59,8 @@ import numpy as np
 
 from probe.design.sweep.display import (COLUMN_KINDS, axis_value_text, column_kind,
                                         display_unit, format_value)
-from probe.design.sweep.evaluators import (EVALUATORS, RatesEvaluator, TransitEvaluator,
-                                           evaluate_point, evaluator_for)
+from probe.design.sweep.evaluators import (EVALUATORS, PassageEvaluator, RatesEvaluator,
+                                           TransitEvaluator, evaluate_point, evaluator_for)
 from probe.design.sweep.files import (PartialFile, SweepResult, cell_text, library_versions,
                                       read_sweep, sidecar_path, sweep_meta, write_csv,
                                       write_json)
@@ -200,7 +202,7 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
 __all__ = ["sweep", "plan_sweep", "Plan", "SweepResult", "Axis", "read_sweep",
            "parse_vary", "make_axis", "evaluate_point", "NUMERIC_KEYS",
            "VECTOR_KEYS", "MAX_POINTS", "EVALUATORS", "evaluator_for", "RatesEvaluator",
-           "TransitEvaluator", "PartialFile", "library_versions", "sidecar_path",
+           "TransitEvaluator", "PassageEvaluator", "PartialFile", "library_versions", "sidecar_path",
            "sweep_meta", "write_csv", "write_json", "cell_text", "raw_config",
            "check_numeric_key", "si_unit", "display_unit", "format_value", "column_kind",
            "COLUMN_KINDS", "axis_value_text", "assign", "value_text"]

@@ -2,7 +2,10 @@
 
 ``RatesEvaluator`` gives the stationary rates of uniform motion through the
 engine the trajectory declares (``probe.engines.stationary.engine_for``);
-``TransitEvaluator`` one finite transit per point.  The columns follow from
+``TransitEvaluator`` one finite transit per point; ``PassageEvaluator`` one
+passage through the cloud per point, for a gas in a harmonic trap
+(``Scenario.is_passage``; a box passage is ``probe passage`` alone, a
+sweep of a box computes its rates or transits as before).  The columns follow from
 declarations: the engine's ``arguments`` and the probe model's
 ``array_keys`` (the grid columns), the gas at the point, and the outputs the
 model lists (``rate_outputs``, ``transit_outputs``) with their units from
@@ -221,8 +224,62 @@ class TransitEvaluator:
         return out, warns
 
 
+class PassageEvaluator:
+    """The passage through a harmonically trapped cloud
+    (``Scenario.is_passage``), one per point through ``Scenario.passage()``
+    (:mod:`probe.scenarios.passage`): the gas at the cloud's centre, the
+    atom number, and the passage's results for the model
+    (``passage_outputs``).  A point whose path misses the cloud gets NaN and
+    the reason."""
+
+    name = "passage"
+
+    @staticmethod
+    def applies(scenario):
+        return bool(getattr(scenario, "is_passage", False))
+
+    @staticmethod
+    def outputs(scenario):
+        from probe.scenarios.passage import passage_outputs
+        return passage_outputs(scenario.probe)
+
+    def columns(self, scenario):
+        names = [*GAS_COLUMNS, "atom_number", *self.outputs(scenario)]
+        return _columns(names, scenario.condensate.dimension)
+
+    @staticmethod
+    def vector_keys(raw, scenario):
+        """None: every point is a passage of its own."""
+        return {}
+
+    @staticmethod
+    def chunk(scenario):
+        """One point per task: a passage takes about a second."""
+        return 1
+
+    def evaluate(self, scenario, arrays, n):
+        cond = scenario.condensate
+        names = self.outputs(scenario)
+        fixed = _gas_values(cond) + [scenario.trap.atom_number]
+        out = np.full((n, len(fixed) + len(names)), np.nan)
+        out[:, :len(fixed)] = fixed
+        warns = [[] for _ in range(n)]
+        for i in range(n):
+            try:
+                res = scenario.passage()
+            except (InputError, ModelError) as exc:
+                warns[i].append(f"no result: {exc.key}: {exc.message}")
+                continue
+            values = res.to_dict()
+            for j, name in enumerate(names, start=len(fixed)):
+                v = values.get(name)
+                out[i, j] = np.nan if v is None else float(v)
+            warns[i] = list(res.warnings)
+        return out, warns
+
+
 #: evaluators tried in order: the first whose ``applies(scenario)`` holds
-EVALUATORS = [TransitEvaluator(), RatesEvaluator()]
+EVALUATORS = [PassageEvaluator(), TransitEvaluator(), RatesEvaluator()]
 
 
 def evaluator_for(scenario):
@@ -232,8 +289,8 @@ def evaluator_for(scenario):
             return ev
     raise InputError("trajectory.kind",
                      "sweeps compute stationary rates of uniform straight or "
-                     "circular motion, or probabilities of a switched transit; "
-                     "this trajectory is neither")
+                     "circular motion, probabilities of a switched transit, or "
+                     "passages through a harmonic trap; this scenario is none of them")
 
 
 def evaluate_point(config, values, overrides=(), source=None, removals=()):
