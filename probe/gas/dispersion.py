@@ -154,11 +154,35 @@ class Dispersion:
 
     def omega_divided2(self, q, r1, r2):
         """Second divided difference omega[q, r1, r2], free of cancellation
-        as the roots merge."""
+        both as the points merge and when they lie far apart.
+
+        Three exact forms, each taken where its rounding is smallest:
+        through F = omega^2, (F[q, r1, r2] (w1 + w2) - F[r2, r1] omega[q, r2])
+        / ((w_q + w1)(w1 + w2)), which keeps its digits as the points merge
+        but cancels when one lies far from the others (an up window [r1, r2]
+        of a fast probe: the terms grow as r2^4); and the first differences
+        (omega[q, r1] - omega[r1, r2])/(q - r2) and (omega[q, r2] -
+        omega[r1, r2])/(q - r1), which cancel only as q approaches the point
+        in the denominator.  The rounding of each is estimated as eps times
+        the size of its terms over the size of its result."""
         w1, w2, wq = self.omega(r1), self.omega(r2), self.omega(q)
-        num = (self.divided_difference2(q, r1, r2) * (w1 + w2)
-               - self.divided_difference(r2, r1) * self.omega_divided(q, r2))
-        return num / ((wq + w1) * (w2 + w1))
+        t1 = self.divided_difference2(q, r1, r2) * (w1 + w2)
+        t2 = self.divided_difference(r2, r1) * self.omega_divided(q, r2)
+        d12 = self.omega_divided(r1, r2)
+        d1 = self.omega_divided(q, r1)
+        d2 = self.omega_divided(q, r2)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            forms = [((t1 - t2) / ((wq + w1) * (w2 + w1)), np.abs(t1) + np.abs(t2), t1 - t2),
+                     ((d1 - d12) / (q - r2), np.abs(d1) + np.abs(d12), d1 - d12),
+                     ((d2 - d12) / (q - r1), np.abs(d2) + np.abs(d12), d2 - d12)]
+            loss = [np.where(np.isfinite(val) & (diff != 0), size / np.abs(diff), np.inf)
+                    for val, size, diff in forms]
+        best, best_loss = forms[0][0], loss[0]
+        for (val, _, _), lo in zip(forms[1:], loss[1:]):
+            better = lo < best_loss
+            best = np.where(better, val, best)
+            best_loss = np.where(better, lo, best_loss)
+        return best
 
     def root_minus(self, v, W):
         """q_a: omega(q) + v q = W, the low edge of the down window

@@ -42,8 +42,10 @@ def range_checks(condensate, speed, gaps=(), radius=None):
     ``(key, detuning)`` pairs of the gapped channels."""
     c, xi, w0 = condensate.sound_speed, condensate.healing_length, condensate.frequency_unit
     v = np.asarray(speed, float) / c
-    if np.any(v > MAX_SPEED_OVER_C):
-        bad = v > MAX_SPEED_OVER_C
+    # a speed given as exactly MAX_SPEED_OVER_C c_s comes back from SI with
+    # the rounding of c: a few ulps over the limit are the limit
+    bad = v > MAX_SPEED_OVER_C * (1 + 8 * EPS)
+    if np.any(bad):
         raise ModelError(
             "trajectory.speed",
             f"{at_points(bad)}the speed {np.max(v):.4g} c_s ({np.max(v) * c:.4g} m/s) is "
@@ -152,9 +154,10 @@ def error_check(name, value, error, key="trajectory.speed"):
 
 
 def guard(condensate, probe, res):
-    """Never hand back a silent NaN, inf or negative rate: ModelError naming
-    the quantity and the inputs (in the gas's units) instead.  Which
-    quantities are guarded is declared in the quantity registry."""
+    """Never hand back a silent NaN, inf or negative rate: a ModelError
+    under the motion's key ``trajectory.speed``, naming the quantity and the
+    inputs (in the gas's units), instead.  Which quantities are guarded is
+    declared in the quantity registry."""
     for name in guarded_names():
         value = getattr(res, name, None)
         if value is None:
@@ -170,7 +173,7 @@ def guard(condensate, probe, res):
             if res.gap is not None:
                 inputs += f", gap {_max_of(res.gap) / w0:.4g} c/xi"
             raise ModelError(
-                "inputs",
+                "trajectory.speed",
                 f"{at_points(bad)}the {name.replace('_', ' ')} is {what} "
                 f"({float(a[bad].flat[0])!r}) "
                 f"for {inputs}: the inputs are outside the range the engine can "

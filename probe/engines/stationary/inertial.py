@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from probe.engines.quadrature import integrate
-from probe.engines.stationary.limits import (EPS, NEAR_SOUND, ROUNDING, STATIC_SPEED,
+from probe.engines.stationary.limits import (CUT, EPS, NEAR_SOUND, ROUNDING, STATIC_SPEED,
                                              STATIC_SPEED_3D)
 from probe.errors import ModelError
 
@@ -73,7 +73,7 @@ class _Window:
     """The points with a nonempty window in d = 2, 3: their indices ``idx``
     and, for them, the edges ``a``, ``b`` (inf where unbounded), the upper
     limit ``bq`` of the integral (b cut by the form factor), speed ``v``,
-    detuning ``W``, width ``s``, ``unbounded`` and ``bcut`` (b cut)."""
+    detuning ``W``, width ``s`` and ``unbounded``."""
 
     idx: np.ndarray
     a: np.ndarray
@@ -83,13 +83,15 @@ class _Window:
     W: np.ndarray
     s: np.ndarray
     unbounded: np.ndarray
-    bcut: np.ndarray
 
 
 def _cut_window(gas, v, W, s, a, b, present):
     """The :class:`_Window` of the points with a window, or None; a
     ModelError where an unbounded window is not cut by a form factor."""
-    bb = np.where(np.isinf(b), gas.qcut(s), b)
+    # every window, bounded or not, ends where the form factor has decayed:
+    # a fast probe's window [a, ~2v] is far wider than the part where the
+    # integrand lives, which the quadrature's nodes would miss
+    bb = np.minimum(b, gas.qcut(s))
     if np.any(present & np.isinf(bb)):
         raise ModelError(
             "condensate.dispersion",
@@ -102,7 +104,7 @@ def _cut_window(gas, v, W, s, a, b, present):
         return None
     bq = bb[idx]
     return _Window(idx=idx, a=a[idx], b=b[idx], bq=bq, v=v[idx], W=W[idx], s=s[idx],
-                   unbounded=np.isinf(b[idx]), bcut=b[idx] > bq * (1 + 1e-15))
+                   unbounded=np.isinf(b[idx]))
 
 
 def window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
@@ -160,19 +162,56 @@ def _window_3d(gas, win, tags, rtol, out):
                     * gas.weights(x, t)) / (2 * math.pi * win.v[i, None])
         return f
     for t in _closed_forms_3d(disp, win, tags, out):
-        val, err, _ = integrate(make(t), win.a, win.bq, rtol=rtol * 0.1)
+        f = make(t)
+        top = _tag_top(gas, win, t)
+        val, err, _ = integrate(f, win.a, top, rtol=rtol * 0.1)
+        rows = np.arange(win.idx.size)
+        with np.errstate(invalid="ignore", over="ignore"):
+            tail = f(top[:, None], rows)[:, 0] * _tail_length(gas, win, t, top)
         out[t][0][win.idx] = val
-        out[t][1][win.idx] = err
+        out[t][1][win.idx] = err + np.where((top > win.a) & (top < win.b), tail, 0.0)
     _narrow_window_error(out, win.idx, win.a, win.bq)
+
+
+def _tag_top(gas, win, t):
+    """Upper limit of the integral of weight ``t``: the window's end cut by
+    the form factor (``bq``) and, for the Bose occupation n_k, at
+    w_k = CUT T, beyond which n_k < exp(-CUT).  The quadrature's nodes
+    spread over [a, top]: a window far wider than the part where the
+    integrand lives (a fast probe's reaches q ~ 2 v) would put no node
+    there and return 0 with an error estimate of 0."""
+    if t == "thermal" and gas.T > 0:
+        return np.minimum(win.bq, gas.disp.inverse(CUT * gas.T))
+    return win.bq
+
+
+def _tail_length(gas, win, t, top):
+    """Decay length of the integrand beyond a cut at ``top``: twice the
+    inverse of its logarithmic slope there (2 q s^2 from the form factor,
+    v_g (1 + n)/T from the occupation), so that integrand(top) times it
+    bounds the neglected tail of a Gaussian or exponential decay whose
+    polynomial prefactor grows by less than a factor 2 over one length."""
+    slope = 2.0 * top * win.s ** 2
+    if t == "thermal" and gas.T > 0:
+        slope = slope + gas.disp.group_velocity(top) / gas.T
+    with np.errstate(divide="ignore"):
+        return np.where(slope > 0, 2.0 / np.where(slope > 0, slope, 1.0), 0.0)
 
 
 def _factor_w1(disp, x, A_, B_, V, Wd):
     """W1 in 2D: 1/sqrt(((kv + X)/(q - a)) ((kv - X)/(b - q))) without
-    cancellation (on unbounded windows (kv - X) itself)."""
+    cancellation (on unbounded windows (kv - X) itself).  kv - X =
+    v q + W - w(q) is formed directly where w(q) is below half of v q + W
+    (no cancellation there) and as (b - q)(w[q, b] - v) nearer the edge b,
+    where the direct form cancels (w[q, b] - v itself cancels near q = a of
+    a fast probe: it is of order W/v there)."""
     lower = V + disp.omega_divided(x, A_)              # (kv+X)/(q-a)
-    with np.errstate(invalid="ignore"):
+    with np.errstate(invalid="ignore", divide="ignore"):
         Bf = np.where(np.isinf(B_), 0, B_)
-        upper_fin = disp.omega_divided(x, Bf) - V
+        wx = disp.omega(x)
+        direct = (V * x + Wd - wx) / (Bf - x)
+        upper_fin = np.where(2 * wx < V * x + Wd, direct,
+                             disp.omega_divided(x, Bf) - V)
         phase = disp.phase_divided(x, Bf)
         if phase is not None:
             # gapless probe just above the sound speed: b is the crossing
@@ -210,7 +249,10 @@ def _integrand_2d(gas, win, kind, t):
         Bf = win.b[i, None]
         fin = ~np.isinf(Bf)
         Bs = np.where(fin, Bf, A_ + 1.0)
-        qf = 0.5 * (A_ + Bs) - 0.5 * (Bs - A_) * np.cos(th)
+        # a + (b - a) sin^2(theta/2), from the nearer edge (no cancellation
+        # of a small q against the window's centre when b >> a)
+        qf = np.where(th < 0.5 * math.pi, A_ + (Bs - A_) * np.sin(0.5 * th) ** 2,
+                      Bs - (Bs - A_) * np.cos(0.5 * th) ** 2)
         qu = A_ + th * th
         q = np.where(fin, qf, qu)
         fac = factor(disp, q, A_, Bf, win.v[i, None], win.W[i, None])
@@ -225,17 +267,25 @@ def _window_2d(gas, win, kind, tags, rtol, out):
     """d = 2: the integral of q S |F|^2 weight 2/sqrt(k^2 v^2 - X^2) dq /
     (2 pi) over the window per tag, into ``out``."""
     fin = ~win.unbounded
-    th_hi = np.empty(win.idx.size)
-    with np.errstate(invalid="ignore"):
-        cosarg = np.clip((win.a + win.b - 2 * win.bq)
-                         / np.where(fin, win.b - win.a, 1), -1, 1)
-    th_hi[fin] = np.where(win.bcut[fin], np.arccos(cosarg[fin]), math.pi)
-    th_hi[~fin] = np.sqrt(win.bq[~fin] - win.a[~fin])
+    rows = np.arange(win.idx.size)
     for t in tags:
-        val, err, _ = integrate(_integrand_2d(gas, win, kind, t), np.zeros(win.idx.size),
-                                th_hi, rtol=rtol * 0.1)
+        top = _tag_top(gas, win, t)
+        cut = top < win.b
+        th_hi = np.empty(win.idx.size)
+        with np.errstate(invalid="ignore"):
+            frac = np.clip((top - win.a) / np.where(fin, win.b - win.a, 1), 0, 1)
+        # b cut at top: a + (b - a) sin^2(theta/2) = top
+        th_hi[fin] = np.where(cut[fin], 2 * np.arcsin(np.sqrt(frac[fin])), math.pi)
+        th_hi[~fin] = np.sqrt(np.maximum(top[~fin] - win.a[~fin], 0.0))
+        f = _integrand_2d(gas, win, kind, t)
+        val, err, _ = integrate(f, np.zeros(win.idx.size), th_hi, rtol=rtol * 0.1)
+        # the neglected tail beyond the cut: the integrand in q there is
+        # f(theta) / (dq/dtheta), dq/dtheta = (b - a) sin(theta)/2 or 2 t
+        with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+            dq = np.where(fin, 0.5 * (win.b - win.a) * np.sin(th_hi), 2.0 * th_hi)
+            tail = f(th_hi[:, None], rows)[:, 0] / dq * _tail_length(gas, win, t, top)
         out[t][0][win.idx] = val
-        out[t][1][win.idx] = err
+        out[t][1][win.idx] = err + np.where(cut & (top > win.a) & (dq > 0), tail, 0.0)
     if kind == "W2":
         # near the threshold the up window [a, b] is narrow and the factor
         # (q - a)(b - q) w[q, a, b] carries the rounding of both edges
