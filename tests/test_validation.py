@@ -76,10 +76,27 @@ kind = "linear"
 speed = "1.5 c_s"
 """
 
-BASES = {"3D": GAS3, "2D": GAS2, "1D": GAS1}
+GAS3T = """[condensate]
+dimension = 3
+species = "87Rb"
+scattering_length = "5.3 nm"
+trap = "harmonic"
+trap_frequencies = "50 Hz"
+atom_number = 2e5
+
+[probe]
+gap = "200 Hz"
+coupling_length = "1 nm"
+
+[trajectory]
+kind = "linear"
+speed = "0.9 c_s"
+"""
+
+BASES = {"3D": GAS3, "2D": GAS2, "1D": GAS1, "3D trap": GAS3T}
 
 # (what is wrong, base, file text change or None, --set arguments, extra CLI args
-#  such as --unset)
+#  such as --unset[, the command when not `probe rates`])
 CASES = [
     # --- files ---------------------------------------------------------------------------
     ("file does not exist", "3D", "MISSING", [], []),
@@ -161,6 +178,22 @@ CASES = [
     ("coupling so large the rates overflow", "3D", None, ["probe.coupling_length=1e300 nm"], []),
     ("gas scales underflow", "3D", None, ["condensate.density=1e-320 m^-3"], []),
     ("--output folder does not exist", "3D", None, [], ["--output", "no/such/folder/out.json"]),
+    # --- trapped clouds and passages -----------------------------------------------------------
+    ("harmonic trap with atom number and density", "3D trap", None,
+     ["condensate.density=1e20 m^-3"], []),
+    ("harmonic trap with neither atom number nor density", "3D trap", ("atom_number = 2e5\n", ""),
+     [], []),
+    ("trap frequencies of the wrong count", "3D trap", None,
+     ['condensate.trap_frequencies=["50 Hz", "50 Hz"]'], []),
+    ("zero trap frequency", "3D trap", None,
+     ['condensate.trap_frequencies=["50 Hz", "0 Hz", "50 Hz"]'], []),
+    ("trap keys without trap = \"harmonic\"", "3D", None, ["condensate.atom_number=2e5"], []),
+    ("size in a harmonic trap", "3D trap", None, ["condensate.size=20 um"], []),
+    ("turns not positive", "2D", None, ["trajectory.turns=0"], []),
+    ("crossing switching without a box", "3D", None, ["trajectory.switching=crossing"], []),
+    ("passage through a uniform gas without size", "3D", None, [], [], "passage"),
+    ("straight passage that never enters the cloud", "3D trap", None,
+     ['trajectory.start=["0 um", "15 um", "0 um"]'], [], "passage"),
 ]
 
 
@@ -181,8 +214,13 @@ def _sets(case):
     return [s.replace("{VT1}", VT1) for s in case[3]]
 
 
+def _command(case):
+    """The command a case runs: ``rates`` unless the case names another."""
+    return case[5] if len(case) > 5 else "rates"
+
+
 def _text(case):
-    _, base, change, _, _ = case
+    _, base, change, _, _ = case[:5]
     text = BASES[base]
     if isinstance(change, tuple):
         old, new = change
@@ -193,7 +231,7 @@ def _text(case):
 
 def run_case(case, folder):
     """Run one case in ``folder`` (the scenario file is 'scenario.toml' there)."""
-    name, base, change, sets, extra = case
+    name, base, change, sets, extra = case[:5]
     path = Path(folder) / "scenario.toml"
     if change == "BINARY":
         path.write_bytes(b"\xff\xfe[condensate]\n")
@@ -201,7 +239,7 @@ def run_case(case, folder):
         path.write_text("a = " + "[" * 3000 + "]" * 3000 + "\n")
     elif change != "MISSING":
         path.write_text(_text(case))
-    args = ["rates", "scenario.toml" if change != "MISSING" else "missing.toml"]
+    args = [_command(case), "scenario.toml" if change != "MISSING" else "missing.toml"]
     for s in _sets(case):
         args += ["--set", s]
     old = os.getcwd()
@@ -214,8 +252,8 @@ def run_case(case, folder):
 
 
 def _how(case):
-    name, base, change, sets, extra = case
-    parts = []
+    name, base, change, sets, extra = case[:5]
+    parts = [] if _command(case) == "rates" else [f"`probe {_command(case)}`"]
     if change == "MISSING":
         parts.append("`probe rates missing.toml`")
     elif change == "BINARY":

@@ -124,7 +124,7 @@ def passage_json(scenario, result, files=()):
     ``decoherence_exponent``, ``contrast`` ... as the model has them), the
     ``warnings``, the trap's derived keys, the time window and the inputs."""
     out = {"config": scenario.source}
-    out.update({k: (json_value(v) if k != "warnings" else v)
+    out.update({k: (json_value(v) if isinstance(v, float) else v)
                 for k, v in result.to_dict().items()})
     out["sound_speed"] = scenario.condensate.sound_speed
     out["healing_length"] = scenario.condensate.healing_length
