@@ -22,6 +22,7 @@ from probe.cli import cli
 from probe.detectors import TwoLevelProbe
 from probe.engines.stationary import inertial_rates
 from probe.errors import ModelError
+from probe.scenarios.units import parse_quantity, ureg
 
 from conftest import rb_gas
 
@@ -170,3 +171,31 @@ def test_exactly_the_largest_speed_is_accepted():
         json.loads(near.stdout)["down_rate"] / 1.0001, rel=1e-9)
     beyond = run("1.000001e6")
     assert beyond.exit_code == 2 and beyond.stderr.startswith("error: trajectory.speed: ")
+
+
+# --- 3. physical constants from scipy.constants (CODATA) -----------------------------------------
+def test_bohr_radius_and_atomic_mass_unit_are_codata():
+    """'1 a0' is the CODATA Bohr radius and '1 u' the CODATA atomic mass
+    constant exactly [CODATA]; pint's own Bohr radius, hbar/(alpha m_e c),
+    was 5.291772105438828e-11 m."""
+    assert parse_quantity("1 a0", "probe.coupling_length", "length") == \
+        sc.physical_constants["Bohr radius"][0]
+    assert parse_quantity("1 bohr", "probe.coupling_length", "length") == \
+        sc.physical_constants["Bohr radius"][0]
+    assert parse_quantity("1 u", "probe.mass", "mass") == sc.atomic_mass
+    assert parse_quantity("1 Da", "probe.mass", "mass") == sc.atomic_mass
+
+
+@pytest.mark.parametrize("name, value", [
+    ("hbar", sc.hbar), ("planck_constant", sc.h), ("k_B", sc.k), ("c", sc.c),
+    ("e", sc.e), ("m_e", sc.m_e), ("m_p", sc.m_p), ("m_n", sc.m_n), ("N_A", sc.N_A),
+    ("alpha", sc.alpha), ("mu_0", sc.mu_0), ("epsilon_0", sc.epsilon_0),
+    ("E_h", sc.physical_constants["Hartree energy"][0]),
+    ("Ry", sc.physical_constants["Rydberg constant times hc in J"][0]),
+    ("mu_B", sc.physical_constants["Bohr magneton"][0]),
+    ("gravitational_constant", sc.G), ("eV", sc.eV),
+])
+def test_registry_constants_are_codata(name, value):
+    """Every constant of the unit registry a scenario may use has the value
+    of scipy.constants [CODATA] (SI base units), not pint's recomputed one."""
+    assert ureg.Quantity(1.0, name).to_base_units().magnitude == value

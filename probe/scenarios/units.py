@@ -18,11 +18,23 @@ decides:
 
 Speeds may be given in units of the gas's own sound speed, written ``c_s``
 (``"1.5 c_s"``); plain ``c`` keeps pint's meaning, the speed of light.
+
+Physical constants.  pint's own definitions compute some constants from
+others (the Bohr radius as hbar/(alpha m_e c), the Hartree energy from the
+Rydberg constant ...), which differs from the CODATA value in the last
+digits.  Every constant the registry knows that a scenario may use (the
+Bohr radius ``a0``, the atomic mass unit ``u``, ``hbar``, ``k_B``, the
+Planck constant, ``c``, ``e``, the electron, proton and neutron masses, the
+Hartree and Rydberg energies, the Bohr magneton, alpha, mu_0, epsilon_0, N_A,
+G) is defined here from ``scipy.constants`` (CODATA), so that ``"1 a0"`` is
+``scipy.constants.physical_constants["Bohr radius"][0]`` metres exactly
+(``h`` stays pint's hour; the Planck constant is ``planck_constant``).
 """
 from __future__ import annotations
 
 import math
 import re
+from importlib import resources
 
 import numpy as np
 import pint
@@ -30,8 +42,53 @@ from scipy import constants as sc
 
 from probe.errors import InputError
 
+_CODATA = sc.physical_constants
+
+#: pint's definitions of the constants, with their names and aliases, but
+#: the values of scipy.constants (CODATA)
+CODATA_DEFINITIONS = (
+    f"speed_of_light = {sc.c!r} m/s = c = c_0",
+    f"planck_constant = {sc.h!r} J s = ℎ",
+    f"dirac_constant = {sc.hbar!r} J s = ħ = hbar = atomic_unit_of_action = a_u_action",
+    f"elementary_charge = {sc.e!r} C = e",
+    f"avogadro_number = {sc.N_A!r}",
+    f"boltzmann_constant = {sc.k!r} J K^-1 = k = k_B",
+    f"newtonian_constant_of_gravitation = {sc.G!r} m^3/(kg s^2) = _ = gravitational_constant",
+    f"rydberg_constant = {sc.Rydberg!r} m^-1 = R_∞ = R_inf",
+    f"atomic_mass_constant = {sc.atomic_mass!r} kg = m_u",
+    f"electron_mass = {sc.m_e!r} kg = m_e = atomic_unit_of_mass = a_u_mass",
+    f"proton_mass = {sc.m_p!r} kg = m_p",
+    f"neutron_mass = {sc.m_n!r} kg = m_n",
+    f"fine_structure_constant = {sc.alpha!r} = α = alpha",
+    f"vacuum_permeability = {sc.mu_0!r} N A^-2 = µ_0 = mu_0 = mu0 = magnetic_constant",
+    f"vacuum_permittivity = {sc.epsilon_0!r} F m^-1 = ε_0 = epsilon_0 = eps_0 = eps0 "
+    "= electric_constant",
+    f"bohr = {_CODATA['Bohr radius'][0]!r} m = a_0 = a0 = bohr_radius "
+    "= atomic_unit_of_length = a_u_length",
+    f"rydberg = {_CODATA['Rydberg constant times hc in J'][0]!r} J = Ry",
+    f"hartree = {_CODATA['Hartree energy'][0]!r} J = E_h = Eh = hartree_energy "
+    "= atomic_unit_of_energy = a_u_energy",
+    f"bohr_magneton = {_CODATA['Bohr magneton'][0]!r} J/T = µ_B = mu_B",
+)
+
+
+def _registry():
+    """pint's default registry with the constants of ``CODATA_DEFINITIONS``.
+
+    The definitions are loaded into an empty registry and the constants
+    replaced before any conversion is cached (a registry built with its
+    definitions precomputes its conversions, so a later redefinition would
+    not reach them)."""
+    reg = pint.UnitRegistry(filename=None, on_redefinition="ignore")
+    reg.load_definitions(str(resources.files("pint") / "default_en.txt"))
+    for line in CODATA_DEFINITIONS:
+        reg.define(line)
+    reg.default_system = "mks"
+    return reg
+
+
 #: The one unit registry of the project.
-ureg = pint.UnitRegistry()
+ureg = _registry()
 # The sound speed of the gas under study is not a fixed unit: it gets its own
 # base dimension so that it can never be converted silently, and is replaced
 # by the numerical sound speed of the gas in ``parse_quantity``.
