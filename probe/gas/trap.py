@@ -34,6 +34,8 @@ HBAR = sc.hbar
 KB = sc.k
 
 _BALL = {1: 2.0, 2: math.pi, 3: 4.0 * math.pi / 3.0}
+#: a point on the edge of a cloud (to this relative rounding) is inside it
+EDGE_TOLERANCE = 1e-9
 
 
 class HarmonicTrap:
@@ -126,6 +128,12 @@ class HarmonicTrap:
                           transverse_frequency=g.transverse_frequency,
                           temperature=g.temperature, dispersion=g.dispersion)
 
+    def passing_text(self, closest):
+        """How far a straight path that misses the cloud passes the centre
+        (``closest`` in units of the radii), in words."""
+        return (f"it passes the centre at {closest:.4g} Thomas-Fermi radii (the cloud's "
+                f"edge is at 1; radii {', '.join(f'{r * 1e6:.4g}' for r in self.radii)} um)")
+
     def summary(self):
         centre = self.centre
         return {"chemical_potential": self.chemical_potential,
@@ -134,3 +142,37 @@ class HarmonicTrap:
                 "atom_number": self.atom_number,
                 "sound_speed": centre.sound_speed,
                 "healing_length": centre.healing_length}
+
+
+class UniformBox:
+    """The uniform gas ``gas`` within the radius ``gas.size`` of the origin
+    (a box's uniform region) and nothing outside: a cloud with the interface
+    of :class:`HarmonicTrap` that a passage uses."""
+
+    def __init__(self, gas):
+        self.gas = gas
+        self.dimension = gas.dimension
+        self.radii = np.full(gas.dimension, float(gas.size))
+        self.peak_density = gas.density
+        self.centre = gas
+
+    def density(self, x):
+        """n inside the ball sum x_i^2 <= size^2 (its surface included, to
+        rounding), 0 outside, m^-d."""
+        x = np.asarray(x, float)[..., :self.dimension]
+        inside = np.sum((x / self.radii) ** 2, axis=-1) <= 1.0 + EDGE_TOLERANCE
+        return np.where(inside, self.gas.density, 0.0)
+
+    def density_gradient(self, x):
+        """Zero: the gas is uniform wherever it is."""
+        x = np.asarray(x, float)[..., :self.dimension]
+        return np.zeros_like(x)
+
+    def local_gas(self, density):
+        """The box's gas (the only density it holds, ``density``)."""
+        return self.gas
+
+    def passing_text(self, closest):
+        """How far a straight path that misses the box passes the centre."""
+        return (f"it passes the centre at {closest * self.radii[0] * 1e6:.4g} um, outside "
+                f"the box (condensate.size = {self.radii[0] * 1e6:.4g} um)")

@@ -5,7 +5,7 @@ time, with the local-density rates and the rate equation of
 The cloud is the scenario's harmonic trap (a Thomas-Fermi cloud,
 ``condensate.trap = "harmonic"``) or, for a uniform gas with ``size``, the
 box: the gas at its one density within the ball (disk, segment) of radius
-``size`` about the origin and no gas outside (:class:`BoxCloud`).  The time
+``size`` about the origin and no gas outside (:class:`probe.gas.trap.UniformBox`).  The time
 window of a passage follows from the path:
 
 - a straight path (``kind = "linear"``) is the line ``x = start + v t``
@@ -25,13 +25,13 @@ import math
 import numpy as np
 
 from probe.errors import InputError
+from probe.gas.trap import EDGE_TOLERANCE, UniformBox
 from probe.scenarios.limits import fmt_time
 from probe.scenarios.path import TURNS
 from probe.scenarios.values import quantity
 
 #: a sample counts as outside the cloud beyond this multiple of its edge
 #: (rounding of the entry and exit times of a straight crossing)
-EDGE_TOLERANCE = 1e-9
 #: the local density counts as constant along a circle within this fraction
 CONSTANT_DENSITY = 1e-9
 #: a straight crossing's window is widened by this fraction of itself
@@ -58,35 +58,6 @@ def passage_outputs(probe):
     return out
 
 
-class BoxCloud:
-    """The uniform gas ``gas`` within the radius ``gas.size`` of the origin
-    (a box's uniform region) and nothing outside: the interface of
-    :class:`probe.gas.trap.HarmonicTrap` that a passage uses."""
-
-    def __init__(self, gas):
-        self.gas = gas
-        self.dimension = gas.dimension
-        self.radii = np.full(gas.dimension, float(gas.size))
-        self.peak_density = gas.density
-        self.centre = gas
-
-    def density(self, x):
-        """n inside the ball sum x_i^2 <= size^2 (its surface included, to
-        rounding), 0 outside, m^-d."""
-        x = np.asarray(x, float)[..., :self.dimension]
-        inside = np.sum((x / self.radii) ** 2, axis=-1) <= 1.0 + EDGE_TOLERANCE
-        return np.where(inside, self.gas.density, 0.0)
-
-    def density_gradient(self, x):
-        """Zero: the gas is uniform wherever it is."""
-        x = np.asarray(x, float)[..., :self.dimension]
-        return np.zeros_like(x)
-
-    def local_gas(self, density):
-        """The box's gas (the only density it holds, ``density``)."""
-        return self.gas
-
-
 def cloud_of(scenario):
     """The cloud a passage goes through: the harmonic trap, or the box of a
     uniform gas with ``size``; InputError for a uniform gas without it."""
@@ -97,16 +68,7 @@ def cloud_of(scenario):
                                             "trap = \"harmonic\" with trap_frequencies "
                                             "and atom_number (or the peak density), or "
                                             "the radius of a box as size = \"50 um\"")
-    return BoxCloud(scenario.condensate)
-
-
-def _edge_distance_text(cloud, closest):
-    """How far a straight path passes from the centre, in words."""
-    if isinstance(cloud, BoxCloud):
-        return (f"it passes the centre at {closest * cloud.radii[0] * 1e6:.4g} um, outside "
-                f"the box (condensate.size = {cloud.radii[0] * 1e6:.4g} um)")
-    return (f"it passes the centre at {closest:.4g} Thomas-Fermi radii (the cloud's edge "
-            f"is at 1; radii {', '.join(f'{r * 1e6:.4g}' for r in cloud.radii)} um)")
+    return UniformBox(scenario.condensate)
 
 
 def straight_window(path, cloud):
@@ -121,7 +83,7 @@ def straight_window(path, cloud):
     times = path.times_within(cloud.radii)
     if times is None:
         raise InputError("trajectory.start", "the straight path never enters the cloud: "
-                         + _edge_distance_text(cloud, path.closest_approach(cloud.radii))
+                         + cloud.passing_text(path.closest_approach(cloud.radii))
                          + "; move start (or turn direction) towards the centre")
     t_in, t_out = times
     margin = WINDOW_MARGIN * (t_out - t_in)
