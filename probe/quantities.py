@@ -35,7 +35,11 @@ A quantity is declared once, with
   quantity whose presence in the result the note needs (the start of the
   probe is named only where the result has both starts);
 - ``noun``: what the quantity is, in one word, for messages and shared plot
-  axes (default: the word of its kind, ``KIND_NOUNS``).
+  axes (default: the word of its kind, ``KIND_NOUNS``);
+- ``readout``: how reading the probe's state at the end sees this output
+  (``probe.design.planning``): ``"excited"``, it is the probability of
+  finding the probe excited; ``"contrast"``, a fringe contrast C, read as
+  the probability (1 - C)/2 of the upper state after the closing pulse.
 
 Which quantities a result carries is declared by the probe model that
 produced it (``ProbeModel.rate_outputs`` / ``transit_outputs``) and by the
@@ -119,6 +123,7 @@ class Quantity:
     note: str = ""
     note_with: str | None = None
     noun: str | None = None
+    readout: str | None = None
 
     @property
     def unit(self):
@@ -181,7 +186,7 @@ _add("harmonics", "count", "harmonics summed", "harmonics summed", role="motion"
 # --- finite transits ----------------------------------------------------------
 _add("up_probability", "dimensionless", "up probability", r"up probability $P_\uparrow$",
      target=True, error="up_probability_error", headline=1, mean_rate="mean_up_rate",
-     noun="probability")
+     noun="probability", readout="excited")
 _add("up_probability_error", "dimensionless", "error of the up probability")
 _add("down_probability", "dimensionless", "down probability",
      r"down probability $P_\downarrow$", target=True, error="down_probability_error",
@@ -196,7 +201,8 @@ _add("emitted_phonons_excited", "dimensionless", "emitted phonons, excited",
 _add("absorbed_phonons", "dimensionless", "absorbed phonons")
 _add("emitted_energy", "energy", "emitted energy", note="(ground-state start)",
      note_with="emitted_phonons_excited")
-_add("contrast", "dimensionless", "contrast", r"contrast $e^{-\Lambda}$", target=True)
+_add("contrast", "dimensionless", "contrast", r"contrast $e^{-\Lambda}$", target=True,
+     readout="contrast")
 _add("decoherence_exponent", "dimensionless", "decoherence exponent",
      r"decoherence exponent $\Lambda$", target=True, error="decoherence_exponent_error")
 _add("decoherence_exponent_error", "dimensionless", "error of the decoherence exponent")
@@ -208,6 +214,13 @@ _add("mean_down_rate", "rate", "mean down rate", role="derived",
 _add("mean_emission_rate", "rate", "mean emission rate", role="derived",
      note="(emitted phonons / effective duration)")
 _add("achieved_rtol", "dimensionless", "achieved accuracy", role="derived")
+_add("measured_probability", "dimensionless", "measured probability",
+     r"measured probability $p$", role="derived", noun="probability",
+     note="(read excited: e0 + (1 - e0 - e1) P)")
+_add("reference_probability", "dimensionless", "reference probability",
+     r"reference probability $p_\mathrm{ref}$", role="derived", noun="probability",
+     note="(the reference setting, read with the same errors)")
+_add("shots_needed", "count", "shots needed", "shots per setting", role="derived")
 
 # --- the gas and the grid (sweep columns) -----------------------------------
 _add("speed", "speed", "speed", role="grid")
@@ -223,7 +236,8 @@ _add("atom_number", "dimensionless", "atom number", "atom number $N$", role="gas
 # --- passages through a cloud (probe passage) ----------------------------------
 _add("excited_probability", "dimensionless", "excited probability",
      r"excited probability $p_e$", target=True, headline=1, role="passage",
-     note="(rate equation, at the end of the passage)", noun="probability")
+     note="(rate equation, at the end of the passage)", noun="probability",
+     readout="excited")
 _add("first_order_up_probability", "dimensionless", "first-order up probability",
      r"first order $\int\Gamma_\uparrow dt$", target=True, role="passage",
      note="(int Gamma_up dt)", noun="probability")

@@ -95,7 +95,8 @@ def test_readme_parser_finds_commented_and_inline_keys():
 
 
 def test_schema_is_the_declarations():
-    assert list(SCHEMA) == ["condensate", "probe", "trajectory", "numerics"]
+    assert list(SCHEMA) == ["condensate", "probe", "trajectory", "numerics", "uncertainty",
+                            "readout"]
     for dotted, key in KEYS.items():
         assert SCHEMA[key.section][key.name] == key.example
     declared = {key.dotted for part in PARTS for key in part.keys}

@@ -29,6 +29,7 @@ from probe.cli.app import cli
 from probe.cli.cloud import cloud_json
 from probe.cli.common import (fail, input_errors, json_value, num, q, quantity_text,
                               write_atomic)
+from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.cli.rates import rows_derived, rows_inputs
 from probe.errors import InputError
 from probe.quantities import kind_of, quantity, si_unit
@@ -100,11 +101,14 @@ def _result_rows(scenario, result, files):
     return rows
 
 
-def format_passage_table(scenario, result, files=()):
-    """The readable report of a passage."""
+def format_passage_table(scenario, result, files=(), planning=None):
+    """The readable report of a passage (and what its ``[uncertainty]`` and
+    ``[readout]`` add: ``probe.cli.planning``)."""
     blocks = [("Inputs", _input_rows(scenario, result)),
               ("Derived", rows_derived(scenario, scenario.describe())),
               ("Results", _result_rows(scenario, result, files))]
+    if planning is not None:
+        blocks += planning_blocks(planning, scenario.condensate.dimension)
     width = max(len(label) for _, rows in blocks for label, _ in rows)
     lines = [f"== {scenario.source} =="] if scenario.source else []
     for title, rows in blocks:
@@ -118,7 +122,7 @@ def format_passage_table(scenario, result, files=()):
 # ---------------------------------------------------------------------------
 # JSON and CSV
 # ---------------------------------------------------------------------------
-def passage_json(scenario, result, files=()):
+def passage_json(scenario, result, files=(), planning=None):
     """JSON-ready dict (SI): the passage's totals (``excited_probability``,
     ``first_order_up_probability``, ``passage_duration``, ``max_mach``,
     ``decoherence_exponent``, ``contrast`` ... as the model has them), the
@@ -137,6 +141,9 @@ def passage_json(scenario, result, files=()):
     out["inputs"] = {k: info[k] for k in ("condensate", "probe", "trajectory", "numerics")}
     out["inputs"]["trajectory"].update(_path_json(scenario))
     out["inputs"]["numerics"]["passage_samples"] = scenario.passage_samples
+    if planning is not None:
+        out.update(planning_json(planning))
+        out["inputs"].update(planning_inputs(planning))
     return out
 
 
@@ -222,7 +229,9 @@ def passage(config, as_json, out, plot, overrides, removals):
     """The passage through a cloud (a harmonic trap, or the box of
     condensate.size): local-density rates along the path and the rate
     equation of the populations."""
+    from probe.design.planning import plan_passage, planning_spec
     from probe.scenarios.config import load_config
+    from probe.scenarios.passage import passage_outputs
 
     try:
         if plot is not None:
@@ -231,19 +240,23 @@ def passage(config, as_json, out, plot, overrides, removals):
         if out is not None:
             _check_target(out, "--out")
         scenario = load_config(config, overrides, removals=removals)
+        spec = planning_spec(scenario, passage_outputs(scenario.probe), rest=False)
         with warnings.catch_warnings():
             # overflow and division warnings of numpy at the cloud's edge (where
             # the density and the sound speed vanish) are not for the reader
             warnings.simplefilter("ignore", RuntimeWarning)
             result = scenario.passage()
+            plan = None if spec is None else plan_passage(scenario, result, spec)
+        if plan is not None:
+            attach(result, plan)
         files = _write(scenario, result, out, plot)
         if as_json:
             keys = [("samples_file" if "samples" in label else "plot_file", name)
                     for label, name in files]
-            text = json.dumps(passage_json(scenario, result, keys), indent=2,
+            text = json.dumps(passage_json(scenario, result, keys, plan), indent=2,
                               allow_nan=False)
         else:
-            text = format_passage_table(scenario, result, files)
+            text = format_passage_table(scenario, result, files, plan)
     except input_errors() as exc:
         fail(exc)
     click.echo(text)

@@ -19,6 +19,7 @@ from probe.cli.app import cli
 from probe.cli.cloud import cloud_derived_rows, cloud_input_rows, cloud_json
 from probe.cli.common import (KIND_EXTRAS, fail, input_errors, json_value, num,
                                outputs_json, q, result_rows, write_atomic)
+from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.quantities import stationary_outputs, table_unit
 
 
@@ -116,12 +117,15 @@ def _transit(scenario, result):
     return transit_summary(scenario.condensate, scenario.trajectory, result)
 
 
-def format_table(scenario, result):
-    """The readable report for one scenario and its result."""
+def format_table(scenario, result, planning=None):
+    """The readable report for one scenario and its result (and what its
+    ``[uncertainty]`` adds: ``probe.cli.planning``)."""
     info = scenario.describe()
     blocks = [("Inputs", rows_inputs(scenario, info)),
               ("Derived", rows_derived(scenario, info)),
               ("Results", rows_results(scenario, result))]
+    if planning is not None:
+        blocks += planning_blocks(planning, scenario.condensate.dimension)
     width = max(len(label) for _, rows in blocks for label, _ in rows)
     lines = []
     if scenario.source:
@@ -138,12 +142,14 @@ def format_table(scenario, result):
     return "\n".join(lines)
 
 
-def result_json(scenario, result):
+def result_json(scenario, result, planning=None):
     """The JSON-ready dict for one scenario: every RateResult field and
     declared output (SI), the config path, and the validated inputs and
-    derived quantities."""
+    derived quantities (and what ``[uncertainty]`` adds)."""
     out = {"config": scenario.source}
     out.update(outputs_json(result, stationary_outputs(scenario.probe)))
+    if planning is not None:
+        out.update(planning_json(planning))
     info = scenario.describe()
     out["gas_parameter"] = info["derived"]["gas_parameter"]
     out["gas_parameter_name"] = info["derived"]["gas_parameter_name"]
@@ -151,6 +157,8 @@ def result_json(scenario, result):
     out.update(cloud_json(scenario))
     out["inputs"] = {k: info[k] for k in ("condensate", "probe", "trajectory", "numerics")}
     out["inputs"]["condensate"]["size"] = scenario.condensate.size
+    if planning is not None:
+        out["inputs"].update(planning_inputs(planning))
     transit = _transit(scenario, result)
     out["transit"] = None if transit is None else {
         k: json_value(v) for k, v in transit.items()}
@@ -172,25 +180,31 @@ def result_json(scenario, result):
                    "FILE is written whole or left untouched.")
 def rates(configs, as_json, overrides, removals, output):
     """Stationary up/down (or emission) rates for each scenario file CONFIG."""
+    from probe.design.planning import plan_rates, planning_spec
     from probe.scenarios.config import load_config
 
     errors = input_errors()
     done = []
     try:
         scenarios = [load_config(path, overrides, removals=removals) for path in configs]
+        specs = [planning_spec(s) for s in scenarios]
         with warnings.catch_warnings():
             # numpy's overflow/invalid-value warnings are not for the reader:
             # every result passes the engine's guard (no NaN, inf or negative
             # number is returned; a ModelError says why instead)
             warnings.simplefilter("ignore", RuntimeWarning)
-            for scenario in scenarios:
-                done.append((scenario, scenario.rates()))
+            for scenario, spec in zip(scenarios, specs):
+                result = scenario.rates()
+                plan = None if spec is None else plan_rates(scenario, result, spec)
+                if plan is not None:
+                    attach(result, plan)
+                done.append((scenario, result, plan))
         if as_json:
-            objs = [result_json(s, r) for s, r in done]
+            objs = [result_json(s, r, p) for s, r, p in done]
             payload = objs[0] if len(objs) == 1 else objs
             text = json.dumps(payload, indent=2, allow_nan=False)
         else:
-            text = "\n\n".join(format_table(s, r) for s, r in done)
+            text = "\n\n".join(format_table(s, r, p) for s, r, p in done)
         if output is not None:
             write_atomic(output, text + "\n")
     except errors as exc:

@@ -42,6 +42,7 @@ import click
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_json
 from probe.cli.common import fail, input_errors, num, q, outputs_json, result_rows
+from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.cli.rates import rows_derived, rows_inputs
 from probe.errors import InputError
 from probe.quantities import headline, quantity
@@ -152,11 +153,14 @@ _ROUTES = {
 }
 
 
-def format_transit_table(scenario, result, info, extras, files=()):
-    """The readable report of one transit."""
+def format_transit_table(scenario, result, info, extras, files=(), planning=None):
+    """The readable report of one transit (and what its ``[uncertainty]`` and
+    ``[readout]`` add: ``probe.cli.planning``)."""
     blocks = [("Inputs", _rows_path(scenario, info) + _rows_switching(scenario, info)),
               ("Derived", rows_derived(scenario, info)),
               ("Results", _rows_results(scenario, result, extras, files))]
+    if planning is not None:
+        blocks += planning_blocks(planning, scenario.condensate.dimension)
     width = max(len(label) for _, rows in blocks for label, _ in rows)
     lines = [f"== {scenario.source} =="] if scenario.source else []
     for title, rows in blocks:
@@ -167,15 +171,17 @@ def format_transit_table(scenario, result, info, extras, files=()):
     return "\n".join(lines)
 
 
-def transit_json(scenario, result, info, extras, files=()):
+def transit_json(scenario, result, info, extras, files=(), planning=None):
     """JSON-ready dict: every TransitResult field and declared output but the
     spectrum arrays (SI), durations and mean rates, gas quantities and the
-    validated inputs."""
+    validated inputs (and the planning's outputs and bands)."""
     out = {"config": scenario.source}
     data = outputs_json(result, scenario.probe.transit_outputs)
     data.pop("spectrum", None)
     out.update(data)
     out.update(extras)
+    if planning is not None:
+        out.update(planning_json(planning))
     out["gas_parameter"] = info["derived"]["gas_parameter"]
     out["gas_parameter_name"] = info["derived"]["gas_parameter_name"]
     out["healing_length_convention"] = "xi = hbar/(m c)"
@@ -184,6 +190,8 @@ def transit_json(scenario, result, info, extras, files=()):
         out["spectrum_file"], out["spectrum_directions_file"] = files
     out["inputs"] = {k: info[k] for k in ("condensate", "probe", "trajectory",
                                           "switching", "numerics")}
+    if planning is not None:
+        out["inputs"].update(planning_inputs(planning))
     return out
 
 
@@ -311,6 +319,7 @@ def write_spectrum(path, scenario, result):
 def transit(configs, as_json, spectrum, overrides, removals):
     """First-order transition probabilities of finite transits: a spline path
     through waypoints, or a linear or circular path with a switching function."""
+    from probe.design.planning import plan_transit, planning_spec
     from probe.scenarios.config import load_config
 
     errors = input_errors()
@@ -324,13 +333,18 @@ def transit(configs, as_json, spectrum, overrides, removals):
         scenarios = [load_config(path, overrides, removals=removals) for path in configs]
         for scenario in scenarios:
             check_transit(scenario)
-        for scenario in scenarios:
+        specs = [planning_spec(s) for s in scenarios]
+        for scenario, spec in zip(scenarios, specs):
             result = scenario.transit(spectrum=spectrum is not None)
             info = describe(scenario)
+            plan = None if spec is None else plan_transit(scenario, result, spec)
+            if plan is not None:
+                attach(result, plan)
             files = ()
             if spectrum is not None:
                 files = write_spectrum(spectrum, scenario, result)
-            done.append((scenario, result, info, _extras(scenario, result, info), files))
+            done.append((scenario, result, info, _extras(scenario, result, info), files,
+                         plan))
     except errors as exc:
         fail(exc)
     if as_json:

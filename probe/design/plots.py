@@ -312,9 +312,12 @@ def plot_lines(result, path=None, quantities=None):
                                         np.concatenate(ys))
     every = max(1, x.size // 14)
     order = np.argsort(x)
+    shaded = []
     for k, (q, y) in enumerate(zip(quantities, ys)):
         ax.plot(x[order], (y * yfac)[order], label=QUANTITY_LABELS.get(q, q),
                 markevery=every, **_style(k))
+        shaded += _bands(ax, result, q, x[order], order, yfac, _style(k)["color"], k == 0)
+    ys += shaded
     log_y = _spans_decades(*ys)
     clipped = False
     if log_y:
@@ -349,6 +352,27 @@ def plot_lines(result, path=None, quantities=None):
     if path is not None:
         save(fig, path)
     return fig
+
+
+#: the band columns of a sweep of uncertain inputs (``probe.design.sweep.planning``)
+#: shaded about a curve: (low, high, opacity), the 95 % band lighter
+BANDS = (("_p2_5", "_p97_5", 0.12), ("_p16", "_p84", 0.28))
+
+
+def _bands(ax, result, q, x, order, yfac, colour, legend):
+    """Shade the 68 % and 95 % bands of ``q`` where the sweep has them (named
+    in the legend when ``legend``); returns their columns (for the axis
+    limits)."""
+    shown = []
+    for (low, high, alpha), words in zip(BANDS, ("95 %", "68 % and 95 % intervals")):
+        if q + low not in result.columns or q + high not in result.columns:
+            continue
+        lo, hi = result.column(q + low), result.column(q + high)
+        ax.fill_between(x, (lo * yfac)[order], (hi * yfac)[order], color=colour,
+                        alpha=alpha, linewidth=0,
+                        label=words if legend and alpha == BANDS[-1][2] else None)
+        shown += [lo, hi]
+    return shown
 
 
 def _levels(z, log):

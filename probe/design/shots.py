@@ -14,6 +14,11 @@ e-Handbook of Statistical Methods, section 7.3.3), takes
     N = ceil(z^2 (p_s (1 - p_s) + p_r (1 - p_r)) / (p_s - p_r)^2)
 
 shots per setting.
+
+Which output a readout sees is declared in the quantity registry
+(``Quantity.readout``): ``"excited"`` for the probability of finding the
+probe excited (the up probability of a transit, the excited probability of
+a passage), ``"contrast"`` for a Ramsey fringe contrast C, read as (1 - C)/2.
 """
 from __future__ import annotations
 
@@ -22,6 +27,7 @@ import math
 import numpy as np
 
 from probe.errors import InputError
+from probe.quantities import QUANTITIES
 
 
 def check_readout(false_excited, missed_excited, significance):
@@ -48,16 +54,18 @@ def measured(probability, false_excited, missed_excited):
                                                                                float)
 
 
-def shots_needed(signal, reference, significance=3.0):
+def shots_needed(signal, reference, significance=3.0, whole=True):
     """Shots per setting to tell ``signal`` from ``reference`` (measured
     probabilities) at ``significance`` standard errors (two-proportion
-    z-test, normal approximation).  ``inf`` where they are equal."""
+    z-test, normal approximation), rounded up to a whole number (``whole``
+    False: the real number before rounding, for derivatives).  ``inf`` where
+    they are equal."""
     ps, pr = np.broadcast_arrays(np.asarray(signal, float), np.asarray(reference, float))
     var = ps * (1 - ps) + pr * (1 - pr)
     diff2 = (ps - pr) ** 2
     with np.errstate(divide="ignore", invalid="ignore"):
-        n = np.where(diff2 > 0, np.ceil(significance ** 2 * var / np.where(diff2 > 0, diff2,
-                                                                             1.0)), np.inf)
+        n = significance ** 2 * var / np.where(diff2 > 0, diff2, 1.0)
+        n = np.where(diff2 > 0, np.ceil(n) if whole else n, np.inf)
     return float(n) if n.ndim == 0 else n
 
 
@@ -68,3 +76,23 @@ def shots_sentence(n, significance):
                 "them apart")
     return (f"about {int(n):,} repetitions of each setting (signal and reference) to "
             f"see the effect at {significance:g} sigma")
+
+
+def signal_of(names):
+    """The first of the outputs ``names`` that a readout sees (its
+    registry entry has a ``readout``), or None."""
+    for name in names:
+        q = QUANTITIES.get(name)
+        if q is not None and q.readout is not None:
+            return name
+    return None
+
+
+def excited_probability(name, value):
+    """The probability of reading the probe excited that the output
+    ``name`` with ``value`` means: the value itself for ``readout =
+    "excited"``, (1 - C)/2 for a contrast C."""
+    how = QUANTITIES[name].readout
+    v = np.asarray(value, float)
+    out = v if how == "excited" else 0.5 * (1.0 - v)
+    return float(out) if out.ndim == 0 else out

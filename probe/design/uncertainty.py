@@ -89,12 +89,14 @@ def quantiles(values):
     return [float(q) for q in np.quantile(a, LEVELS)]
 
 
-def elasticity(evaluate, inputs, outputs):
-    """{output: {key: d ln Y / d ln X}} by central differences: ``evaluate``
-    maps {key: value} (the changed inputs) to {output: value}.  NaN where Y
-    is zero or changes sign, or the input is not positive."""
+def elasticity(evaluate, inputs, outputs, step=ELASTICITY_STEP):
+    """{output: {key: d ln Y / d ln X}} by central differences of relative
+    ``step`` in ln X: ``evaluate`` maps {key: value} (the changed inputs) to
+    {output: value}.  For a negative Y or X the elasticity is that of |Y| to
+    |X| (the same for a power law); NaN where Y is zero, not finite or changes
+    sign, or the input is zero."""
     out = {name: {} for name in outputs}
-    h = ELASTICITY_STEP
+    h = step
     for u in inputs:
         if u.nominal == 0:
             for name in outputs:
@@ -104,8 +106,10 @@ def elasticity(evaluate, inputs, outputs):
         down = evaluate({u.key: u.nominal * math.exp(-h)})
         for name in outputs:
             a, b = up.get(name), down.get(name)
-            ok = a is not None and b is not None and a > 0 and b > 0
-            out[name][u.key] = (math.log(a) - math.log(b)) / (2 * h) if ok else math.nan
+            ok = (a is not None and b is not None and math.isfinite(a) and math.isfinite(b)
+                  and a * b > 0)
+            out[name][u.key] = (math.log(abs(a)) - math.log(abs(b))) / (2 * h) if ok \
+                else math.nan
     return out
 
 

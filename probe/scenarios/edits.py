@@ -8,6 +8,7 @@ import os
 import tomllib
 
 from probe.errors import InputError
+from probe.scenarios.planning import UNCERTAINTY
 from probe.scenarios.schema import check_key
 
 
@@ -69,8 +70,11 @@ def override(config, assignment):
 
 
 def _section_key(dotted, option, example):
-    """(section, key) of a known ``"section.key"`` named on ``option``."""
-    parts = dotted.split(".")
+    """(section, key) of a known ``"section.key"`` named on ``option`` (an
+    entry of ``[uncertainty]`` is itself a scenario key: ``"uncertainty.
+    condensate.density"``)."""
+    entry = dotted.startswith(f"{UNCERTAINTY}.")
+    parts = dotted.split(".", 1) if entry else dotted.split(".")
     if len(parts) != 2 or not all(parts):
         raise InputError(option, f"key {dotted!r} must be SECTION.KEY, e.g. '{example}'")
     section, key = parts

@@ -9,12 +9,12 @@ documentation (:func:`markdown_tables`).
 from __future__ import annotations
 
 from probe.errors import InputError
-from probe.scenarios import detector, gas, numerics, path
+from probe.scenarios import detector, gas, numerics, path, planning
 from probe.scenarios.keys import suggest
 
 #: every part of a scenario, in the order of the schema (sections in the
-#: order condensate, probe, trajectory, numerics)
-PARTS = (*gas.PARTS, *detector.PARTS, *path.PARTS, *numerics.PARTS)
+#: order condensate, probe, trajectory, numerics, uncertainty, readout)
+PARTS = (*gas.PARTS, *detector.PARTS, *path.PARTS, *numerics.PARTS, *planning.PARTS)
 
 #: sections every scenario has
 REQUIRED_SECTIONS = ("condensate", "probe", "trajectory")
@@ -54,12 +54,15 @@ KEY_LABELS = {key.dotted: key.label for key in KEYS.values() if key.label}
 
 def check_key(section, key):
     """Raise InputError for an unknown section, or an unknown key (``key``
-    None: check the section only), with a suggestion."""
+    None: check the section only), with a suggestion.  Entries of
+    ``[uncertainty]`` named by a scenario key pass here (they are checked
+    against the scenario when it is planned)."""
     if section not in SCHEMA:
         raise InputError(
             section, f"unknown section; {suggest(section, SCHEMA)}"
             f"allowed: {', '.join(SCHEMA)}")
-    if key is not None and key not in SCHEMA[section]:
+    if key is not None and key not in SCHEMA[section] and \
+            not planning.is_entry(section, key):
         raise InputError(
             f"{section}.{key}", f"unknown key; {suggest(key, SCHEMA[section])}"
             f"allowed: {', '.join(SCHEMA[section])}")

@@ -45,10 +45,16 @@ is one passage through the cloud (``probe passage``) and the columns are
 its results (``excited_probability`` ...); evaluators are chosen by
 :func:`evaluator_for`.
 
+Uncertainty.  A scenario with ``[uncertainty]`` (or a switched transit with
+``[readout]``) adds the readout's outputs and, for every main output, the
+columns ``NAME_p2_5``, ``NAME_p16``, ``NAME_p50``, ``NAME_p84`` and
+``NAME_p97_5`` of its Monte Carlo band at each point (``planning``).
+
 Modules: ``keys`` (the numeric keys, edits of a configuration), ``grid``
 (axes and the checked plan), ``evaluators`` (what a point computes, and its
 columns), ``runners`` (tasks, local and Dask execution), ``files`` (CSV,
-sidecar, partial file) and ``display`` (readable units).
+sidecar, partial file), ``display`` (readable units) and ``planning``
+(bands of uncertain inputs).
 """
 from __future__ import annotations
 
@@ -68,12 +74,17 @@ from probe.design.sweep.grid import (MAX_POINTS, Axis, Plan, make_axis, parse_va
                                      plan_sweep)
 from probe.design.sweep.keys import (NUMERIC_KEYS, VECTOR_KEYS, assign, check_numeric_key,
                                      raw_config, value_text)
+from probe.design.sweep.planning import PlanningEvaluator, band_column
 from probe.design.sweep.runners import make_tasks, run_dask, run_local
 from probe.errors import InputError
 from probe.quantities import si_unit
 
 #: the partial file of an unfinished sweep (the name the tests use)
 _Partial = PartialFile
+
+# a scenario with [uncertainty] (or a transit with [readout]) is planned:
+# the rows of its own evaluator, the readout's outputs and the bands
+EVALUATORS.insert(0, PlanningEvaluator())
 
 
 class _Collector:
@@ -204,5 +215,6 @@ __all__ = ["sweep", "plan_sweep", "Plan", "SweepResult", "Axis", "read_sweep",
            "VECTOR_KEYS", "MAX_POINTS", "EVALUATORS", "evaluator_for", "RatesEvaluator",
            "TransitEvaluator", "PassageEvaluator", "PartialFile", "library_versions", "sidecar_path",
            "sweep_meta", "write_csv", "write_json", "cell_text", "raw_config",
+           "PlanningEvaluator", "band_column",
            "check_numeric_key", "si_unit", "display_unit", "format_value", "column_kind",
            "COLUMN_KINDS", "axis_value_text", "assign", "value_text"]
