@@ -194,6 +194,28 @@ CASES = [
     ("passage through a uniform gas without size", "3D", None, [], [], "passage"),
     ("straight passage that never enters the cloud", "3D trap", None,
      ['trajectory.start=["0 um", "15 um", "0 um"]'], [], "passage"),
+    # --- planning under uncertainty ------------------------------------------------------------
+    ("uncertainty on a key the scenario does not set", "3D", None,
+     ["uncertainty.condensate.size=10 %"], []),
+    ("uncertainty on an unknown key", "3D", None, ["uncertainty.condensate.densty=10 %"], []),
+    ("uncertainty on a key that is not a number", "3D", None,
+     ["uncertainty.probe.model=10 %"], []),
+    ("negative uncertainty", "3D", None, ["uncertainty.condensate.density=-10 %"], []),
+    ("zero uncertainty", "3D", None, ["uncertainty.condensate.density=0 m^-3"], []),
+    ("uncertainty about a zero temperature", "3D", None,
+     ["condensate.temperature=0 nK", "uncertainty.condensate.temperature=5 nK"], []),
+    ("fewer than 10 samples", "3D", None,
+     ["uncertainty.condensate.density=10 %", "uncertainty.samples=5"], []),
+    ("more than 1e6 samples", "3D", None,
+     ["uncertainty.condensate.density=10 %", "uncertainty.samples=2000000"], []),
+    ("readout error probability outside [0, 1)", "3D", None, ["readout.false_excited=1.5"], []),
+    ("readout errors summing to 1", "3D", None,
+     ["readout.false_excited=0.6", "readout.missed_excited=0.4"], []),
+    ("readout of a probe without internal states", "1D", None, ["readout.false_excited=0.03"],
+     []),
+    ("readout signal equal to its reference (probe at rest)", "3D", None,
+     ["trajectory.speed=0 m/s", "trajectory.switching=gaussian",
+      "trajectory.switching_width=1 ms", "readout.false_excited=0.03"], [], "transit"),
 ]
 
 

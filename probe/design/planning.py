@@ -386,10 +386,10 @@ def run_planning(scenario, spec, names, nominal, evaluate_one, rest_one=None,
                                                              plan.nominal[plan.signal]),
                                 excited_probability(plan.signal, ref))
         if not math.isfinite(values["shots_needed"]):
-            raise InputError("readout.reference", f"the measured probability "
-                             f"{values['measured_probability']:.6g} equals that of its "
-                             f"reference ({readout.reference}): "
-                             + shots_sentence(math.inf, readout.significance))
+            raise InputError("readout.reference", f"the signal is read as excited with the "
+                             f"probability {values['measured_probability']:.6g} of its "
+                             f"reference (reference = \"{readout.reference}\"): no number "
+                             "of repetitions tells them apart")
         plan.nominal.update({m: float(v) for m, v in values.items()})
         plan.names += list(READOUT_OUTPUTS)
     else:
