@@ -19,6 +19,7 @@ import numpy as np
 
 from probe.detectors import PROBE_MODELS
 from probe.engines.stationary import engine_for
+from probe.engines.stationary.checks import check_gaps
 from probe.errors import InputError
 from probe.quantities import quantity, target_names
 from probe.design.sweep import (NUMERIC_KEYS, cell_text, check_numeric_key, column_kind,
@@ -180,6 +181,8 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
     cond = base.condensate
     c, xi, w0 = cond.sound_speed, cond.healing_length, cond.frequency_unit
     gaps = axis.values
+    # the gaps the rates are computed for (a threshold beyond them has no rate)
+    check_gaps(cond, "probe.gap", gaps)
     vt, q = cond.dispersion.threshold(gaps / w0)
     vt0, _ = cond.dispersion.threshold(np.array([gap / w0]))
     n = gaps.size
@@ -269,6 +272,9 @@ def parse_target(text, columns, units):
         raise InputError("--target", f"expected QUANTITY=VALUE such as 'up_rate=50' "
                                      f"or 'up_rate=50 1/s', got {text!r}")
     name, value = (t.strip() for t in text.split("=", 1))
+    if not value:
+        raise InputError("--target", f"{name or 'QUANTITY'}= needs a value after '=', such "
+                                     f"as '{name or 'up_rate'}=50 1/s'")
     if name in TRANSIT_TARGETS and name not in columns:
         raise InputError("--target", f"{name} is a probability of a finite transit; "
                                      "this scenario is stationary motion, whose "

@@ -15,14 +15,17 @@ What the rate engine may use beyond that is declared, with a base-class
 default, never inferred from the class: ``bounded_windows`` (omega(q)/q
 unbounded, so supersonic windows are finite), ``qs_integral(a, b)`` and
 ``qs_omega_integral(a, b)`` (closed forms of the 3D point-probe window
-integrals, or None) and ``phase_divided(q, r)`` (the divided difference of
-the phase velocity free of cancellation, or None).  A new dispersion is one
+integrals, or None), ``phase_divided(q, r)`` (the divided difference of
+the phase velocity free of cancellation, or None) and ``omega_precise(q)``
+(omega and its slope to 40 digits at one point, or None).  A new dispersion is one
 subclass and one entry in ``DISPERSIONS``.
 
 Both spectra here are convex with omega(0) = 0, which the window logic in the
 rate engine assumes.
 """
 from __future__ import annotations
+
+from decimal import Decimal, localcontext
 
 import numpy as np
 
@@ -83,6 +86,14 @@ def _monotone_newton(f, fprime, x0, iters=100):
         done = np.abs(step) <= 1e-12 * np.abs(xn)
         idx = idx[~done]
     return x
+
+
+def _loss(value, size, diff):
+    """Rounding of a difference in units of eps: the size of its terms over
+    the size of the difference (inf where the value is not finite or the
+    difference vanishes)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(np.isfinite(value) & (diff != 0), size / np.abs(diff), np.inf)
 
 
 def _quartic_moment(a, b):
@@ -147,6 +158,16 @@ class Dispersion:
         where the window factor built from ``omega_divided`` cancels."""
         return None
 
+    def omega_precise(self, q):
+        """(omega(q), omega'(q)) at one double q to 40 significant digits
+        (``decimal.Decimal``), or None if the spectrum offers none.  The 3D
+        engine uses them for the line through the threshold point,
+        V = (omega + W)/q and its mismatch omega' - V, to better than double
+        precision: the up window's width grows as sqrt(v - v_th), so just
+        above the threshold the rounding of v_th (eps v_th) would leave the
+        rate with a relative error eps/(v/v_th - 1)."""
+        return None
+
     # --- common work ----------------------------------------------------
     def omega_divided(self, q, r):
         """omega[q, r] = (omega(q) - omega(r))/(q - r), free of cancellation."""
@@ -154,17 +175,29 @@ class Dispersion:
 
     def omega_divided2(self, q, r1, r2):
         """Second divided difference omega[q, r1, r2], free of cancellation
-        both as the points merge and when they lie far apart.
+        both as the points merge and when they lie far apart: the exact
+        form of ``omega_divided2_forms`` with the least rounding."""
+        forms = self.omega_divided2_forms(q, r1, r2)
+        best, best_loss = forms[0]
+        for val, loss in forms[1:]:
+            better = loss < best_loss
+            best = np.where(better, val, best)
+            best_loss = np.where(better, loss, best_loss)
+        return best
 
-        Three exact forms, each taken where its rounding is smallest:
-        through F = omega^2, (F[q, r1, r2] (w1 + w2) - F[r2, r1] omega[q, r2])
+    def omega_divided2_forms(self, q, r1, r2):
+        """Exact forms of omega[q, r1, r2], each with its loss (the size of
+        its terms over the size of their difference: its rounding in units
+        of eps; inf where it cannot be formed).
+
+        Through F = omega^2, (F[q, r1, r2] (w1 + w2) - F[r2, r1] omega[q, r2])
         / ((w_q + w1)(w1 + w2)), which keeps its digits as the points merge
-        but cancels when one lies far from the others (an up window [r1, r2]
-        of a fast probe: the terms grow as r2^4); and the first differences
-        (omega[q, r1] - omega[r1, r2])/(q - r2) and (omega[q, r2] -
-        omega[r1, r2])/(q - r1), which cancel only as q approaches the point
-        in the denominator.  The rounding of each is estimated as eps times
-        the size of its terms over the size of its result."""
+        (at q >~ 1) but cancels when one lies far from the others (an up
+        window [r1, r2] of a fast probe: the terms grow as r2^4); and the
+        first differences (omega[q, r1] - omega[r1, r2])/(q - r2) and
+        (omega[q, r2] - omega[r1, r2])/(q - r1), which cancel only as q
+        approaches the point in the denominator.  A subclass may add forms
+        of its own spectrum."""
         w1, w2, wq = self.omega(r1), self.omega(r2), self.omega(q)
         t1 = self.divided_difference2(q, r1, r2) * (w1 + w2)
         t2 = self.divided_difference(r2, r1) * self.omega_divided(q, r2)
@@ -175,14 +208,7 @@ class Dispersion:
             forms = [((t1 - t2) / ((wq + w1) * (w2 + w1)), np.abs(t1) + np.abs(t2), t1 - t2),
                      ((d1 - d12) / (q - r2), np.abs(d1) + np.abs(d12), d1 - d12),
                      ((d2 - d12) / (q - r1), np.abs(d2) + np.abs(d12), d2 - d12)]
-            loss = [np.where(np.isfinite(val) & (diff != 0), size / np.abs(diff), np.inf)
-                    for val, size, diff in forms]
-        best, best_loss = forms[0][0], loss[0]
-        for (val, _, _), lo in zip(forms[1:], loss[1:]):
-            better = lo < best_loss
-            best = np.where(better, val, best)
-            best_loss = np.where(better, lo, best_loss)
-        return best
+        return [(val, _loss(val, size, diff)) for val, size, diff in forms]
 
     def root_minus(self, v, W):
         """q_a: omega(q) + v q = W, the low edge of the down window
@@ -400,6 +426,30 @@ class Bogoliubov(Dispersion):
         q = np.asarray(q, float)
         r = np.asarray(r, float)
         return (q + r) / (4.0 * (np.sqrt(1 + 0.25 * q * q) + np.sqrt(1 + 0.25 * r * r)))
+
+    def omega_precise(self, q):
+        """omega = q p and omega' = (1 + q^2/2)/p, p = sqrt(1 + q^2/4), in
+        40-digit decimal arithmetic (q exact)."""
+        with localcontext() as ctx:
+            ctx.prec = 40
+            x = Decimal(float(q))
+            p = (1 + x * x / 4).sqrt()
+            return x * p, (1 + x * x / 2) / p
+
+    def omega_divided2_forms(self, q, r1, r2):
+        """The base class's forms and the product rule for omega = q p with
+        p = sqrt(1 + q^2/4): omega[q, r1, r2] = q p[q, r1, r2] + p[r1, r2],
+        p[r1, r2] = (r1 + r2)/(4 (p1 + p2)) and
+        p[q, r1, r2] = (p1 + p2 - (r1 + r2) p[q, r2]) / (4 (p_q + p1)(p1 + p2)),
+        which keeps its digits at small q, where the form through
+        F = omega^2 loses about 1/q^2 of them (the threshold point of a small
+        gap)."""
+        q, r1, r2 = (np.asarray(x, float) for x in (q, r1, r2))
+        pq, p1, p2 = (np.sqrt(1 + 0.25 * x * x) for x in (q, r1, r2))
+        cross = (r1 + r2) * self.phase_divided(q, r2)
+        diff = p1 + p2 - cross
+        value = q * diff / (4 * (pq + p1) * (p1 + p2)) + self.phase_divided(r1, r2)
+        return super().omega_divided2_forms(q, r1, r2) + [(value, _loss(value, p1 + p2 + cross, diff))]
 
     def inverse_group_velocity(self, v):
         v = np.asarray(v, float)

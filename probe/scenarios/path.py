@@ -234,6 +234,7 @@ def build_path(body, condensate, source=None):
                | (switching.NAMES if kind.finite else frozenset()))
     not_applicable(own, _S, set(own) - allowed, f"by a {kind.name} trajectory (keys: "
                                                 f"{', '.join(sorted(allowed))})")
+    switching.check_switching_keys(body, kind.finite, _SHARED)
     trajectory = kind.build(own, condensate, source)
     sw = switching.build_switching(body, trajectory, kind.name, condensate, kind.finite,
                                    _SHARED)

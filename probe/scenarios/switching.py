@@ -185,6 +185,18 @@ def build_switching(body, trajectory, kind, condensate, finite, shared=frozenset
     on a stationary path they belong to the path unless the switching reads
     them, and the path's builder has judged them.
     """
+    name = check_switching_keys(body, finite, shared)
+    if name is None:
+        return None
+    return SWITCHINGS[name].build(body, trajectory, kind, condensate)
+
+
+def check_switching_keys(body, finite, shared=frozenset()):
+    """The switching named in ``body`` (None for a stationary path without
+    one); InputError for a switching key that it does not read (a window's
+    ``stop`` left behind by switching = "gaussian", say).  Called before the
+    path is built, so that such a key is named rather than a shared key
+    (``start``) that the path then reads in another sense."""
     given = set(body) & (NAMES - (frozenset() if finite else shared))
     if SWITCHING.name not in body and not finite:
         if given:
@@ -199,7 +211,7 @@ def build_switching(body, trajectory, kind, condensate, finite, shared=frozenset
     for k in sorted(given - reads - {SWITCHING.name}):
         raise InputError(f"{_S}.{k}", f"not used with switching = {name!r} (it reads "
                                       f"{', '.join(sorted(reads))})")
-    return SWITCHINGS[name].build(body, trajectory, kind, condensate)
+    return name
 
 
 def keys_read(body):

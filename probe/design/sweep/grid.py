@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import re
 from dataclasses import dataclass
 
@@ -80,7 +81,7 @@ def parse_vary(text):
 
 
 def _num(key, num):
-    """NUM of a --vary entry: a whole number >= 1."""
+    """NUM of a --vary entry: a whole number from 1 to MAX_POINTS."""
     if isinstance(num, (int, np.integer)) and not isinstance(num, bool):
         n = int(num)
     elif isinstance(num, str) and re.fullmatch(r"\s*\+?\d+\s*", num):
@@ -90,6 +91,9 @@ def _num(key, num):
                                    f"points, got {num!r}")
     if n < 1:
         raise InputError("--vary", f"{key}: NUM must be at least 1, got {n}")
+    if n > MAX_POINTS:
+        raise InputError("--vary", f"{key}: NUM = {n} points, more than the limit "
+                                   f"{MAX_POINTS} of a grid")
     return n
 
 
@@ -228,11 +232,12 @@ def plan_sweep(config, vary, log=(), overrides=(), source=None, removals=()):
     entries = vary_entries(vary)
     log = tuple(log)
     keys = _checked_keys(entries, log)
-    axes = [make_axis(k, a, b, n, k in log, base) for k, a, b, n in entries]
-    total = int(np.prod([a.size for a in axes]))
+    # the size first, from the NUMs alone: an axis is allocated in full
+    total = math.prod(_num(k, n) for k, _, _, n in entries)
     if total > MAX_POINTS:
         raise InputError("--vary", f"the grid has {total} points, more than "
                                    f"the limit {MAX_POINTS}")
+    axes = [make_axis(k, a, b, n, k in log, base) for k, a, b, n in entries]
     _check_corners(raw, source, axes)
     ev = evaluator_for(base)
     cols = [("point", "1")] + [(a.key, si_unit(a.kind, base.condensate.dimension))

@@ -13,8 +13,8 @@ from probe.engines.stationary.circular import TOO_MANY_HARMONICS, circular_work
 from probe.engines.stationary.limits import (AT_THRESHOLD, CUT, EPS, GAP_RANGE,
                                              MAX_HARMONICS, MAX_RELATIVE_ERROR,
                                              MAX_SPEED_OVER_C, MIN_RADIUS_OVER_XI,
-                                             SECONDS_PER_BESSEL)
-from probe.errors import InputError, ModelError
+                                             RTOL_RANGE, SECONDS_PER_BESSEL)
+from probe.errors import InputError, ModelError, shown
 from probe.quantities import guarded_names
 
 
@@ -27,13 +27,59 @@ def at_points(mask):
 
 
 def check_array(name, x, allow_zero=True):
-    """``x`` as a float array; InputError unless finite and >= 0 (> 0)."""
-    x = np.asarray(x, float)
+    """``x`` as a float array; InputError unless a real number or a regular
+    array of them (no strings, booleans, complex numbers or ragged lists),
+    finite and >= 0 (> 0)."""
+    what = "a real number or an array of real numbers"
+    try:
+        raw = np.asarray(x)
+    except (TypeError, ValueError):
+        raise InputError(name, f"must be {what}, got {shown(x)}") from None
+    if raw.dtype.kind == "c":
+        raise InputError(name, f"must be real (a complex value would lose its "
+                               f"imaginary part), got {shown(x)}")
+    if raw.dtype.kind not in "iuf":
+        try:
+            if raw.dtype.kind != "O":
+                raise TypeError
+            raw = raw.astype(float)
+        except (TypeError, ValueError):
+            raise InputError(name, f"must be {what}, got {shown(x)}") from None
+    x = raw.astype(float)
     if not np.all(np.isfinite(x)):
-        raise InputError(name, f"must be finite, got {x!r}")
+        raise InputError(name, f"must be finite, got {shown(x)}")
     if np.any(x < 0) or (not allow_zero and np.any(x == 0)):
-        raise InputError(name, f"must be {'>= 0' if allow_zero else '> 0'}, got {x!r}")
+        raise InputError(name, f"must be {'>= 0' if allow_zero else '> 0'}, got {shown(x)}")
     return x
+
+
+def check_rtol(rtol, low=RTOL_RANGE[0], why=""):
+    """``rtol`` as a float; InputError ("numerics.rtol") unless a real number
+    in [low, RTOL_RANGE[1]] (``why``: the reason for a raised lower end)."""
+    lo, hi = low, RTOL_RANGE[1]
+    if isinstance(rtol, (bool, np.bool_)) or not isinstance(rtol, (int, float, np.integer,
+                                                                     np.floating)):
+        raise InputError("numerics.rtol", f"must be a number between {lo:g} and {hi:g} "
+                                          f"(e.g. 1e-8), got {shown(rtol)}")
+    value = float(rtol)
+    if not lo <= value <= hi:
+        raise InputError("numerics.rtol", f"must be between {lo:g} and {hi:g} (e.g. 1e-8), "
+                                          f"got {value!r}{why}")
+    return value
+
+
+def broadcast_shape(named):
+    """The broadcast shape of ``(key, array)`` pairs; InputError naming the
+    first key whose shape does not broadcast with those before it."""
+    shape, seen = (), []
+    for key, arr in named:
+        try:
+            shape = np.broadcast_shapes(shape, np.shape(arr))
+        except ValueError:
+            raise InputError(key, f"has shape {np.shape(arr)}, which does not broadcast "
+                                  f"with {' and '.join(seen)} (shape {shape})") from None
+        seen.append(key)
+    return shape
 
 
 def range_checks(condensate, speed, gaps=(), radius=None):
@@ -64,6 +110,13 @@ def range_checks(condensate, speed, gaps=(), radius=None):
                 "speed 0)")
 
 
+def check_gaps(condensate, key, gap):
+    """ModelError naming ``key`` where a gap (rad/s) leaves GAP_RANGE, the
+    range of gaps the rates are computed for (as ``range_checks``)."""
+    w0 = condensate.frequency_unit
+    _gap_range_check(key, np.asarray(gap, float) / w0, w0)
+
+
 def _gap_range_check(key, W, w0):
     lo, hi = GAP_RANGE
     if np.any(W < lo):
@@ -82,19 +135,23 @@ def _gap_range_check(key, W, w0):
             "gas is no model")
 
 
-def threshold_checks(condensate, gapped, vv, WW):
+def threshold_checks(condensate, gapped, vv, WW, width=0.0):
     """ModelError at a speed where a rate is singular: exactly (within
     rounding, AT_THRESHOLD) at the up threshold in 1D (the rate diverges as
     1/sqrt(v - v_th): the two up-window edges merge, a caustic) and 2D (the up
     rate jumps from 0 to a finite value), at the sound speed for a 1D channel
-    without detuning (1/sqrt(v - c)) and for the 1D phonon dispersion."""
+    without detuning (1/sqrt(v - c)) and for the 1D phonon dispersion with a
+    point probe (``width`` 0, in healing lengths): there the resonant
+    wavenumber Omega/|v - c| runs off to infinity, where a probe's form
+    factor exp(-k^2 s^2) removes it, so that with a width the rate is finite
+    and continuous through v = c."""
     d = condensate.dimension
     if d == 3:
         return
     v = np.asarray(vv, float).ravel()
     W = np.asarray(WW, float).ravel()
     if gapped:
-        _gapped_threshold_check(condensate.dispersion, d, v, W)
+        _gapped_threshold_check(condensate.dispersion, d, v, W, float(np.max(width)))
     elif d == 1:
         near = np.abs(v - 1.0) <= AT_THRESHOLD
         if np.any(near):
@@ -109,7 +166,7 @@ def threshold_checks(condensate, gapped, vv, WW):
                 f"{why}, so at v = c it is undefined; give another speed")
 
 
-def _gapped_threshold_check(disp, d, v, W):
+def _gapped_threshold_check(disp, d, v, W, width):
     if disp.bounded_windows:
         vt, _ = disp.threshold(W)
         near = np.abs(v - vt) <= AT_THRESHOLD * vt
@@ -124,15 +181,15 @@ def _gapped_threshold_check(disp, d, v, W):
                 f"threshold speed v_th = {vt[i]:.15g} c_s (to within "
                 f"{AT_THRESHOLD:g} relative, the rounding of both): {how}, so "
                 "the rate is undefined; give a speed further from v_th")
-    elif d == 1:
+    elif d == 1 and width == 0:
         near = np.abs(v - 1.0) <= AT_THRESHOLD
         if np.any(near):
             raise ModelError(
                 "trajectory.speed",
-                f"{at_points(near)}with the 'phonon' dispersion in 1D the rates "
-                "diverge as (v - c)^-2 at the sound speed, and the speed "
+                f"{at_points(near)}with the 'phonon' dispersion in 1D a point probe's "
+                "rates diverge as (v - c)^-2 at the sound speed, and the speed "
                 "is the sound speed (to within rounding); give another "
-                "speed or use 'bogoliubov'")
+                "speed, the probe a width or use 'bogoliubov'")
 
 
 def error_check(name, value, error, key="trajectory.speed"):

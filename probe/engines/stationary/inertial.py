@@ -20,6 +20,7 @@ import numpy as np
 from probe.engines.quadrature import integrate
 from probe.engines.stationary.limits import (CUT, EPS, NEAR_SOUND, ROUNDING, STATIC_SPEED,
                                              STATIC_SPEED_3D)
+from probe.engines.stationary.threshold import refine_up_window
 from probe.errors import ModelError
 
 
@@ -124,7 +125,7 @@ def window_integrals(gas, v, W, s, a, b, kind, tags, rtol):
     if win is None:
         return out
     if gas.d == 3:
-        _window_3d(gas, win, tags, rtol, out)
+        _window_3d(gas, win, kind, tags, rtol, out)
     else:
         _window_2d(gas, win, kind, tags, rtol, out)
     return out
@@ -152,8 +153,10 @@ def _closed_forms_3d(disp, win, tags, out):
     return [t for t in tags if t not in done]
 
 
-def _window_3d(gas, win, tags, rtol, out):
-    """d = 3: int_a^b q S |F|^2 weight dq / (2 pi v) per tag, into ``out``."""
+def _window_3d(gas, win, kind, tags, rtol, out):
+    """d = 3: int_a^b q S |F|^2 weight dq / (2 pi v) per tag, into ``out``;
+    up windows just above the threshold from edges found relative to the
+    threshold's q (``threshold.refine_up_window``)."""
     disp = gas.disp
 
     def make(t):
@@ -171,6 +174,8 @@ def _window_3d(gas, win, tags, rtol, out):
         out[t][0][win.idx] = val
         out[t][1][win.idx] = err + np.where((top > win.a) & (top < win.b), tail, 0.0)
     _narrow_window_error(out, win.idx, win.a, win.bq)
+    if kind == "W2":
+        refine_up_window(gas, win, tags, rtol, out, make)
 
 
 def _tag_top(gas, win, t):

@@ -34,6 +34,9 @@ STATIC_SPEED_3D = 1e-4
 #: |v - v_th| / v_th below this is "at" a threshold speed (rounding of v and
 #: of v_th): in 1D the rate diverges there, in 2D it jumps
 AT_THRESHOLD = 1e-13
+#: the relative accuracies (rtol) the engine accepts: its rounding floor is
+#: ROUNDING; a tolerance above 0.1 is no longer a tolerance
+RTOL_RANGE = (1e-13, 0.1)
 #: a rate whose estimated relative error exceeds this is not returned
 MAX_RELATIVE_ERROR = 1e-3
 #: 2D gapless probe: below v = c (1 + NEAR_SOUND) the window factor is formed

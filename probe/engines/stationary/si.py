@@ -17,12 +17,13 @@ from scipy import constants as sc
 from probe.detectors.base import RateContext
 from probe.engines.regime import regime_warnings
 from probe.engines.results import RateResult
-from probe.engines.stationary.checks import (check_array, error_check, guard, range_checks,
+from probe.engines.stationary.checks import (broadcast_shape, check_array, check_rtol,
+                                             error_check, guard, range_checks,
                                              threshold_checks, work_check)
 from probe.engines.stationary.circular import circular_kernel
 from probe.engines.stationary.gas import kernel_gas
 from probe.engines.stationary.inertial import inertial_kernel
-from probe.engines.stationary.limits import MAX_BESSEL_EVALUATIONS, TINY
+from probe.engines.stationary.limits import BESSEL_ACCURACY, MAX_BESSEL_EVALUATIONS, TINY
 from probe.errors import InputError, ModelError
 
 HBAR = sc.hbar
@@ -117,20 +118,25 @@ def with_regime(condensate, probe, res, rtol=None):
 def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
     """Golden-rule rates for uniform straight motion at ``speed`` (m/s).
 
-    ``speed`` and ``gap`` (rad/s; default the probe's) broadcast together.
+    ``speed`` and ``gap`` (rad/s; default the probe's) broadcast together;
+    ``rtol`` (the requested relative accuracy) lies in RTOL_RANGE.  Bad
+    arguments raise InputError under their scenario keys
+    (``trajectory.speed``, ``probe.gap``, ``numerics.rtol``).
     Returns a :class:`RateResult` with arrays of the broadcast shape.
     """
+    rtol = check_rtol(rtol)
     speed = check_array("trajectory.speed", speed)
     c, w0 = condensate.sound_speed, condensate.frequency_unit
     gas = kernel_gas(condensate, probe)
     channels = _channels(probe, gap)
     range_checks(condensate, speed, [(ch.key, det) for ch, det in channels if ch.gapped])
-    shape = np.broadcast_shapes(np.shape(speed), *(np.shape(det) for _, det in channels))
+    shape = broadcast_shape([("trajectory.speed", speed)]
+                            + [(ch.key, det) for ch, det in channels])
     vv = np.broadcast_to(speed / c, shape)
     raw, detunings = {}, {}
     for ch, det in channels:
         WW = np.broadcast_to(det / w0, shape)
-        threshold_checks(condensate, ch.gapped, vv, WW)
+        threshold_checks(condensate, ch.gapped, vv, WW, gas.s)
         out = inertial_kernel(gas, vv, WW, gas.s, rtol=rtol, energy=not ch.gapped)
         for k in (_GAPPED if ch.gapped else _GAPLESS[:1]):
             error_check(f"{'emission' if k == 'emission' else k} rate", out[k][0], out[k][1])
@@ -148,10 +154,15 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
 
     A point whose harmonic sum is predicted (``circular_work``) to need more
     than ``max_bessel_evaluations`` Bessel functions (about 0.4 us each) is
-    refused with a ModelError before any work; raise the limit to wait."""
+    refused with a ModelError before any work; raise the limit to wait.
+    ``rtol`` is at least BESSEL_ACCURACY (1e-10), the accuracy of the sums'
+    Bessel functions (a smaller one is refused: it cannot be met)."""
     if condensate.dimension == 1:
         raise InputError("trajectory.kind",
                          "a circular path needs a 2D or 3D gas; this gas is 1D")
+    rtol = check_rtol(rtol, low=BESSEL_ACCURACY,
+                      why=f"; the circular sums are accurate to about {BESSEL_ACCURACY:g} "
+                          "(their Bessel functions), so a smaller rtol cannot be met")
     radius = check_array("trajectory.radius", radius, allow_zero=False)
     speed = check_array("trajectory.speed", speed)
     c, xi, w0 = condensate.sound_speed, condensate.healing_length, condensate.frequency_unit
@@ -159,8 +170,8 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
     channels = _channels(probe, gap)
     range_checks(condensate, speed, [(ch.key, det) for ch, det in channels if ch.gapped],
                  radius)
-    shape = np.broadcast_shapes(np.shape(radius), np.shape(speed),
-                                *(np.shape(det) for _, det in channels))
+    shape = broadcast_shape([("trajectory.radius", radius), ("trajectory.speed", speed)]
+                            + [(ch.key, det) for ch, det in channels])
     Rf = np.broadcast_to(radius / xi, shape).ravel()
     vf = np.broadcast_to(speed / c, shape).ravel()
     raw, detunings = {}, {}

@@ -6,6 +6,7 @@ of one pass."""
 from __future__ import annotations
 
 import math
+import os
 from dataclasses import dataclass
 
 import numpy as np
@@ -20,6 +21,20 @@ from probe.errors import InputError, ModelError
 
 HBAR = sc.hbar
 KB = sc.k
+#: bytes per node of a time grid: t, chi and the two trapezoid rules (32),
+#: the amplitude columns (complex, two per detuning: 64), positions and
+#: velocities with their temporaries (~96), and margin; the work arrays of
+#: one direction per thread (64 each) come on top
+BYTES_PER_TIME_NODE = 256.0
+
+
+def physical_memory():
+    """Bytes of physical memory of the machine (8 GB where it cannot be
+    read)."""
+    try:
+        return float(os.sysconf("SC_PHYS_PAGES") * os.sysconf("SC_PAGE_SIZE"))
+    except (AttributeError, ValueError, OSError):
+        return 8e9
 
 
 def _largest_root(g, start=1.0):
@@ -164,6 +179,7 @@ class TransitProblem:
         bandwidth of a hard cut from it."""
         disp, s, vmax = self.disp, self.s, self.vmax
         q_form = math.sqrt(math.log(1.0 / (1e-1 * self.rtol))) / s if s > 0 else math.inf
+        self._q_form = q_form
         q_res = math.inf
         if self.bw is not None:
             W = abs(self.Om) + self.bw
@@ -207,8 +223,9 @@ class TransitProblem:
         F = max(abs(self.Om) + float(self.disp.omega(q_max)) + q_max * self.vmax + self.bw
                 + self.chirp * math.sqrt(q_max * self.amax), 1e-12)
         dt_target = math.pi / F / res.time
-        nt = max(8, int(math.ceil((self.t_hi - self.t_lo) / dt_target)))
+        nt = max(8, int(math.ceil(min((self.t_hi - self.t_lo) / dt_target, 1e300))))
         nt += nt % 2
+        self.check_time_nodes(nt, q_max)
         grid = TimeGrid(self.t_lo, self.t_hi, nt, self.switching, self.tu)
         X, V = path_samples(self.trajectory, grid.t * self.tu, self.d, self.xi, self.c)
         vmax_grid = float(np.sqrt((V ** 2).sum(axis=1)).max())
@@ -225,11 +242,39 @@ class TransitProblem:
         are kept."""
         nt = int(math.ceil((self.t_hi - self.t_lo) / dt * (1 - 1e-12)))
         nt += nt % 2
+        self.check_time_nodes(nt, self.q_max)
         grid = TimeGrid(self.t_lo, self.t_hi, nt, self.switching, self.tu, dt)
         X, _ = path_samples(self.trajectory, grid.t * self.tu, self.d, self.xi, self.c)
         X = np.ascontiguousarray(X - sample.centre)
         return PathSample(grid, X, sample.centre, sample.geom, grid.columns(self.Ds),
                           sample.rules)
+
+    def check_time_nodes(self, nt, q_max):
+        """ModelError before a time grid of ``nt`` nodes is allocated that
+        would not fit in the machine: each node holds about
+        BYTES_PER_TIME_NODE bytes (grid, amplitude columns, positions and a
+        direction's work arrays per thread), and half the physical memory is
+        the most a pass may take.  The key named is that of the largest term
+        of the highest frequency the step resolves: the gap, the phonons'
+        frequency and Doppler shift (speed; the probe width where it sets
+        q_max), or the switching's bandwidth."""
+        per_node = BYTES_PER_TIME_NODE + 64.0 * self.workers
+        limit = 0.5 * physical_memory() / per_node
+        if nt <= limit:
+            return
+        phonons = float(self.disp.omega(q_max)) + q_max * self.vmax
+        terms = {self.channel.key if self.channel.gapped else "trajectory.speed": abs(self.Om),
+                 "probe.width" if self.s > 0 and q_max < 1.1 * self._q_form else
+                 "trajectory.speed": phonons, "trajectory.switching": self.bw}
+        key = max(terms, key=terms.get)
+        span = self.t_hi - self.t_lo
+        raise ModelError(
+            key, f"the transit's time grid needs {nt:.3g} nodes (about "
+                 f"{nt * per_node / 1e9:.3g} GB) to resolve its highest frequency "
+                 f"(gap {abs(self.Om):.3g}, phonons up to {phonons:.3g}, switching bandwidth "
+                 f"{self.bw:.3g} c/xi) over the switching's {span:.3g} xi/c; this machine holds "
+                 f"at most {limit:.3g} ({physical_memory() / 2e9:.3g} GB, half its memory): "
+                 "lower the gap or speed, widen the probe or shorten the switching")
 
     def node_tolerances(self, grid, per_frequency=False):
         """Relative accuracy each node's angular integral needs, from its
