@@ -208,6 +208,29 @@ def test_solve_for_the_atom_number():
     assert check["excited_probability"] == pytest.approx(0.01, rel=1e-6)
 
 
+def test_sweep_and_solve_over_the_impact_parameter(tmp_path):
+    """trajectory.start[1], the y component of the start point, is the
+    impact parameter of a path along x; the passage itself checks each
+    point (the value of the component is the one the path starts from)."""
+    from probe.design.solver import solve
+
+    out = tmp_path / "b.csv"
+    res = run("sweep", PUSH, "--vary", "trajectory.start[1]=0um:9um:4",
+              "--set", "numerics.passage_samples=100", "--out", out)
+    assert res.exit_code == 0, res.output
+    header = out.read_text().splitlines()[0].split(",")
+    assert header[1] == "trajectory.start[1] [m]"
+    data = np.genfromtxt(out, delimiter=",", skip_header=1, usecols=range(len(header) - 1))
+    np.testing.assert_allclose(data[:, 1], [0, 3e-6, 6e-6, 9e-6], atol=1e-18)
+    for b, dur in zip(data[:, 1], data[:, header.index("passage_duration [s]")]):
+        start = f'trajectory.start=["0 um", "{float(b)!r} m", "0 um"]'
+        one = run_json("passage", PUSH, "--set", start, "--set", "numerics.passage_samples=100")
+        assert one["passage_duration"] == pytest.approx(dur, rel=1e-9)
+    sol = solve(PUSH, "trajectory.start[1]", "excited_probability=0.02", bounds="0um:9um",
+                overrides=["numerics.passage_samples=100"], scan_points=5)
+    assert 0 < sol.value < 9e-6
+
+
 # --- bad input -------------------------------------------------------------------------
 _BAD = [
     (["--set", "condensate.density=1e20 m^-3"], "condensate.atom_number", "not both"),

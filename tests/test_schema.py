@@ -112,7 +112,10 @@ def test_every_kind_of_quantity_is_one_the_parser_knows():
 
 def test_numeric_keys_are_the_varied_ones_in_order():
     varied = sorted((k for k in KEYS.values() if k.vary is not None), key=lambda k: k.vary)
-    assert list(NUMERIC_KEYS) == [k.dotted for k in varied]
+    # the declared numeric keys in their order, then the components of the
+    # vector keys of lengths (trajectory.start[0..2], trajectory.centre[0..2])
+    components = [f"trajectory.{name}[{i}]" for name in ("start", "centre") for i in range(3)]
+    assert list(NUMERIC_KEYS) == [k.dotted for k in varied] + components
     ranks = [k.vary for k in varied]
     assert len(set(ranks)) == len(ranks)
     assert NUMERIC_KEYS["probe.gap"] == "frequency"

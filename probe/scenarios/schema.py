@@ -45,11 +45,22 @@ NUMERIC_KEYS = {key.dotted: key.kind
                 for key in sorted((k for k in KEYS.values() if k.vary is not None),
                                   key=lambda k: k.vary)}
 
+#: the components of vector keys of lengths (a straight path's start point,
+#: a circle's centre) that a sweep may vary one at a time:
+#: ``trajectory.start[1]`` is the y component (the impact parameter of a
+#: straight path along x)
+AXES = "xyz"
+COMPONENT_KEYS = {f"{key.dotted}[{i}]": key for part in PARTS for key in part.keys
+                  if key.vector and key.kind == "length" for i in range(3)}
+NUMERIC_KEYS.update({name: key.kind for name, key in COMPONENT_KEYS.items()})
+
 #: keys whose values the engines take as arrays (name of the engine argument)
 VECTOR_KEYS = {key.dotted: key.array for key in KEYS.values() if key.array}
 
 #: plot labels of the keys that have one
 KEY_LABELS = {key.dotted: key.label for key in KEYS.values() if key.label}
+KEY_LABELS.update({name: f"{key.name} {AXES[int(name[-2])]}"
+                   for name, key in COMPONENT_KEYS.items()})
 
 
 def check_key(section, key):

@@ -26,6 +26,7 @@ def check_numeric_key(key, option="--vary"):
         raise InputError(option, f"key {key!r} must be SECTION.KEY, e.g. "
                                  "'trajectory.speed'")
     section, name = key.split(".")
+    name = component_of(key)[0].split(".")[1]
     if section not in SCHEMA:
         raise InputError(key, f"unknown section; {_suggest(section, SCHEMA)}"
                               f"allowed: {', '.join(SCHEMA)}")
@@ -36,6 +37,27 @@ def check_numeric_key(key, option="--vary"):
         raise InputError(key, "is not a numeric key and cannot be varied; "
                               f"numeric keys: {', '.join(NUMERIC_KEYS)}")
     return key
+
+
+def component_of(key):
+    """``(vector key, index)`` of a component key such as
+    ``trajectory.start[1]``; ``(key, None)`` for any other key."""
+    if key.endswith("]") and "[" in key:
+        base, index = key[:-1].split("[", 1)
+        if index.isdigit():
+            return base, int(index)
+    return key, None
+
+
+def _set_component(body, name, index, value, dimension):
+    """Set component ``index`` of the vector entry ``name`` (created at the
+    origin, with as many components as the gas's dimension, if absent)."""
+    vec = body.get(name)
+    vec = list(vec) if isinstance(vec, (list, tuple)) else ["0 m"] * max(dimension, index + 1)
+    while len(vec) <= index:
+        vec.append("0 m")
+    vec[index] = value
+    body[name] = vec
 
 
 def is_relative_speed(text):
@@ -81,7 +103,11 @@ def assign(raw, values, dimension=None):
             raise InputError(section, f"must be a table [{section}], got {body!r}")
         if isinstance(value, (float, int, np.floating, np.integer)) and not isinstance(value, bool):
             value = value_text(key, value, dimension=d)
-        body[name] = value
+        vector, index = component_of(key)
+        if index is None:
+            body[name] = value
+        else:
+            _set_component(body, vector.split(".")[1], index, value, d)
     return out
 
 
