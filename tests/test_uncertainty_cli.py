@@ -256,6 +256,17 @@ def test_rates_say_the_readout_is_not_theirs(tmp_path):
     assert "shots_needed" not in data
 
 
+def test_solve_and_compare_work_on_the_nominal_scenario(tmp_path):
+    plain = _write(tmp_path, BOX, "plain.toml")
+    planned = _write(tmp_path, BOX + READOUT + _table(['"probe.gap" = "10 %"']), "p.toml")
+    for args in (["solve", "--for", "trajectory.speed", "--target", "up_rate=10 1/s"],
+                 ["compare", "--vary", "trajectory.speed=1c_s:2c_s:3"]):
+        one = CliRunner().invoke(cli, [args[0], plain, *args[1:]])
+        two = CliRunner().invoke(cli, [args[0], planned, *args[1:]])
+        assert one.exit_code == two.exit_code == 0, two.output
+        assert one.stdout.replace("plain.toml", "p.toml") == two.stdout
+
+
 def test_set_reaches_the_uncertainty_entries(tmp_path):
     path = _write(tmp_path, BOX + _table(['"condensate.density" = "10 %"'], samples=20))
     data = _json(["rates", path, "--json", "--set", "uncertainty.probe.gap=5 %"])

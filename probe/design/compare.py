@@ -39,6 +39,7 @@ from probe.design.sweep import (axis_value_text, cell_text, format_value, plan_s
                                 raw_config, sweep, write_csv)
 from probe.design.sweep.evaluators import model_parameters
 from probe.quantities import headline, kind_of, si_unit
+from probe.scenarios.planning import without_planning
 
 COMPARISONS = ("probe", "dispersion", "width", "temperature")
 #: relative difference above which two models are said to differ
@@ -337,6 +338,7 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
     from probe.scenarios.config import scenario_from_dict
 
     raw, source = raw_config(config, overrides, removals=removals)
+    raw = without_planning(raw)          # the models compared at the nominal inputs
     plan = plan_sweep(raw, vary, log, source=source)
     base = plan.scenario
     varied = {a.key for a in plan.axes}

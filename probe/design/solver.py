@@ -22,6 +22,7 @@ from probe.engines.stationary import engine_for
 from probe.engines.stationary.checks import check_gaps
 from probe.errors import InputError
 from probe.quantities import quantity, target_names
+from probe.scenarios.planning import without_planning
 from probe.design.sweep import (NUMERIC_KEYS, cell_text, check_numeric_key, column_kind,
                                 display_unit, evaluate_point, format_value, plan_sweep,
                                 raw_config, si_unit, sweep, write_csv)
@@ -441,6 +442,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
     from probe.scenarios.config import scenario_from_dict
 
     raw, source = raw_config(config, overrides, removals=removals)
+    raw = without_planning(raw)          # the nominal scenario: no bands to search
     base = scenario_from_dict(raw, source=source)
     key = check_numeric_key(key, "--for")
     lo, hi = _search_range(raw, key, bounds, base)

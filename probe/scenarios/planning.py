@@ -57,3 +57,11 @@ def is_entry(section, name):
     (``"section.key"``); which keys may carry an uncertainty is checked with
     the scenario (``probe.design.planning``)."""
     return section == UNCERTAINTY and isinstance(name, str) and "." in name
+
+
+def without_planning(raw):
+    """The scenario dict without ``[uncertainty]`` and ``[readout]``: the
+    nominal scenario, as the tools that search or compare (``probe solve``,
+    ``probe compare``) take it."""
+    return {section: body for section, body in raw.items()
+            if section not in (UNCERTAINTY, READOUT)}
