@@ -16,13 +16,21 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 from scipy import constants as sc
+from scipy.integrate import quad
 
 from probe.cli import cli
+from probe.design.sweep import parse_vary, plan_sweep
 
 from probe.detectors import TwoLevelProbe
-from probe.engines.stationary import inertial_rates
-from probe.errors import ModelError
+from probe.detectors.switching import Gaussian
+from probe.engines.stationary import circular_rates, inertial_rates
+from probe.engines.stationary.checks import guard
+from probe.engines.transit import transit_probabilities
+from probe.errors import InputError, ModelError
+from probe.scenarios.config import load_config, override, scenario_from_dict
 from probe.scenarios.units import parse_quantity, ureg
+
+from trajectories import Linear
 
 from conftest import rb_gas
 
@@ -199,3 +207,280 @@ def test_registry_constants_are_codata(name, value):
     """Every constant of the unit registry a scenario may use has the value
     of scipy.constants [CODATA] (SI base units), not pint's recomputed one."""
     assert ureg.Quantity(1.0, name).to_base_units().magnitude == value
+
+
+def test_a_non_finite_rate_is_refused_under_a_real_key():
+    """The guard against a NaN, infinite or negative output names the
+    motion's key trajectory.speed (it named 'inputs', which is no key)."""
+    cond = rb_gas(3)
+    r = inertial_rates(cond, TwoLevelProbe(2 * math.pi * 150.0, 1e-50), 2 * cond.sound_speed)
+    r.up_rate = math.inf
+    with pytest.raises(ModelError) as err:
+        guard(cond, TwoLevelProbe(2 * math.pi * 150.0, 1e-50), r)
+    assert err.value.key == "trajectory.speed"
+
+
+# --- 4. rtol = 1e-12 near the 3D threshold; a subsonic 3D circle -------------------------------
+def _omega_q(q):
+    """Bogoliubov w(q) = q sqrt(1 + q^2/4) in the gas's units (q = k xi) [PS]."""
+    return q * mp.sqrt(1 + q * q / 4)
+
+
+def _threshold_3d(W):
+    """(v_th, q*) of the gap W (units c/xi) by 40-digit mpmath:
+    q w'(q) - w(q) = W at q*, v_th = (w(q*) + W)/q*."""
+    W = mp.mpf(W)
+    guess = mp.cbrt(4 * W) if W < 1 else mp.sqrt(2 * W)
+    qs = mp.findroot(lambda q: q * mp.diff(_omega_q, q) - _omega_q(q) - W, guess)
+    return (_omega_q(qs) + W) / qs, qs
+
+
+@pytest.mark.parametrize("W", [1e-8, 0.32, 30.0])
+@pytest.mark.parametrize("excess", [1e-11, 1e-6])
+@pytest.mark.parametrize("width", [0.0, 0.4])
+def test_3d_up_rate_just_above_threshold_meets_rtol_1e12(W, excess, width):
+    """At v = v_th (1 + 1e-11) the up window is 4e-6 q* wide; its edges
+    found in double precision left the rate a relative error ~eps/1e-11
+    (2e-7 to 3e-6, reported as 1e-10).  Against 40-digit mpmath: the edges
+    by findroot bracketed at q*, the 3D integral (1/(2 pi v)) int_c^d
+    q S |F|^2 dq by tanh-sinh (units A xi^-3 xi/c)."""
+    mp.mp.dps = 40
+    cond = rb_gas(3)
+    c, xi, w0 = cond.sound_speed, cond.healing_length, cond.frequency_unit
+    kappa = 1e-50
+    vt, qs = _threshold_3d(W)
+    speed = float(vt * (1 + mp.mpf(excess))) * c
+    v = mp.mpf(float(np.float64(speed) / c))            # the speed the engine sees
+    probe = TwoLevelProbe(W * w0, kappa, width=width * xi)
+    r = inertial_rates(cond, probe, speed, rtol=1e-12)
+    Wm, s = mp.mpf(W), mp.mpf(width)
+    g = lambda q: _omega_q(q) - v * q + Wm
+    reach = 4 * mp.sqrt((v - vt) * qs / mp.diff(_omega_q, qs, 2)) + qs / 100
+    lo = mp.findroot(g, (max(qs - reach, Wm / (2 * v)), qs), solver="anderson")
+    hi = mp.findroot(g, (qs, qs + reach), solver="anderson")
+    S = lambda q: q / mp.sqrt(4 + q * q)
+    ref = mp.quad(lambda q: q * S(q) * mp.exp(-(q * s) ** 2), [lo, hi]) / (2 * mp.pi * v)
+    pref = (kappa / HBAR) ** 2 * cond.density / xi ** 3 / w0
+    _assert_honest(r.up_rate, r.up_rate_error, float(ref) * pref, 1e-12)
+
+
+def _w3_mp(m, x):
+    """W_m(x) = (1/2) int_{-1}^{1} J_m(x sqrt(1 - u^2))^2 du, the spherical
+    average of J_m^2, in its closed form (1/x) sum_j J_{2m+2j+1}(2x)
+    (Watson, Theory of Bessel Functions, sec. 5.21 and 2.22), mpmath."""
+    m, total, j = abs(m), mp.mpf(0), 0
+    while True:
+        term = mp.besselj(2 * m + 2 * j + 1, 2 * x)
+        total += term
+        if j > 2 * x + 5 and abs(term) < mp.mpf(10) ** -45 * abs(total):
+            return total / x
+        j += 1
+
+
+def _circle_reference(R, v, W, s):
+    """(down, up) of a subsonic 3D circle at T = 0 by a 40-digit harmonic
+    sum: harmonic m absorbs the shell w_q = +-W + m v/R with weight
+    q^2 S |F|^2 W_m(q R)/(pi v_g) (units A xi^-3 xi/c, gas units)."""
+    mp.mp.dps = 40
+    R, v, W, s = (mp.mpf(z) for z in (R, v, W, s))
+    inverse = lambda w: mp.sqrt(2 * w * w / (mp.sqrt(1 + w * w) + 1))
+    out = []
+    for sign in (+1, -1):
+        m, total = int(mp.floor(-sign * W * R / v)) + 1, mp.mpf(0)
+        while True:
+            q = inverse(sign * W + m * v / R)
+            vg = (1 + q * q / 2) / mp.sqrt(1 + q * q / 4)
+            term = q * q * q / mp.sqrt(4 + q * q) / (mp.pi * vg) * mp.exp(-(q * s) ** 2) \
+                * _w3_mp(m, q * R)
+            total += term
+            if m > 5 and term < mp.mpf(10) ** -30 * total:
+                break
+            m += 1
+        out.append(float(total))
+    return out
+
+
+@pytest.mark.parametrize("R, v, W, s", [(2.0, 0.5, 0.32, 0.0), (3.0, 0.8, 0.32, 0.4)])
+def test_subsonic_3d_circle_against_mpmath_and_rtol_below_bessel_accuracy(R, v, W, s):
+    """A subsonic 3D circle: the rates within their reported error of the
+    40-digit harmonic sum; an rtol below the 1e-10 accuracy of the sums'
+    Bessel functions (1e-12 was accepted and reported 1e-10) is refused."""
+    cond = rb_gas(3)
+    c, xi, w0 = cond.sound_speed, cond.healing_length, cond.frequency_unit
+    kappa = 1e-50
+    probe = TwoLevelProbe(W * w0, kappa, width=s * xi)
+    r = circular_rates(cond, probe, R * xi, v * c, rtol=1e-8)
+    down, up = _circle_reference(R, v, W, s)
+    pref = (kappa / HBAR) ** 2 * cond.density / xi ** 3 / w0
+    _assert_honest(r.down_rate, r.down_rate_error, down * pref, 1e-8)
+    _assert_honest(r.up_rate, r.up_rate_error, up * pref, 1e-8)
+    with pytest.raises(InputError) as err:
+        circular_rates(cond, probe, R * xi, v * c, rtol=1e-12)
+    assert err.value.key == "numerics.rtol" and "1e-10" in err.value.message
+
+
+# --- 5. the 1D phonon dispersion at v = c with a width -------------------------------------------
+def test_1d_phonon_probe_with_width_at_the_sound_speed():
+    """1D, w = c|k|, T = 0: the roots of k v = c|k| -+ Omega are
+    k = -+Omega/(c -+ v) and -+Omega/(v +- c); at v = c the one of
+    k(v - c) = Omega runs off to infinity, where exp(-k^2 s^2) removes it.
+    The down rate is then A S(k1) |F(k1)|^2/(2c) at k1 = Omega/(2c),
+    S = hbar k/(2 m c) (closed form), the up rate 0, and both continuous
+    through v = c; a point probe (s = 0) diverges there and stays refused."""
+    cond = rb_gas(1, dispersion="phonon")
+    c, m = cond.sound_speed, cond.mass
+    gap, kappa, s = 2 * math.pi * 100.0, 1e-38, 0.3e-6
+    probe = TwoLevelProbe(gap, kappa, width=s)
+    A = (kappa / HBAR) ** 2 * cond.density
+    k1 = gap / (2 * c)
+    down = A * HBAR * k1 / (2 * m * c) * math.exp(-(k1 * s) ** 2) / (2 * c)
+    r = inertial_rates(cond, probe, c)
+    assert r.down_rate == pytest.approx(down, rel=1e-12)
+    assert r.up_rate == 0.0
+    near = inertial_rates(cond, probe, np.array([1 - 1e-9, 1 + 1e-9]) * c)
+    assert np.allclose(near.down_rate, down, rtol=1e-8)
+    assert np.all(near.up_rate < 1e-300 + 1e-8 * down)
+    with pytest.raises(ModelError) as err:
+        inertial_rates(cond, TwoLevelProbe(gap, kappa), c)
+    assert err.value.key == "trajectory.speed"
+
+
+# --- 6. arguments of the Python API -----------------------------------------------------------
+@pytest.mark.parametrize("rtol", [float("nan"), 0.0, -1.0, 10.0, "1e-8", True])
+def test_engines_refuse_a_bad_rtol(rtol):
+    cond = rb_gas(3)
+    c, w0 = cond.sound_speed, cond.frequency_unit
+    probe = TwoLevelProbe(0.5 * w0, 1e-50, width=0.3 * cond.healing_length)
+    for call in (lambda: inertial_rates(cond, probe, 1.5 * c, rtol=rtol),
+                 lambda: circular_rates(cond, probe, 3e-6, 0.5 * c, rtol=rtol)):
+        with pytest.raises(InputError) as err:
+            call()
+        assert err.value.key == "numerics.rtol"
+    with pytest.raises(InputError) as err:
+        transit_probabilities(cond, probe, Linear(0.5 * c), Gaussian(20 / w0), rtol=rtol)
+    assert err.value.key == "rtol"
+
+
+def test_engines_refuse_complex_text_ragged_and_mismatched_arguments():
+    """A complex speed lost its imaginary part; text, ragged lists and
+    shapes that do not broadcast raised bare numpy errors."""
+    cond = rb_gas(3)
+    c, w0 = cond.sound_speed, cond.frequency_unit
+    probe = TwoLevelProbe(0.5 * w0, 1e-50)
+    cases = [
+        (lambda: inertial_rates(cond, probe, np.array([1.5 + 1e-3j]) * c), "trajectory.speed"),
+        (lambda: inertial_rates(cond, probe, (1.5 + 0j) * c), "trajectory.speed"),
+        (lambda: inertial_rates(cond, probe, "fast"), "trajectory.speed"),
+        (lambda: inertial_rates(cond, probe, [c, [c, 2 * c]]), "trajectory.speed"),
+        (lambda: inertial_rates(cond, probe, np.ones((2, 3)) * c, gap=np.ones(2) * w0),
+         "probe.gap"),
+        (lambda: circular_rates(cond, probe, "3 um", c), "trajectory.radius"),
+        (lambda: circular_rates(cond, probe, 3e-6 + 1e-7j, c), "trajectory.radius"),
+        (lambda: circular_rates(cond, probe, [[3e-6], [3e-6, 4e-6]], c), "trajectory.radius"),
+        (lambda: circular_rates(cond, probe, np.ones(3) * 3e-6, np.ones(2) * 0.5 * c),
+         "trajectory.speed"),
+    ]
+    for call, key in cases:
+        with pytest.raises(InputError) as err:
+            call()
+        assert err.value.key == key, (key, err.value)
+
+
+# --- 7. a transit that meets its rtol is not reported as unconverged ---------------------------
+def test_static_transit_meets_rtol_without_a_convergence_warning():
+    """A probe at rest under a Gaussian switching chi = exp(-t^2/(2 tau^2)):
+    P = A/(2 pi^2) int k^2 S |F|^2 |chi~(+-Omega + w_k)|^2 dk with
+    |chi~(w)|^2 = 2 pi tau^2 exp(-w^2 tau^2) (closed-form transform),
+    integrated here by scipy quad.  The refinement stopped with the radial
+    part over its 24 % share while the total (4.4e-5) met rtol = 1e-4, and
+    warned 'not converged'."""
+    raw = override(load_config(EXAMPLES / "cross3d_gaussian.toml").raw,
+                   "trajectory.speed=0 c_s")
+    sc_ = scenario_from_dict(raw)
+    cond, probe = sc_.condensate, sc_.probe
+    r = transit_probabilities(cond, probe, sc_.trajectory, sc_.switching, rtol=1e-4)
+    assert not any("not converged" in w for w in r.warnings), r.warnings
+    assert r.achieved_rtol <= 1e-4
+    m, mu, tau, s = cond.mass, cond.chemical_potential, 2e-3, probe.width
+    A = (probe.coupling / HBAR) ** 2 * cond.density
+
+    def w_S(k):
+        eps = HBAR ** 2 * k * k / (2 * m)
+        hw = math.sqrt(eps * (eps + 2 * mu))
+        return hw / HBAR, eps / hw
+    xi = cond.healing_length
+    for sign, got, err in ((+1, r.up_probability, r.up_probability_error),
+                           (-1, r.down_probability, r.down_probability_error)):
+        f = lambda k: k * k * w_S(k)[1] * math.exp(-(k * s) ** 2) \
+            * math.exp(-((sign * probe.gap + w_S(k)[0]) * tau) ** 2)
+        integral, _ = quad(f, 0, 20 / xi, points=[1e-3 / xi, 0.1 / xi, 1 / xi], limit=500,
+                           epsabs=0, epsrel=1e-12)
+        _assert_honest(got, err, A * tau ** 2 / math.pi * integral, 1e-4)
+
+
+# --- 8. command-line refusals -----------------------------------------------------------------
+def _cli(*args):
+    return CliRunner().invoke(cli, [str(a) for a in args])
+
+
+def _refused(result, key):
+    """Exit 2 with one line 'error: <key>: ...'."""
+    lines = result.stderr.strip().splitlines()
+    assert result.exit_code == 2 and len(lines) == 1, (result.exit_code, result.output)
+    assert lines[0].startswith(f"error: {key}: "), lines[0]
+    return lines[0]
+
+
+def test_solve_refuses_an_empty_target_value():
+    """'up_rate=' was read as 1 1/s (pint parses '' as 1)."""
+    line = _refused(_cli("solve", EXAMPLES / "box3d_supersonic.toml", "--for",
+                         "trajectory.speed", "--target", "up_rate="), "--target")
+    assert "needs a value" in line
+
+
+def test_threshold_refuses_gaps_outside_the_rates_range():
+    """The gaps of 'probe rates' are 1e-12 .. 1e12 c/xi; 1e20 Hz was tabulated."""
+    line = _refused(_cli("threshold", EXAMPLES / "box3d_supersonic.toml", "--vary",
+                         "probe.gap=1Hz:1e20Hz:3"), "probe.gap")
+    assert "above 1e+12 c/xi" in line
+    _refused(_cli("rates", EXAMPLES / "box3d_supersonic.toml", "--set", "probe.gap=1e20 Hz"),
+             "probe.gap")
+
+
+def test_a_huge_value_makes_a_short_message(tmp_path):
+    """A 10 MB species string was quoted whole in the message line."""
+    text = (EXAMPLES / "box3d_supersonic.toml").read_text()
+    path = tmp_path / "big.toml"
+    path.write_text(text.replace('species = "41K"', 'species = "' + "X" * 10_000_000 + '"'))
+    line = _refused(_cli("rates", path), "probe.species")
+    assert len(line) < 300 and "XXX...'" in line
+
+
+def test_leftover_window_keys_are_named_when_switching_changes(tmp_path):
+    """A window scenario switched to 'gaussian' keeps its stop and ramp: the
+    refusal names them (it named trajectory.start, which the linear path then
+    read as its start point)."""
+    r = _cli("transit", EXAMPLES / "transits" / "ramsey3d_rest.toml",
+             "--set", "trajectory.switching=gaussian")
+    assert "not used with switching = 'gaussian'" in _refused(r, "trajectory.ramp")
+
+
+# --- 9. sizes predicted before allocation -----------------------------------------------------
+@pytest.mark.parametrize("vary", [["trajectory.speed=1c_s:2c_s:" + "1" + "0" * 30],
+                                  ["trajectory.speed=1c_s:2c_s:1000000",
+                                   "probe.gap=100Hz:200Hz:1000000"]])
+def test_grid_size_checked_before_any_axis_is_allocated(vary):
+    """10^30 points raised numpy's 'Maximum allowed size exceeded'; 10^6 x
+    10^6 allocated both axes first (and 10^12 on one axis, 7 TiB)."""
+    with pytest.raises(InputError) as err:
+        plan_sweep(str(EXAMPLES / "box3d_supersonic.toml"), [parse_vary(v) for v in vary])
+    assert err.value.key == "--vary" and "more than the limit" in err.value.message
+
+
+def test_transit_time_grid_too_large_for_the_machine_is_refused():
+    """A gap of 2.89e15 rad/s (inside the gap range) needs 2.6e13 time nodes
+    for a 2 ms Gaussian switching: refused before the 191 TiB grid is
+    allocated, naming the gap and what the machine holds."""
+    line = _refused(_cli("transit", EXAMPLES / "cross3d_gaussian.toml",
+                         "--set", "probe.gap=2.89e15 rad/s"), "probe.gap")
+    assert "time grid needs" in line and "this machine holds at most" in line

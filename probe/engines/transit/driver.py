@@ -21,7 +21,7 @@ from probe.engines.transit.problem import HBAR, Resolution, TransitProblem
 from probe.engines.transit.result import TransitResult
 from probe.engines.transit.routes import METHODS, candidates, cheapest
 from probe.engines.transit.threads import single_threaded_blas
-from probe.errors import InputError
+from probe.errors import InputError, shown
 
 _BREAKDOWN = 0.1      # probability above which first order is suspect
 _SHARE = 0.24         # share of rtol each part of the error budget may take
@@ -79,10 +79,10 @@ def _checked_inputs(switching, rtol, method):
     if not isinstance(switching, Switching):
         raise InputError("trajectory.switching",
                          f"must be a switching function, got {switching!r}")
-    try:
-        rtol = float(rtol)
-    except (TypeError, ValueError):
-        raise InputError("rtol", f"must be a number, got {rtol!r}") from None
+    if isinstance(rtol, (bool, np.bool_)) or not isinstance(rtol, (int, float, np.integer,
+                                                                     np.floating)):
+        raise InputError("rtol", f"must be a number, got {shown(rtol)}")
+    rtol = float(rtol)
     if not (1e-10 <= rtol < 1):
         raise InputError("rtol", f"must be in [1e-10, 1), got {rtol}")
     if method not in METHODS:
