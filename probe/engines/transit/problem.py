@@ -255,17 +255,21 @@ class TransitProblem:
         BYTES_PER_TIME_NODE bytes (grid, amplitude columns, positions and a
         direction's work arrays per thread), and half the physical memory is
         the most a pass may take.  The key named is that of the largest term
-        of the highest frequency the step resolves: the gap, the phonons'
-        frequency and Doppler shift (speed; the probe width where it sets
-        q_max), or the switching's bandwidth."""
+        of the highest frequency the step resolves: the gap, the Doppler
+        shift q_max v (speed), the phonon frequency w(q_max) where the probe
+        width sets q_max, or the switching's bandwidth."""
         per_node = BYTES_PER_TIME_NODE + 64.0 * self.workers
         limit = 0.5 * physical_memory() / per_node
         if nt <= limit:
             return
         phonons = float(self.disp.omega(q_max)) + q_max * self.vmax
-        terms = {self.channel.key if self.channel.gapped else "trajectory.speed": abs(self.Om),
-                 "probe.width" if self.s > 0 and q_max < 1.1 * self._q_form else
-                 "trajectory.speed": phonons, "trajectory.switching": self.bw}
+        # where the resonance sets q_max, w(q_max) ~ gap + speed q_max +
+        # bandwidth is counted in those; where the form factor does, the width
+        terms = {"trajectory.speed": q_max * self.vmax, "trajectory.switching": self.bw}
+        if self.channel.gapped:
+            terms[self.channel.key] = abs(self.Om)
+        if self.s > 0 and q_max < 1.1 * self._q_form:
+            terms["probe.width"] = float(self.disp.omega(q_max))
         key = max(terms, key=terms.get)
         span = self.t_hi - self.t_lo
         raise ModelError(
