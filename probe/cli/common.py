@@ -184,3 +184,17 @@ def write_atomic(path, text):
     finally:
         if tmp is not None and os.path.exists(tmp):
             os.unlink(tmp)
+
+
+def report(source, blocks, warnings):
+    """The readable report of one scenario: ``== source ==``, the titled
+    blocks of ``(label, text)`` rows aligned in one column, and the
+    warnings (or "(none)")."""
+    width = max(len(label) for _, rows in blocks for label, _ in rows)
+    lines = [f"== {source} =="] if source else []
+    for title, rows in blocks:
+        lines.append(title)
+        lines += [f"  {label:<{width}}  {value}" for label, value in rows]
+    lines.append("Warnings")
+    lines += [f"  - {w}" for w in warnings] if warnings else ["  (none)"]
+    return "\n".join(lines)

@@ -27,7 +27,7 @@ import numpy as np
 
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_json
-from probe.cli.common import (fail, input_errors, json_value, num, q, quantity_text,
+from probe.cli.common import (fail, input_errors, json_value, num, q, quantity_text, report,
                               write_atomic)
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.cli.rates import rows_derived, rows_inputs
@@ -109,14 +109,7 @@ def format_passage_table(scenario, result, files=(), planning=None):
               ("Results", _result_rows(scenario, result, files))]
     if planning is not None:
         blocks += planning_blocks(planning, scenario.condensate.dimension)
-    width = max(len(label) for _, rows in blocks for label, _ in rows)
-    lines = [f"== {scenario.source} =="] if scenario.source else []
-    for title, rows in blocks:
-        lines.append(title)
-        lines += [f"  {label:<{width}}  {value}" for label, value in rows]
-    lines.append("Warnings")
-    lines += [f"  - {w}" for w in result.warnings] if result.warnings else ["  (none)"]
-    return "\n".join(lines)
+    return report(scenario.source, blocks, result.warnings)
 
 
 # ---------------------------------------------------------------------------

@@ -18,7 +18,7 @@ from scipy import constants as sc
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_derived_rows, cloud_input_rows, cloud_json
 from probe.cli.common import (KIND_EXTRAS, fail, input_errors, json_value, num,
-                               outputs_json, q, result_rows, write_atomic)
+                               outputs_json, q, report, result_rows, write_atomic)
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.quantities import stationary_outputs, table_unit
 
@@ -126,20 +126,7 @@ def format_table(scenario, result, planning=None):
               ("Results", rows_results(scenario, result))]
     if planning is not None:
         blocks += planning_blocks(planning, scenario.condensate.dimension)
-    width = max(len(label) for _, rows in blocks for label, _ in rows)
-    lines = []
-    if scenario.source:
-        lines.append(f"== {scenario.source} ==")
-    for title, rows in blocks:
-        lines.append(title)
-        for label, value in rows:
-            lines.append(f"  {label:<{width}}  {value}")
-    lines.append("Warnings")
-    if result.warnings:
-        lines += [f"  - {w}" for w in result.warnings]
-    else:
-        lines.append("  (none)")
-    return "\n".join(lines)
+    return report(scenario.source, blocks, result.warnings)
 
 
 def result_json(scenario, result, planning=None):

@@ -41,7 +41,7 @@ import click
 
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_json
-from probe.cli.common import fail, input_errors, num, q, outputs_json, result_rows
+from probe.cli.common import fail, input_errors, num, outputs_json, q, report, result_rows
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.cli.rates import rows_derived, rows_inputs
 from probe.errors import InputError
@@ -161,14 +161,7 @@ def format_transit_table(scenario, result, info, extras, files=(), planning=None
               ("Results", _rows_results(scenario, result, extras, files))]
     if planning is not None:
         blocks += planning_blocks(planning, scenario.condensate.dimension)
-    width = max(len(label) for _, rows in blocks for label, _ in rows)
-    lines = [f"== {scenario.source} =="] if scenario.source else []
-    for title, rows in blocks:
-        lines.append(title)
-        lines += [f"  {label:<{width}}  {value}" for label, value in rows]
-    lines.append("Warnings")
-    lines += [f"  - {w}" for w in result.warnings] if result.warnings else ["  (none)"]
-    return "\n".join(lines)
+    return report(scenario.source, blocks, result.warnings)
 
 
 def transit_json(scenario, result, info, extras, files=(), planning=None):
