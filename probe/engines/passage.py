@@ -91,6 +91,11 @@ class PassageResult:
         out["warnings"] = list(self.warnings)
         return out
 
+    def _repr_html_(self):
+        """A table in a notebook (``probe.notebook``)."""
+        from probe.notebook import result_html
+        return result_html(self, "Passage")
+
 
 def _plain(x):
     x = float(x)

@@ -73,6 +73,11 @@ class RateResult:
         out.update(extra_outputs(self, out))
         return out
 
+    def _repr_html_(self):
+        """A table in a notebook (``probe.notebook``)."""
+        from probe.notebook import result_html
+        return result_html(self, "Stationary rates")
+
 
 def extra_outputs(result, known):
     """The registered output quantities set on ``result`` beyond ``known``."""

@@ -83,6 +83,22 @@ class SweepResult:
         """Write the table (atomically) to ``path``."""
         write_csv(path, self.header, rows_text(self.columns, self.data, self.warnings))
 
+    def to_xarray(self):
+        """The grid as an ``xarray.Dataset`` with units and labels as
+        attributes (needs the optional package xarray; ``probe.notebook``)."""
+        from probe.notebook import to_xarray
+        return to_xarray(self)
+
+    def to_netcdf(self, path):
+        """Write the grid as NetCDF (needs xarray; ``probe.notebook``)."""
+        from probe.notebook import write_netcdf
+        write_netcdf(self, path)
+
+    def _repr_html_(self):
+        """A table in a notebook (``probe.notebook``)."""
+        from probe.notebook import sweep_html
+        return sweep_html(self)
+
 
 # ---------------------------------------------------------------------------
 # CSV and JSON

@@ -70,3 +70,8 @@ class TransitResult:
             out[f.name] = v
         out.update(extra_outputs(self, out))
         return out
+
+    def _repr_html_(self):
+        """A table in a notebook (``probe.notebook``)."""
+        from probe.notebook import result_html
+        return result_html(self, "Transit")
