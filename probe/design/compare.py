@@ -439,12 +439,9 @@ def _statements(cmp):
             both = int(ok.sum())
             where = "every point" if both == n else f"the {both} points where both are finite"
             if big.any():
-                i = int(np.argmax(rel))
-                ratio = (f"{v.name}/configured = {b[i] / a[i]:.3g}" if a[i] != 0 else
-                         f"{v.name} {b[i]:.3g} {v.result.unit(q)}, configured 0")
                 out.append(f"{v.label}: {q} differs by more than {tol:.0%} at "
                            f"{int(big.sum())} of {both} points with both finite "
-                           f"({_extent(cmp, big)}); largest at {_at(cmp, i)}: {ratio}")
+                           f"({_extent(cmp, big)}); {_largest(cmp, v, q, a, b, ok)}")
             elif ok.any() and np.all((a[ok] == 0) & (b[ok] == 0)):
                 out.append(f"{v.label}: {q} vanishes in both models at {where}")
             elif ok.any():
@@ -456,6 +453,31 @@ def _statements(cmp):
             for q_var in v.quantities[:1]:
                 out.append(_support_statement(cmp, base, base.main, v, q_var))
     return [s for s in out if s]
+
+
+def _value_text(x, unit):
+    return f"{x:.4g} {unit}" if unit not in ("", "1") else f"{x:.4g}"
+
+
+def _largest(cmp, v, q, a, b, ok):
+    """The largest absolute difference of ``q`` between the configured
+    model (``a``) and variant ``v`` (``b``) over the points ``ok`` (both
+    finite), with both values; then, where both are nonzero, the largest
+    ratio (where one of them vanishes the ratio is infinite: those points
+    are stated on their own)."""
+    unit = v.result.unit(q)
+    diff = np.where(ok, np.abs(a - b), -np.inf)
+    i = int(np.argmax(diff))
+    text = (f"largest difference {_value_text(abs(b[i] - a[i]), unit)} at {_at(cmp, i)} "
+            f"({v.name} {_value_text(b[i], unit)}, configured {_value_text(a[i], unit)})")
+    nonzero = ok & (a != 0) & (b != 0)
+    if nonzero.any():
+        with np.errstate(divide="ignore", invalid="ignore"):
+            spread = np.where(nonzero, np.maximum(b / a, a / b), -np.inf)
+        j = int(np.argmax(spread))
+        text += (f"; where both are nonzero the largest ratio is {v.name}/configured = "
+                 f"{b[j] / a[j]:.3g} at {_at(cmp, j)}")
+    return text
 
 
 def _support_statement(cmp, base, qb, v, qv):
