@@ -29,15 +29,27 @@ Hartree and Rydberg energies, the Bohr magneton, alpha, mu_0, epsilon_0, N_A,
 G) is defined here from ``scipy.constants`` (CODATA), so that ``"1 a0"`` is
 ``scipy.constants.physical_constants["Bohr radius"][0]`` metres exactly
 (``h`` stays pint's hour; the Planck constant is ``planck_constant``).
+
+The registry (``ureg``, or ``unit_registry()``) is built on first use, not on
+import, from definitions parsed once and kept in the user's cache folder
+(``cache_dir()``; ``PROBE_CACHE_DIR=`` with an empty value turns the cache
+off): parsing pint's definitions file is most of the start-up time of a
+command.
 """
 from __future__ import annotations
 
 import math
 import re
+import hashlib
+import os
+import pickle
+import sys
+import tempfile
+import threading
 from importlib import resources
+from pathlib import Path
 
 import numpy as np
-import pint
 from scipy import constants as sc
 
 from probe.errors import InputError
@@ -72,27 +84,171 @@ CODATA_DEFINITIONS = (
 )
 
 
-def _registry():
-    """pint's default registry with the constants of ``CODATA_DEFINITIONS``.
+#: the sound speed of the gas under study is not a fixed unit: it gets its own
+#: base dimension so that it can never be converted silently, and is replaced
+#: by the numerical sound speed of the gas in ``parse_quantity``
+GAS_SOUND_SPEED = "gas_sound_speed = [gas_speed] = c_s"
+
+#: environment variable naming the folder of the registry cache (empty: no cache)
+CACHE_ENV = "PROBE_CACHE_DIR"
+#: raised when what the cache holds changes shape
+_CACHE_FORMAT = 1
+
+_LOCK = threading.Lock()
+_REGISTRY = None
+_PINT = None
+
+
+def _pint():
+    """pint, imported without its dask support.
+
+    pint imports ``dask.base`` at import time when dask is installed (about a
+    third of a second), for quantities that wrap dask arrays; here pint only
+    reads strings into SI floats, so dask is hidden from it while it is
+    imported (unless dask or pint is imported already)."""
+    global _PINT
+    if _PINT is None:
+        if "pint" in sys.modules or "dask" in sys.modules:
+            import pint
+        else:
+            sys.modules["dask"] = None      # find_spec("dask") is then None
+            try:
+                import pint
+            finally:
+                if sys.modules.get("dask", False) is None:
+                    del sys.modules["dask"]
+        _PINT = pint
+    return _PINT
+
+
+def cache_dir():
+    """The folder of the parsed unit definitions: ``$PROBE_CACHE_DIR``, else
+    ``$XDG_CACHE_HOME/condensate-probe``, else ``~/.cache/condensate-probe``;
+    None when ``PROBE_CACHE_DIR`` is set empty (no cache)."""
+    env = os.environ.get(CACHE_ENV)
+    if env is not None:
+        return Path(env) if env.strip() else None
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    return Path(base) / "condensate-probe"
+
+
+def _definitions_file():
+    return resources.files("pint") / "default_en.txt"
+
+
+def cache_key(pint):
+    """Name of the cache file: pint's version, Python's, and a hash of pint's
+    definitions file and of ``CODATA_DEFINITIONS``."""
+    digest = hashlib.sha256()
+    digest.update(_definitions_file().read_bytes())
+    for line in CODATA_DEFINITIONS:
+        digest.update(b"\n" + line.encode())
+    version = getattr(pint, "__version__", "unknown")
+    python = "{}{}".format(*sys.version_info[:2])
+    return f"units-{_CACHE_FORMAT}-pint{version}-py{python}-{digest.hexdigest()[:20]}"
+
+
+def _parse_definitions(reg):
+    """pint's definitions followed by ``CODATA_DEFINITIONS``, parsed, in order."""
+    parser = reg._def_parser
+    parsed = [parser.parse_file(str(_definitions_file()))]
+    parsed += [parser.parse_string(line) for line in CODATA_DEFINITIONS]
+    return [d for project in parsed for d in parser.iter_parsed_project(project)]
+
+
+def _read_cache(path, key):
+    """The definitions stored under ``key``, or None (missing, unreadable,
+    truncated by a concurrent writer, or from another key)."""
+    try:
+        with open(path, "rb") as fh:
+            stored_key, definitions = pickle.load(fh)
+    except Exception:  # noqa: BLE001 - a cache that cannot be read is rebuilt
+        return None
+    if stored_key != key or not isinstance(definitions, list):
+        return None
+    return definitions
+
+
+def _write_cache(path, key, definitions):
+    """Store the definitions atomically (a temporary file renamed over the
+    cache file, so that a reader sees the old file or the new one, never a
+    half-written one); a folder that cannot be written is left alone."""
+    tmp = None
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=path.name, suffix=".tmp")
+        with os.fdopen(fd, "wb") as fh:
+            pickle.dump((key, definitions), fh, protocol=pickle.HIGHEST_PROTOCOL)
+        os.replace(tmp, path)
+        tmp = None
+    except OSError:
+        pass
+    finally:
+        if tmp is not None:
+            try:
+                os.unlink(tmp)
+            except OSError:
+                pass
+
+
+def _empty_registry(pint):
+    return pint.UnitRegistry(filename=None, on_redefinition="ignore")
+
+
+def _filled(reg, definitions):
+    for definition in definitions:
+        reg._helper_dispatch_adder(definition)
+    reg.default_system = "mks"
+    reg.define(GAS_SOUND_SPEED)
+    return reg
+
+
+def build_registry(cache=True):
+    """pint's default registry with the constants of ``CODATA_DEFINITIONS``
+    and the gas's sound speed ``c_s``.
 
     The definitions are loaded into an empty registry and the constants
     replaced before any conversion is cached (a registry built with its
     definitions precomputes its conversions, so a later redefinition would
-    not reach them)."""
-    reg = pint.UnitRegistry(filename=None, on_redefinition="ignore")
-    reg.load_definitions(str(resources.files("pint") / "default_en.txt"))
-    for line in CODATA_DEFINITIONS:
-        reg.define(line)
-    reg.default_system = "mks"
-    return reg
+    not reach them).  Parsing pint's definitions file is most of the cost:
+    with ``cache`` the parsed definitions are kept in ``cache_dir()`` under
+    ``cache_key`` and read back on the next run; a cache that is missing,
+    unreadable or does not fill a registry is rebuilt from the files."""
+    pint = _pint()
+    folder = cache_dir() if cache else None
+    if folder is not None:
+        key = cache_key(pint)
+        path = folder / f"{key}.pickle"
+        definitions = _read_cache(path, key)
+        if definitions is not None:
+            try:
+                return _filled(_empty_registry(pint), definitions)
+            except Exception:  # noqa: BLE001 - a stale or damaged cache: rebuild
+                pass
+    reg = _empty_registry(pint)
+    definitions = _parse_definitions(reg)
+    if folder is not None:
+        _write_cache(path, key, definitions)
+    return _filled(reg, definitions)
 
 
-#: The one unit registry of the project.
-ureg = _registry()
-# The sound speed of the gas under study is not a fixed unit: it gets its own
-# base dimension so that it can never be converted silently, and is replaced
-# by the numerical sound speed of the gas in ``parse_quantity``.
-ureg.define("gas_sound_speed = [gas_speed] = c_s")
+def unit_registry():
+    """The one unit registry of the project, built on first use."""
+    global _REGISTRY
+    if _REGISTRY is None:
+        with _LOCK:
+            if _REGISTRY is None:
+                _REGISTRY = build_registry()
+    return _REGISTRY
+
+
+def __getattr__(name):
+    # ``ureg`` (the registry) is built when first asked for, so that
+    # importing this module costs neither pint nor the definitions
+    if name == "ureg":
+        return unit_registry()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
 
 KINDS = ("length", "speed", "mass", "temperature", "time", "frequency",
          "angular_frequency", "density", "coupling", "dimensionless")
@@ -173,7 +329,7 @@ def _unit_names(q):
     """Canonical base names (without prefixes) of the units written in ``q``."""
     names = []
     for name in q._units:          # UnitsContainer: name -> exponent
-        for _prefix, base, _suffix in ureg.parse_unit_name(name):
+        for _prefix, base, _suffix in unit_registry().parse_unit_name(name):
             names.append(base)
             break
         else:
@@ -193,7 +349,7 @@ def _parse(value, key, kind, dimension=None):
                 number = math.inf
             if not math.isfinite(number):
                 raise InputError(key, f"{value!r} is not finite")
-            return ureg.Quantity(number)
+            return unit_registry().Quantity(number)
         raise InputError(
             key, f"{value!r} must carry units, e.g. {example(kind, dimension)} "
             "(write the value as a string with its unit)")
@@ -223,6 +379,7 @@ def _parse(value, key, kind, dimension=None):
     if kind != "dimensionless" and _NUMBER_ONLY.match(text):
         raise InputError(key, f"{value!r} must carry units, e.g. "
                               f"{example(kind, dimension)}")
+    pint, ureg = _pint(), unit_registry()
     try:
         q = ureg.parse_expression(_INT_LITERAL.sub(r"\1.0", text))
     except pint.errors.OffsetUnitCalculusError:
@@ -313,7 +470,7 @@ def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
         return float(q.to("dimensionless").magnitude)
 
     if kind == "speed":
-        if dim == ureg.c_s.dimensionality:
+        if dim == unit_registry().c_s.dimensionality:
             if sound_speed is None:
                 raise InputError(key, f"{value!r} is given in units of the sound "
                                       "speed c_s, which is not known here; give m/s")
