@@ -66,3 +66,74 @@ def test_compare_reports_the_largest_absolute_difference():
                                                 b / np.where(both, a, 1)), -1)))
     m = re.search(r"largest ratio is phonon/configured = ([0-9.e+-]+)", text)
     assert m and float(m.group(1)) == pytest.approx(b[j] / a[j], rel=1e-2)
+
+
+# ---------------------------------------------------------------------------
+# 7. keys that a scenario does not use: warned about, or refused
+# ---------------------------------------------------------------------------
+def test_transverse_frequency_in_3d_is_warned_about_and_not_listed(tmp_path):
+    r = run(["rates", EXAMPLES / "box3d_supersonic.toml", "--set",
+             "condensate.transverse_frequency=2 kHz"])
+    assert r.exit_code == 0, r.output
+    inputs = r.output.split("Derived")[0]
+    assert "transverse" not in inputs
+    assert "transverse length" not in r.output.split("Results")[0]
+    warnings = r.output.split("Warnings")[1]
+    assert "condensate.transverse_frequency" in warnings and "3D" in warnings
+    data = json.loads(run(["rates", EXAMPLES / "box3d_supersonic.toml", "--json", "--set",
+                           "condensate.transverse_frequency=2 kHz"]).output)
+    assert data["inputs"]["condensate"]["transverse_frequency"] is None
+    assert any("condensate.transverse_frequency" in w for w in data["warnings"])
+
+
+def test_rtol_on_a_linear_transit_is_warned_about():
+    r = run(["transit", EXAMPLES / "transits" / "box3d_crossing.toml", "--set",
+             "numerics.rtol=1e-6", "--set", "numerics.transit_rtol=1e-3"])
+    assert r.exit_code == 0, r.output
+    warnings = r.output.split("Warnings")[1]
+    assert "numerics.rtol" in warnings and "numerics.transit_rtol" in warnings
+    # the stationary rates of the same file do use it: no warning there
+    r = run(["rates", EXAMPLES / "transits" / "box3d_crossing.toml", "--set",
+             "numerics.rtol=1e-6"])
+    assert "numerics.rtol" not in r.output
+
+
+@pytest.mark.parametrize("key,value", [("direction", "[1, 0]"),
+                                       ("start", '["1 um", "0 um"]')])
+def test_two_components_in_3d_are_refused(key, value):
+    r = run(["rates", EXAMPLES / "box3d_supersonic.toml", "--set",
+             f"trajectory.{key}={value}"])
+    assert r.exit_code == 2
+    assert r.stderr.startswith(f"error: trajectory.{key}: ")
+    assert "3 components" in r.stderr and "got 2" in r.stderr
+
+
+# ---------------------------------------------------------------------------
+# 9. hints for common slips
+# ---------------------------------------------------------------------------
+@pytest.mark.parametrize("assignment,hint", [
+    ("condensate.density=1e14 cm-3", "did you mean '1e14 cm^-3'?"),
+    ("condensate.temperature=20 nk", "did you mean '20 nK'?"),
+    ("probe.gap=150 hz", "did you mean '150 Hz'?"),
+    ("condensate.speed=1 c_s", "belongs in [trajectory] (trajectory.speed)"),
+    ('trajectory.direction=["a", 0, 0]', "a direction is a list of numbers"),
+])
+def test_common_slips_get_a_hint(assignment, hint):
+    r = run(["rates", EXAMPLES / "box3d_supersonic.toml", "--set", assignment])
+    assert r.exit_code == 2
+    assert hint in r.stderr, r.stderr
+    assert r.stderr.count("\n") == 1
+    assert "did you mean 'species'" not in r.stderr
+
+
+def test_the_suggested_spelling_reads_as_intended():
+    """The corrected text is read as the quantity meant: 1e14 cm^-3 is
+    1e20 m^-3 (1 cm = 1e-2 m), 20 nK is 2e-8 K."""
+    from probe.scenarios.spelling import corrections
+    from probe.scenarios.units import parse_quantity
+
+    fixed = dict(corrections("1e14 cm-3"))
+    assert parse_quantity(next(iter(fixed)), "k", "density", dimension=3) == \
+        pytest.approx(1e20, rel=1e-12)
+    assert parse_quantity(corrections("20 nk")[0][0], "k", "temperature") == \
+        pytest.approx(2e-8, rel=1e-12)

@@ -42,7 +42,7 @@ from probe.scenarios import passage as _passage
 from probe.scenarios import transit as _transit
 from probe.scenarios.detector import build_probe
 from probe.scenarios.edits import apply_edits, override, read_toml, unset
-from probe.scenarios.gas import build_gas
+from probe.scenarios.gas import build_gas, unused_notes
 from probe.scenarios.path import build_path
 from probe.scenarios.schema import SCHEMA, validate_keys
 from probe.scenarios.values import species_mass
@@ -71,6 +71,8 @@ class Scenario:
     transit_method: str = "auto"
     trap: object = None               # the HarmonicTrap of trap = "harmonic"
     passage_samples: int = 1000
+    #: warnings on keys given but not used (each names its key and says why)
+    unused: list = field(default_factory=list)
 
     @property
     def is_passage(self):
@@ -87,7 +89,8 @@ class Scenario:
         """First-order transit probabilities (a :class:`TransitResult`); in a
         harmonic trap, of the uniform gas at its centre (said in a warning)."""
         res = _transit.run_transit(self, spectrum=spectrum, workers=workers)
-        for w in (_passage.transit_region_warnings(self)
+        for w in (self.unused + numerics.transit_notes(self.raw)
+                  + _passage.transit_region_warnings(self)
                   + _passage.harmonic_notes(self, "probe transit")):
             if w not in res.warnings:
                 res.warnings.append(w)
@@ -95,7 +98,9 @@ class Scenario:
 
     def passage(self):
         """The passage through the cloud (a :class:`PassageResult`)."""
-        return _passage.run_passage(self)
+        res = _passage.run_passage(self)
+        res.warnings = self.unused + [w for w in res.warnings if w not in self.unused]
+        return res
 
     def describe(self):
         """Inputs and derived quantities as a dict of SI values (JSON safe)."""
@@ -149,7 +154,8 @@ class Scenario:
         for w in regime_warnings(self.condensate, self.probe, result):
             if w not in existing:
                 existing.append(w)
-        result.warnings = existing + notes + _passage.harmonic_notes(self, "probe rates")
+        result.warnings = (self.unused + existing + notes
+                           + _passage.harmonic_notes(self, "probe rates"))
         return result
 
 
@@ -170,7 +176,8 @@ def scenario_from_dict(raw, overrides=(), source=None, removals=()):
                     switching=switching,
                     transit_rtol=numerics.transit_rtol(raw, trajectory),
                     transit_method=numerics.transit_method(raw), trap=trap,
-                    passage_samples=numerics.passage_samples(raw))
+                    passage_samples=numerics.passage_samples(raw),
+                    unused=unused_notes(raw["condensate"]))
 
 
 def load_config(path, overrides=(), removals=()):

@@ -117,6 +117,17 @@ def _harmonic_gas(body):
     return centre, species, HarmonicTrap(centre, frequencies, peak_density=centre.density)
 
 
+def unused_notes(body):
+    """Warnings on ``[condensate]`` keys that are given but not used (the
+    transverse trap of a 3D gas), each naming the key and saying why."""
+    if TRANSVERSE_FREQUENCY.name in body and body.get(DIMENSION.name) == 3:
+        return [f"{TRANSVERSE_FREQUENCY.dotted} = {body[TRANSVERSE_FREQUENCY.name]!r} is "
+                "not used: a 3D gas has no tight transverse trap (it sets the "
+                "confinement across a quasi-2D or quasi-1D gas, dimension = 2 or 1); "
+                "remove it"]
+    return []
+
+
 def trap_frequencies(value, dimension):
     """The angular trap frequencies (rad/s), one per free direction, from
     one string (every direction) or a list of ``dimension`` of them."""
@@ -153,6 +164,8 @@ def _uniform_gas(body, size=True):
     if dim < 3:
         require(body, TRANSVERSE_FREQUENCY)
     wperp = quantity(body, TRANSVERSE_FREQUENCY)
+    if dim == 3:
+        wperp = None          # read (a bad value is refused), not used: unused_notes
     temperature = quantity(body, TEMPERATURE)
     dispersion = choice(body, DISPERSION)
     cond = Condensate(dim, boson_mass, density, a, transverse_frequency=wperp,

@@ -70,6 +70,17 @@ def transit_rtol(raw, trajectory=None):
     return value
 
 
+def transit_notes(raw):
+    """Warnings for a finite transit on ``[numerics]`` keys it does not use:
+    ``rtol`` (the accuracy of stationary rates)."""
+    body = raw.get(_S, {})
+    if RTOL.name not in body:
+        return []
+    return [f"{RTOL.dotted} = {body[RTOL.name]!r} is not used by a finite transit: it is "
+            "the accuracy of the stationary rates ('probe rates'); the transit's "
+            f"accuracy is {TRANSIT_RTOL.dotted} (default {TRANSIT_RTOL.default:g})"]
+
+
 def transit_method(raw):
     """``numerics.transit_method`` (default "auto"): the amplitude route of
     the transit engine (:func:`probe.engines.transit.transit_probabilities`)."""

@@ -76,6 +76,18 @@ def _in_gas(vec, key, d, what):
                               f"only) but the {what} {vec.tolist()} leaves it")
 
 
+def _components(body, key, d, what):
+    """The component counts allowed for the vector ``key`` in a ``d``-D gas:
+    three in 3D (a shorter list would leave the missing components to a
+    guess), ``d`` to 3 in a 2D or 1D gas (those beyond ``d`` must be 0)."""
+    value = body.get(key.name)
+    if d == 3 and isinstance(value, (list, tuple)) and len(value) != 3:
+        raise InputError(key.dotted, f"a {what} in a 3D gas has 3 components (x, y, z), "
+                                     f"got {len(value)}: {value!r}; write e.g. "
+                                     f"{key.name} = {key.example}")
+    return tuple(range(d, 4))
+
+
 def _speed(body, sound_speed):
     """The speed (m/s); a speed beyond the engine's range written with
     ``c`` (pint's speed of light) gets a hint that the sound speed is
@@ -139,9 +151,9 @@ def build_linear(body, condensate, source=None):
     d = condensate.dimension
     require(body, SPEED)
     speed = _speed(body, condensate.sound_speed)
-    direction = quantity(body, DIRECTION)
+    direction = quantity(body, DIRECTION, sizes=_components(body, DIRECTION, d, "direction"))
     _in_gas(direction, DIRECTION.dotted, d, "direction")
-    start = quantity(body, START)
+    start = quantity(body, START, sizes=_components(body, START, d, "start point"))
     if start is not None:
         _in_gas(start, START.dotted, d, "start point")
         _check_position(start, START.dotted, "start point", condensate)

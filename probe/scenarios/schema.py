@@ -74,6 +74,11 @@ def check_key(section, key):
             f"allowed: {', '.join(SCHEMA)}")
     if key is not None and key not in SCHEMA[section] and \
             not planning.is_entry(section, key):
+        homes = [s for s in SCHEMA if key in SCHEMA[s]]
+        if homes:
+            where = " or ".join(f"[{s}] ({s}.{key})" for s in homes)
+            raise InputError(f"{section}.{key}", f"not a key of [{section}]: {key} "
+                                                 f"belongs in {where}; move it there")
         raise InputError(
             f"{section}.{key}", f"unknown key; {suggest(key, SCHEMA[section])}"
             f"allowed: {', '.join(SCHEMA[section])}")

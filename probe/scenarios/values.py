@@ -11,6 +11,7 @@ from scipy import constants as sc
 
 from probe.errors import InputError
 from probe.scenarios.keys import suggest
+from probe.scenarios.spelling import with_hint
 from probe.scenarios.units import parse_quantity, parse_vector
 
 
@@ -47,9 +48,23 @@ def quantity(body, key, **kwargs):
     else:
         return None
     if key.vector:
+        _numbers_only(value, key)
         return parse_vector(value, key.dotted, key.kind, **kwargs)
     kwargs.pop("sizes", None)
-    return parse_quantity(value, key.dotted, key.kind, **kwargs)
+    return with_hint(lambda v: parse_quantity(v, key.dotted, key.kind, **kwargs),
+                     value, key.dotted)
+
+
+def _numbers_only(value, key):
+    """InputError unless a list for a vector of pure numbers (a direction,
+    a normal) holds numbers only."""
+    if key.kind != "dimensionless" or not isinstance(value, (list, tuple)):
+        return
+    for i, comp in enumerate(value):
+        if isinstance(comp, bool) or not isinstance(comp, (int, float)):
+            raise InputError(key.dotted, f"a {key.name} is a list of numbers such as "
+                                         f"{key.example}, got {value!r} (component {i}, "
+                                         f"{comp!r}, is not a number)")
 
 
 def read(body, key, **kwargs):
