@@ -7,29 +7,26 @@ Quick start::
     result = probe.rates_from_config("scenario.toml")
     print(result.up_rate, result.down_rate)
 
-The configuration layer (``load_config``, ``rates_from_config``,
-``parse_quantity``) needs pint and is imported on first use, so that
-``import probe`` stays light for code that only uses the physics objects.
+Every name below is imported on first use (the engines need numpy and scipy,
+the configuration layer pint), so that ``import probe`` and the command
+line's ``--help`` stay light; ``import probe`` installs the first release's
+module names (``probe.engine``, ``probe.sweep`` ...: ``probe._aliases``).
 """
 from importlib import import_module
-from importlib.metadata import PackageNotFoundError, version as _version
 
 from probe import _aliases
-from probe.detectors import (PROBE_MODELS, DensityProbe, TwoLevelProbe,
-                                    coupling_from_scattering_length)
-from probe.engines.regime import regime_warnings
-from probe.engines.results import RateResult
 from probe.errors import InputError, ModelError
-from probe.gas.condensate import Condensate
 
 _aliases.install()
 
-try:
-    __version__ = _version("condensate-probe")
-except PackageNotFoundError:  # running from a source tree that is not installed
-    __version__ = "0.1.0"
-
 _LAZY = {
+    "Condensate": "probe.gas.condensate",
+    "DensityProbe": "probe.detectors",
+    "TwoLevelProbe": "probe.detectors",
+    "PROBE_MODELS": "probe.detectors",
+    "coupling_from_scattering_length": "probe.detectors",
+    "regime_warnings": "probe.engines.regime",
+    "RateResult": "probe.engines.results",
     "load_config": "probe.scenarios.config",
     "rates_from_config": "probe.scenarios.config",
     "override": "probe.scenarios.config",
@@ -42,12 +39,34 @@ _LAZY = {
     "stationary_rates": "probe.engines.stationary",
 }
 
-__all__ = ["Condensate", "InputError", "ModelError", "DensityProbe",
-           "TwoLevelProbe", "PROBE_MODELS", "coupling_from_scattering_length",
-           "regime_warnings", "RateResult", "__version__", *_LAZY]
+#: sub-packages and modules reachable as attributes of ``probe`` before they
+#: are imported (``probe.gas.Condensate`` after a bare ``import probe``)
+_SUBMODULES = {"cli", "design", "detectors", "engines", "errors", "gas", "quantities",
+               "scenarios", *_aliases.ALIASES}
+
+__all__ = ["InputError", "ModelError", "__version__", *_LAZY]
+
+
+def _package_version():
+    from importlib.metadata import PackageNotFoundError, version
+    try:
+        return version("condensate-probe")
+    except PackageNotFoundError:  # running from a source tree that is not installed
+        return "0.1.0"
 
 
 def __getattr__(name):
     if name in _LAZY:
-        return getattr(import_module(_LAZY[name]), name)
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+        value = getattr(import_module(_LAZY[name]), name)
+    elif name == "__version__":
+        value = _package_version()
+    elif name in _SUBMODULES:
+        return import_module(f"{__name__}.{name}")
+    else:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__) | _SUBMODULES)

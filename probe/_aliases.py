@@ -8,7 +8,6 @@ that now holds its code (the same module object, so ``probe.engine`` *is*
 from __future__ import annotations
 
 import importlib
-import importlib.abc
 import importlib.machinery
 import sys
 
@@ -36,7 +35,9 @@ ALIASES = {
 }
 
 
-class _AliasLoader(importlib.abc.Loader):
+class _AliasLoader:
+    # the loader protocol (``importlib.abc.Loader``, not imported: it costs
+    # importlib.resources and typing at start-up)
     def __init__(self, target):
         self.target = target
 
@@ -52,7 +53,8 @@ class _AliasLoader(importlib.abc.Loader):
 _REAL_SPECS: dict = {}
 
 
-class _AliasFinder(importlib.abc.MetaPathFinder):
+class _AliasFinder:
+    # the meta path finder protocol (``importlib.abc.MetaPathFinder``)
     def find_spec(self, fullname, path=None, target=None):
         if not fullname.startswith("probe."):
             return None

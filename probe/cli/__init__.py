@@ -1,14 +1,22 @@
 """The command line: ``probe rates | transit | passage | sweep | compare | threshold | solve``.
 
-``app`` holds the click group; each command module registers its commands on
-it when imported; ``common`` holds what every command shares (the one-line
-refusal with exit status 2, number formatting, atomic writes).
+``app`` holds the click group, which imports a command's module when the
+command runs (``app.COMMANDS``: command -> module); each command module
+registers its commands on it when imported; ``common`` holds what every
+command shares (the one-line refusal with exit status 2, number formatting,
+atomic writes), imported here on first use.
 """
-from probe.cli.app import cli, main
-from probe.cli import rates as _rates  # noqa: F401  (registers ``rates``)
-from probe.cli import transit as _transit  # noqa: F401  (registers ``transit``)
-from probe.cli import design as _design  # noqa: F401  (sweep, compare, threshold, solve)
-from probe.cli import passage as _passage  # noqa: F401  (registers ``passage``)
-from probe.cli.common import EXIT_INPUT, ProbeError, write_atomic
+from importlib import import_module
 
-__all__ = ["cli", "main", "EXIT_INPUT", "ProbeError", "write_atomic"]
+from probe.cli.app import cli, main
+
+_LAZY = {"EXIT_INPUT": "probe.cli.common", "ProbeError": "probe.cli.common",
+         "write_atomic": "probe.cli.common"}
+
+__all__ = ["cli", "main", *_LAZY]
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        return getattr(import_module(_LAZY[name]), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
