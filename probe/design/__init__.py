@@ -4,6 +4,14 @@ against gap, and the key value that meets a target) and ``plots``.
 
 ``probe.design.threshold_table`` and ``probe.design.solve`` are re-exported
 from ``probe.design.solver``."""
-from probe.design.solver import Solution, ThresholdTable, parse_target, solve, threshold_table
+from importlib import import_module
 
 __all__ = ["Solution", "ThresholdTable", "parse_target", "solve", "threshold_table"]
+
+
+def __getattr__(name):
+    # imported on first use: ``probe.design.planning`` (which every command
+    # reads) must not pull in the solver, the sweeps and their libraries
+    if name in __all__:
+        return getattr(import_module("probe.design.solver"), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
