@@ -20,7 +20,6 @@ import math
 from typing import Callable
 
 import numpy as np
-from scipy.optimize import brentq, minimize_scalar
 
 from ._errors import TrajectoryError
 
@@ -235,6 +234,7 @@ class Trajectory(abc.ABC):
         return np.sum((x[..., :k] / radii[:k]) ** 2, axis=-1)
 
     def _edge_time(self, times, i, j, radii):
+        from scipy.optimize import brentq   # here: scipy.optimize is slow to import
         f = lambda s: float(self._ellipsoid_measure(np.array([s]), radii)[0]) - 1.0  # noqa: E731
         return brentq(f, times[i], times[j], xtol=1e-15 * max(1.0, abs(times[j])))
 
@@ -277,6 +277,7 @@ class Trajectory(abc.ABC):
         if refine and times.size >= 3:
             lo, hi = times[max(i - 1, 0)], times[min(i + 1, times.size - 1)]
             if hi > lo:
+                from scipy.optimize import minimize_scalar
                 res = minimize_scalar(lambda s: -float(self.speed(s)), bounds=(lo, hi),
                                       method="bounded",
                                       options={"xatol": (hi - lo) * 1e-9})
