@@ -15,7 +15,7 @@ import math
 import os
 
 import numpy as np
-from trajectories import Spline, TrajectoryError, read_waypoints_csv
+from trajectories import TrajectoryError
 
 from probe.errors import InputError
 from probe.scenarios.keys import Key, suggest
@@ -243,6 +243,7 @@ def build_spline(body, condensate, source=None):
             return f"{WAYPOINTS.dotted}.{col}[{i}]", ""
         motion_key, motion_pre = WAYPOINTS.dotted, ""
     _check_waypoint_range(times, pos, condensate, where)
+    from trajectories import Spline   # here: splines need scipy.interpolate
     try:
         spline = Spline(times, pos, order=order, max_speed=max_speed)
     except TrajectoryError as exc:
@@ -263,6 +264,7 @@ def _file_waypoints(name, d, source, info):
     if not isinstance(name, str) or not name.strip():
         raise InputError(key, f"must be a file name such as \"path.csv\", got {name!r}")
     path = name if os.path.isabs(name) else os.path.join(_scenario_dir(source), name)
+    from trajectories import read_waypoints_csv
     try:
         table = read_waypoints_csv(path)
     except TrajectoryError as exc:
