@@ -23,7 +23,6 @@ import math
 from functools import lru_cache
 
 import numpy as np
-from scipy.optimize import brentq
 
 from probe.errors import InputError
 
@@ -203,6 +202,7 @@ class Window(Switching):
         if self.ramp == 0 or eps <= 0:
             return (self.start, self.stop)
         eps = min(eps, 0.5)
+        from scipy.optimize import brentq   # here: scipy.optimize is slow to import
         x = brentq(lambda y: float(smooth_step(y)) - eps, 1e-12, 0.5, xtol=1e-14)
         return (self.start + x * self.ramp, self.stop - x * self.ramp)
 
