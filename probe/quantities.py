@@ -53,6 +53,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numpy as np
+
 #: SI unit text (CSV headers, JSON docs) of each kind of quantity; ``d`` is
 #: the dimension of the gas (see :func:`si_unit`)
 SI_UNITS = {
@@ -81,6 +83,16 @@ DISPLAY_UNITS = {
     "time": ("us", "ms", "s"),
 }
 
+#: the SI value of one of each unit of ``DISPLAY_UNITS`` (``value / scale``
+#: is printed)
+UNIT_SCALES = {"pK": 1e-12, "nK": 1e-9, "uK": 1e-6, "mK": 1e-3, "K": 1.0,
+               "nm": 1e-9, "um": 1e-6, "mm": 1e-3, "m": 1.0,
+               "um/s": 1e-6, "mm/s": 1e-3, "m/s": 1.0, "us": 1e-6, "ms": 1e-3, "s": 1.0}
+
+#: kinds printed in tables and messages in the unit of ``DISPLAY_UNITS`` that
+#: fits the value (300 K as K, 20 nK as nK), not in one fixed unit
+PREFIXED_KINDS = ("temperature",)
+
 #: what a quantity of each kind is, in one word (a quantity's ``noun``
 #: takes precedence)
 KIND_NOUNS = {"rate": "rate"}
@@ -98,10 +110,44 @@ def si_unit(kind, dimension=3):
     return SI_UNITS[kind]
 
 
-def table_unit(kind, dimension=3):
+def table_unit(kind, dimension=3, value=None):
     """``(unit, scale)`` of ``kind`` in printed tables: ``value / scale`` is
-    printed, followed by ``unit``."""
+    printed, followed by ``unit``.  For a kind of ``PREFIXED_KINDS`` and a
+    ``value`` (SI; an array: its largest finite magnitude) the unit is the
+    one that fits it (:func:`fitting_unit`)."""
+    if value is not None and kind in PREFIXED_KINDS:
+        fit = fitting_unit(kind, value)
+        if fit is not None:
+            return fit
     return TABLE_UNITS.get(kind) or (si_unit(kind, dimension), 1.0)
+
+
+def fitting_unit(kind, value):
+    """``(unit, scale)`` from ``DISPLAY_UNITS[kind]`` for an SI ``value``:
+    the largest unit in which its magnitude is at least 1 (the smallest unit
+    for smaller values); None for 0 or no finite value."""
+    a = np.abs(np.asarray(value, float))
+    a = a[np.isfinite(a) & (a > 0)]
+    if not a.size:
+        return None
+    big = float(np.max(a))
+    units = DISPLAY_UNITS[kind]
+    best = units[0]
+    for unit in units:
+        if big >= UNIT_SCALES[unit] * (1 - 1e-12):
+            best = unit
+    return best, UNIT_SCALES[best]
+
+
+def display_text(kind, value, digits=6):
+    """An SI ``value`` of ``kind`` as printed in tables and messages: in its
+    table unit (:func:`table_unit`; a temperature in the unit that fits it,
+    a frequency as an ordinary one in Hz with the angular one beside)."""
+    unit, scale = table_unit(kind, value=value)
+    text = f"{float(value) / scale:.{digits}g} {unit}".rstrip()
+    if kind == "frequency":
+        text += f" ({float(value):.{digits}g} rad/s)"
+    return text
 
 
 @dataclass(frozen=True)
@@ -331,6 +377,7 @@ def produced_by(engine, name):
 
 
 __all__ = ["Quantity", "QUANTITIES", "SI_UNITS", "TABLE_UNITS", "DISPLAY_UNITS",
-           "KIND_NOUNS", "ROLES", "si_unit", "table_unit", "quantity", "guarded_names",
+           "KIND_NOUNS", "ROLES", "UNIT_SCALES", "PREFIXED_KINDS", "si_unit", "table_unit",
+           "fitting_unit", "display_text", "quantity", "guarded_names",
            "target_names", "kind_of", "error_names", "in_registry_order", "headline",
            "default_plotted", "shared_noun", "stationary_outputs", "produced_by"]

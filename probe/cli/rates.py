@@ -17,8 +17,10 @@ from scipy import constants as sc
 
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_derived_rows, cloud_input_rows, cloud_json
-from probe.cli.common import (KIND_EXTRAS, fail, input_errors, json_value, num,
-                               outputs_json, q, report, result_rows, write_atomic)
+from probe.cli.common import (KIND_EXTRAS, fail, input_errors, json_option, json_value,
+                              num, out_option, outputs_json, q, report, result_rows)
+from probe.cli.outputs import Outputs, json_by_suffix, scenario_inputs
+from probe.cli.progress import PROGRESS_DELAY, Progress
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.quantities import stationary_outputs, table_unit
 
@@ -30,7 +32,7 @@ def kind_text(value, kind, dimension):
         return q(value, "nm", 1e-9)
     if kind == "coupling":
         return q(value, "J m" if dimension == 1 else f"J m^{dimension}")
-    unit, scale = table_unit(kind, dimension)
+    unit, scale = table_unit(kind, dimension, value=value)
     extra = KIND_EXTRAS.get(kind)
     return q(value, unit, scale) + (extra(value, None) if extra else "")
 
@@ -52,7 +54,7 @@ def rows_inputs(sc_, info):
     if cond.size is not None:
         rows.append(("uniform region radius", q(cond.size, "um", 1e-6)))
     rows += cloud_input_rows(sc_)
-    rows += [("temperature", q(cond.temperature, "nK", 1e-9)),
+    rows += [("temperature", kind_text(cond.temperature, "temperature", d)),
              ("dispersion", gas["dispersion"]),
              ("probe model", prb["model"])]
     rows += [(label, kind_text(value, kind, d)) for label, value, kind in
@@ -78,13 +80,13 @@ def rows_derived(sc_, info):
     der = info["derived"]
     mu = der["chemical_potential"]
     rows = [("chemical potential", f"{q(mu, 'J')}  (mu/h = {num(mu / sc.h)} Hz, "
-                                   f"mu/k_B = {num(mu / sc.k * 1e9)} nK)"),
+                                   f"mu/k_B = {kind_text(mu / sc.k, 'temperature', 3)})"),
             ("sound speed c_s", q(der["sound_speed"], "m/s")),
             ("healing length", f"{q(der['healing_length'], 'um', 1e-6)}  "
                                "(xi = hbar/(m c))"),
             (f"gas parameter {der['gas_parameter_name']}", num(der["gas_parameter"]))]
     if der["critical_temperature"] is not None:
-        rows.append(("ideal-gas T_c", q(der["critical_temperature"], "nK", 1e-9)))
+        rows.append(("ideal-gas T_c", kind_text(der["critical_temperature"], "temperature", 3)))
     if der["transverse_length"] is not None:
         rows.append(("transverse length", q(der["transverse_length"], "um", 1e-6)))
     return rows + cloud_derived_rows(sc_)
@@ -152,49 +154,69 @@ def result_json(scenario, result, planning=None):
     return out
 
 
+def _stage_report(outputs, out, as_json, objs, texts):
+    """The report of ``probe rates`` or ``probe transit``: ``(text, or
+    None when it went to ``out``)``.  JSON when ``--json`` is given or the
+    file's name ends in .json (an object for one scenario, an array for
+    several), the tables otherwise."""
+    if as_json or json_by_suffix(out):
+        items = objs()
+        text = json.dumps(items[0] if len(items) == 1 else items, indent=2,
+                          allow_nan=False)
+    else:
+        text = "\n\n".join(texts())
+    if out is None:
+        return text
+    outputs.stage_text(out, text + "\n", OUT_KEY)
+    return None
+
+
+#: the key of the output file's refusals (its first spelling, kept)
+OUT_KEY = "--output"
+
+
 @cli.command()
 @click.argument("configs", nargs=-1, required=True, metavar="CONFIG [CONFIG ...]")
-@click.option("--json", "as_json", is_flag=True,
-              help="Print JSON (an object for one config, an array for several).")
+@json_option("Print JSON (an object for one config, an array for several).")
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE",
               help="Override a configuration entry, e.g. --set 'trajectory.speed=2 c_s'. "
                    "Repeatable; applied to every CONFIG.")
 @click.option("--unset", "removals", multiple=True, metavar="KEY",
               help="Remove a configuration entry, e.g. --unset probe.gap (before any "
                    "--set). Repeatable; applied to every CONFIG.")
-@click.option("-o", "--output", "output", default=None, metavar="FILE",
-              help="Write the table (or JSON) to FILE instead of the terminal; "
-                   "FILE is written whole or left untouched.")
-def rates(configs, as_json, overrides, removals, output):
+@out_option("FILE", "Write the table (JSON with --json or when FILE ends in .json) to "
+                    "FILE instead of the terminal; FILE is written whole or left untouched.")
+def rates(configs, as_json, overrides, removals, out):
     """Stationary up/down (or emission) rates for each scenario file CONFIG."""
     from probe.design.planning import plan_rates, planning_spec
     from probe.scenarios.config import load_config
 
-    errors = input_errors()
     done = []
     try:
-        scenarios = [load_config(path, overrides, removals=removals) for path in configs]
-        specs = [planning_spec(s) for s in scenarios]
-        with warnings.catch_warnings():
-            # numpy's overflow/invalid-value warnings are not for the reader:
-            # every result passes the engine's guard (no NaN, inf or negative
-            # number is returned; a ModelError says why instead)
-            warnings.simplefilter("ignore", RuntimeWarning)
-            for scenario, spec in zip(scenarios, specs):
-                result = scenario.rates()
-                plan = None if spec is None else plan_rates(scenario, result, spec)
-                if plan is not None:
-                    attach(result, plan)
-                done.append((scenario, result, plan))
-        if as_json:
-            objs = [result_json(s, r, p) for s, r, p in done]
-            payload = objs[0] if len(objs) == 1 else objs
-            text = json.dumps(payload, indent=2, allow_nan=False)
-        else:
-            text = "\n\n".join(format_table(s, r, p) for s, r, p in done)
-        if output is not None:
-            write_atomic(output, text + "\n")
-    except errors as exc:
+        with Outputs() as outputs:
+            scenarios = [load_config(path, overrides, removals=removals) for path in configs]
+            for s in scenarios:
+                outputs.add_inputs(scenario_inputs(s.source, s.raw))
+            outputs.check(out, OUT_KEY)
+            specs = [planning_spec(s) for s in scenarios]
+            with warnings.catch_warnings(), \
+                    Progress(len(scenarios), "rates", delay=PROGRESS_DELAY) as bar:
+                # numpy's overflow/invalid-value warnings are not for the reader:
+                # every result passes the engine's guard (no NaN, inf or negative
+                # number is returned; a ModelError says why instead)
+                warnings.simplefilter("ignore", RuntimeWarning)
+                for scenario, spec in zip(scenarios, specs):
+                    result = scenario.rates()
+                    plan = None if spec is None else plan_rates(scenario, result, spec)
+                    if plan is not None:
+                        attach(result, plan)
+                    done.append((scenario, result, plan))
+                    bar(1)
+            text = _stage_report(outputs, out, as_json,
+                                 lambda: [result_json(*item) for item in done],
+                                 lambda: [format_table(*item) for item in done])
+            outputs.commit()
+    except input_errors() as exc:
         fail(exc)
-    if output is None:
+    if text is not None:
         click.echo(text)

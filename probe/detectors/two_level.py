@@ -8,7 +8,7 @@ import numpy as np
 
 from probe.detectors.base import HBAR, KB, Channel, InputError, ProbeModel
 from probe.engines.regime.limits import RATE_OVER_GAP_LIMIT, TEFF_ERROR_FACTOR
-from probe.engines.regime.wording import fmt, grid_prefix, lead
+from probe.engines.regime.wording import fmt, grid_prefix, lead, temperature_text
 from probe.scenarios.keys import Key
 
 
@@ -137,7 +137,7 @@ class TwoLevelProbe(ProbeModel):
                 f"{lead(under)}the effective temperature is undetermined (reported as NaN, "
                 "null in JSON): the up rate is not zero here (a warm gas or circular "
                 "motion) but below the smallest number a double holds, reported as 0; "
-                f"T_eff < {fmt(float(np.max(bound)) * 1e9)} nK")
+                f"T_eff < {temperature_text(float(np.max(bound)))}")
         mask = np.isnan(te) & (up > 0)
         if not np.any(mask):
             return out
@@ -154,7 +154,7 @@ class TwoLevelProbe(ProbeModel):
             f"null in JSON): the up and down rates agree to within "
             f"{TEFF_ERROR_FACTOR:g} times their error estimates "
             f"(|ln(down/up)| = {fmt(abs(math.log(dn.flat[i] / up.flat[i])))} <= "
-            f"{fmt(unc.flat[i])}), so only |T_eff| > {fmt(bound.flat[i] * 1e9)} nK is "
+            f"{fmt(unc.flat[i])}), so only |T_eff| > {temperature_text(bound.flat[i])} is "
             "known (equal rates mean an infinite effective temperature)"]
 
 

@@ -44,7 +44,8 @@ from probe.scenarios.detector import build_probe
 from probe.scenarios.edits import apply_edits, override, read_toml, unset
 from probe.scenarios.gas import build_gas, unused_notes
 from probe.scenarios.path import build_path
-from probe.scenarios.schema import SCHEMA, validate_keys
+from probe.errors import InputError
+from probe.scenarios.schema import SCHEMA, as_written, validate_keys
 from probe.scenarios.values import species_mass
 
 __all__ = ["SCHEMA", "Scenario", "apply_edits", "load_config", "override",
@@ -165,6 +166,14 @@ def scenario_from_dict(raw, overrides=(), source=None, removals=()):
     raw = apply_edits(raw, overrides, removals)
     validate_keys(raw)
     raw = copy.deepcopy(raw)
+    try:
+        return _build(raw, source)
+    except InputError as exc:
+        raise as_written(exc, raw) from None
+
+
+def _build(raw, source):
+    """The Scenario of a validated configuration dict."""
     cond, species, trap = build_gas(raw["condensate"])
     probe, probe_mass, probe_species = build_probe(raw["probe"], cond, species)
     trajectory, switching = build_path(raw["trajectory"], cond, source)

@@ -8,9 +8,14 @@ documentation (:func:`markdown_tables`).
 """
 from __future__ import annotations
 
+import math
+import re
+
 from probe.errors import InputError
+from probe.quantities import si_unit
 from probe.scenarios import detector, gas, numerics, path, planning
 from probe.scenarios.keys import suggest
+from probe.scenarios.units import parse_quantity
 
 #: every part of a scenario, in the order of the schema (sections in the
 #: order condensate, probe, trajectory, numerics, uncertainty, readout)
@@ -82,6 +87,36 @@ def check_key(section, key):
         raise InputError(
             f"{section}.{key}", f"unknown key; {suggest(key, SCHEMA[section])}"
             f"allowed: {', '.join(SCHEMA[section])}")
+
+
+_GOT_NUMBER = re.compile(r"got (-?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)(?= rad/s\b)?( rad/s)?"
+                         r"(?=$|[;,)]|\s)")
+
+
+def as_written(exc, raw):
+    """``exc`` (an InputError) with a bare SI number after "got" replaced by
+    the value as the scenario wrote it, its SI value and unit beside
+    (``got '-150 Hz' (-942.478 rad/s)``), when the number is the SI value of
+    the scenario's key ``exc.key``; else ``exc`` unchanged."""
+    key = KEYS.get(getattr(exc, "key", None) or "")
+    match = _GOT_NUMBER.search(getattr(exc, "message", "") or "")
+    if key is None or match is None or key.vector or key.kind in (None, "dimensionless"):
+        return exc
+    written = raw.get(key.section, {}).get(key.name)
+    if not isinstance(written, str):
+        return exc
+    number = float(match.group(1))
+    try:
+        si = parse_quantity(written, key.dotted, key.kind, dimension=raw.get(
+            "condensate", {}).get("dimension"))
+    except (InputError, ValueError):
+        return exc
+    if not math.isclose(si, number, rel_tol=1e-9, abs_tol=0.0):
+        return exc
+    unit = si_unit(key.kind, raw.get("condensate", {}).get("dimension") or 3)
+    shown = f"got {written!r} ({number:.6g} {unit})"
+    return InputError(exc.key, exc.message[:match.start()] + shown
+                      + exc.message[match.end():])
 
 
 def validate_keys(raw):

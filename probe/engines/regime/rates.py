@@ -18,7 +18,7 @@ from probe.engines.regime.limits import (GAS_PARAMETER_1D_LIMIT, GAS_PARAMETER_2
                                          GAS_PARAMETER_3D_LIMIT, PHONON_KXI_LIMIT,
                                          SPEED_OVER_C_LIMIT, TEMPERATURE_OVER_TC_LIMIT,
                                          WIDTH_OVER_XI_LIMIT)
-from probe.engines.regime.wording import fmt, grid_prefix, largest, lead
+from probe.engines.regime.wording import fmt, grid_prefix, largest, lead, temperature_text
 
 HBAR = sc.hbar
 KB = sc.k
@@ -71,16 +71,16 @@ def temperature(condensate, probe, result):
         if not T > TEMPERATURE_OVER_TC_LIMIT * tc:
             return []
         return [f"the gas is too hot for a condensate near T = 0: T = "
-                f"{fmt(T * 1e9)} nK is {fmt(T / tc)} of the ideal-gas "
-                f"T_c = {fmt(tc * 1e9)} nK (limit {TEMPERATURE_OVER_TC_LIMIT} "
+                f"{temperature_text(T)} is {fmt(T / tc)} of the ideal-gas "
+                f"T_c = {temperature_text(tc)} (limit {TEMPERATURE_OVER_TC_LIMIT} "
                 f"T_c); thermal depletion is large"]
     if not KB * T > mu:
         return []
     # Common-practice criterion in low dimensions: phase and density
     # fluctuations grow once k_B T exceeds mu.
     return [f"thermal fluctuations dominate the {condensate.dimension}D gas: k_B T = "
-            f"{fmt(KB * T / mu)} mu (T = {fmt(T * 1e9)} nK, mu/k_B = "
-            f"{fmt(mu / KB * 1e9)} nK; should be k_B T < mu)"]
+            f"{fmt(KB * T / mu)} mu (T = {temperature_text(T)}, mu/k_B = "
+            f"{temperature_text(mu / KB)}; should be k_B T < mu)"]
 
 
 def _probe_gap(probe):

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from probe.quantities import display_text
+
 
 def grid_prefix(mask):
     """'at N of M grid points' for an array mask with M > 1, else ''."""
@@ -39,6 +41,12 @@ def fmt(x):
 def micrometres(x):
     """A length (m) in um, to 4 significant digits."""
     return fmt(x * 1e6)
+
+
+def temperature_text(x):
+    """A temperature (K) to 4 significant digits, in the unit that fits it
+    (300 K as K, 20 nK as nK: ``probe.quantities.display_text``)."""
+    return display_text("temperature", x, 4)
 
 
 def range_text(x, unit_scale, unit):
