@@ -139,6 +139,25 @@ def fitting_unit(kind, value):
     return best, UNIT_SCALES[best]
 
 
+#: significant digits kept of a value computed from grid values given in
+#: decimal (a Mach number from a linspace of speeds): the float noise of the
+#: arithmetic, 1.3500000000000003 for 1.35, is below them
+GRID_DIGITS = 12
+
+
+_ROUNDED = np.frompyfunc(lambda v, spec: float(format(v, spec)), 2, 1)
+
+
+def significant(x, digits=GRID_DIGITS):
+    """``x`` (a number or array) rounded to ``digits`` significant digits;
+    0, NaN and infinities unchanged."""
+    a = np.asarray(x, float)
+    # the nearest double to the decimal of ``digits`` digits (correctly
+    # rounded by the formatting and reading of the decimal text)
+    out = np.asarray(_ROUNDED(a, f".{int(digits)}g") if a.size else a, dtype=float)
+    return out if out.ndim else float(out)
+
+
 def display_text(kind, value, digits=6):
     """An SI ``value`` of ``kind`` as printed in tables and messages: in its
     table unit (:func:`table_unit`; a temperature in the unit that fits it,
@@ -378,6 +397,6 @@ def produced_by(engine, name):
 
 __all__ = ["Quantity", "QUANTITIES", "SI_UNITS", "TABLE_UNITS", "DISPLAY_UNITS",
            "KIND_NOUNS", "ROLES", "UNIT_SCALES", "PREFIXED_KINDS", "si_unit", "table_unit",
-           "fitting_unit", "display_text", "quantity", "guarded_names",
+           "fitting_unit", "display_text", "significant", "GRID_DIGITS", "quantity", "guarded_names",
            "target_names", "kind_of", "error_names", "in_registry_order", "headline",
            "default_plotted", "shared_noun", "stationary_outputs", "produced_by"]

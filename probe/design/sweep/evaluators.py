@@ -22,7 +22,7 @@ import numpy as np
 from probe.design.sweep.keys import assign, check_numeric_key, raw_config
 from probe.engines.stationary import engine_for
 from probe.errors import InputError, ModelError
-from probe.quantities import QUANTITIES, kind_of, si_unit, stationary_outputs
+from probe.quantities import QUANTITIES, kind_of, si_unit, significant, stationary_outputs
 
 #: the gas at a point of a sweep
 GAS_COLUMNS = ("sound_speed", "healing_length", "density", "temperature")
@@ -155,7 +155,7 @@ class RatesEvaluator:
         out = np.full((n, len(cols)), np.nan)
         for name in self.grid_names(scenario):
             out[:, at[name]] = inputs[name]
-        out[:, at["mach"]] = inputs["speed"] / cond.sound_speed
+        out[:, at["mach"]] = significant(inputs["speed"] / cond.sound_speed)
         for name, value in zip(GAS_COLUMNS, _gas_values(cond)):
             out[:, at[name]] = value
         warns = [[] for _ in range(n)]
