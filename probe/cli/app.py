@@ -12,6 +12,8 @@ from importlib import import_module
 
 import click
 
+from probe.cli.usage import OneLineUsage
+
 #: command -> (module that defines it, the first paragraph of its help, from
 #: which ``probe --help`` takes the line it prints)
 COMMANDS = {
@@ -41,7 +43,7 @@ COMMANDS = {
 }
 
 
-class LazyGroup(click.Group):
+class LazyGroup(OneLineUsage, click.Group):
     """A click group whose commands are imported on demand from ``COMMANDS``
     (the module registers its commands on the group when imported)."""
 

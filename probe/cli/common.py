@@ -36,16 +36,19 @@ def input_errors():
 _CONTROL = re.compile(r"[\x00-\x1f\x7f]")
 
 
-def fail(exc):
-    key = getattr(exc, "key", None)
-    message = getattr(exc, "message", None) or str(exc)
+def refusal(key, message):
+    """The :class:`ProbeError` ``error: <key>: <message>``, on one line
+    whatever the input: control characters (a newline inside a quoted TOML
+    key, say) are shown escaped."""
     if key and not message.startswith(f"{key}:"):
         message = f"{key}: {message}"
-    # one line whatever the input: control characters (a newline inside a
-    # quoted TOML key, say) are shown escaped
-    message = _CONTROL.sub(lambda m: m.group(0).encode("unicode_escape").decode(),
-                           message)
-    raise ProbeError(message) from None
+    return ProbeError(_CONTROL.sub(lambda m: m.group(0).encode("unicode_escape").decode(),
+                                   message))
+
+
+def fail(exc):
+    raise refusal(getattr(exc, "key", None),
+                  getattr(exc, "message", None) or str(exc)) from None
 
 
 # ---------------------------------------------------------------------------
@@ -162,6 +165,44 @@ def outputs_json(result, names):
         if name not in out:
             out[name] = json_value(getattr(result, name, None))
     return out
+
+
+def jsonable(obj):
+    """``obj`` with numpy numbers and arrays as plain numbers and lists, and
+    NaN and infinities as null (JSON has no such numbers)."""
+    if isinstance(obj, dict):
+        return {str(k): jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [jsonable(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return jsonable(obj.tolist())
+    if isinstance(obj, (bool, np.bool_)):
+        return bool(obj)
+    if isinstance(obj, (int, np.integer)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        return float(obj) if math.isfinite(obj) else None
+    return obj
+
+
+def json_text(obj):
+    """The JSON text of ``obj`` (:func:`jsonable`), indented."""
+    import json
+    return json.dumps(jsonable(obj), indent=2, allow_nan=False)
+
+
+# ---------------------------------------------------------------------------
+# Options every command takes
+# ---------------------------------------------------------------------------
+def out_option(metavar, help):
+    """``-o/--out FILE`` (also spelled ``--output``): the command's output file."""
+    return click.option("-o", "--out", "--output", "out", default=None, metavar=metavar,
+                        help=help)
+
+
+def json_option(help="Print the result as JSON on stdout."):
+    """``--json``: the result as JSON on stdout."""
+    return click.option("--json", "as_json", is_flag=True, help=help)
 
 
 def write_atomic(path, text):

@@ -325,7 +325,7 @@ def _variants(raw, base, varied, wanted, given):
 
 def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=None,
             temperature=None, workers=1, scheduler=None, tolerance=TOLERANCE,
-            removals=()):
+            removals=(), progress=None):
     """Evaluate the grid for the configured model and its variants.
 
     ``models``: a list from ``COMPARISONS`` (default: all that apply; those
@@ -333,7 +333,10 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
     ``temperature`` (strings with units) supply the parameter of a variant
     that the configuration does not have.  ``removals`` ("section.key") and
     ``overrides`` ("section.key=value") edit the configuration first, as
-    ``--unset`` and ``--set``.  Returns a :class:`Comparison`.
+    ``--unset`` and ``--set``.  ``progress`` is called with the number of
+    points just finished (as by :func:`sweep`); its ``grow(n)``, when it
+    has one, is told the points of all models first.  Returns a
+    :class:`Comparison`.
     """
     from probe.scenarios.config import scenario_from_dict
 
@@ -361,8 +364,11 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
         variants.append(Variant(name, label, comp, r))
         variants[-1].plan = plan_v
     variants[0].plan = plan
+    if hasattr(progress, "grow"):
+        progress.grow(sum(v.plan.size for v in variants))
     for v in variants:
-        v.result = sweep(v.plan, (), workers=workers, scheduler=scheduler)
+        v.result = sweep(v.plan, (), workers=workers, scheduler=scheduler,
+                         progress=progress)
     cmp = Comparison(variants=variants, axes=plan.axes, shape=plan.shape,
                      tolerance=float(tolerance), notes=notes)
     cmp.statements = _statements(cmp)

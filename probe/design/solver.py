@@ -56,6 +56,9 @@ class ThresholdTable:
     dispersion: str
     temperature: float
     notes: list = field(default_factory=list)
+    #: the scenario as computed (``source``, ``scenario``: its description,
+    #: ``config``: its TOML tables), for the figure's title
+    meta: dict = field(default_factory=dict)
 
     def column(self, name):
         try:
@@ -203,7 +206,9 @@ def threshold_table(config, vary=(), log=(), overrides=(), removals=()):
                           configured={"gap": gap, "threshold_speed": float(vt0[0] * c),
                                       "speed": speed},
                           axis=axis, dispersion=cond.dispersion.name,
-                          temperature=cond.temperature, notes=notes)
+                          temperature=cond.temperature, notes=notes,
+                          meta={"source": source, "scenario": base.describe(),
+                                "config": raw})
 
 
 # ---------------------------------------------------------------------------
@@ -245,7 +250,12 @@ class Solution:
     warnings: str = ""
 
     def _text(self, value):
-        extra = format_value(column_kind(self.key), self.unit, value)
+        kind = column_kind(self.key)
+        if kind == "frequency":
+            # an ordinary frequency first, the angular one (SI) beside
+            return (f"{format_value(kind, self.unit, value, digits=7)}  "
+                    f"({value:.10g} {self.unit})")
+        extra = format_value(kind, self.unit, value)
         if self.key == "trajectory.speed":
             extra = f"{value / self.sound_speed:.6g} c_s"
         return f"{value:.10g} {self.unit}".rstrip() + f"  ({extra})"
@@ -358,14 +368,16 @@ class _Search:
     """The scan of ``key`` over [lo, hi] (``span``: the same in SI or c_s,
     a < b) and the refinement of the sign changes of ``quantity - goal``."""
 
-    def __init__(self, raw, source, key, ends, span, target, scan_points, axis):
+    def __init__(self, raw, source, key, ends, span, target, scan_points, axis,
+                 progress=None):
         self.raw, self.source, self.key = raw, source, key
+        self.progress = progress
         self.lo, self.hi = ends
         self.axis = axis
         a, b = span
         use_log = a > 0 and b / a >= 100
         self.scan = sweep(raw, [(key, self.lo, self.hi, int(scan_points))],
-                          log=(key,) if use_log else (), source=source)
+                          log=(key,) if use_log else (), source=source, progress=progress)
         self.qname, self.goal = parse_target(target, self.scan.columns, self.scan.units)
         self.qunit = self.scan.unit(self.qname)
         self.x = self.scan.axes[0].values
@@ -380,6 +392,8 @@ class _Search:
         """``quantity - goal`` at the value ``v`` of the key."""
         cols, _, row, _ = evaluate_point(self.raw, {self.key: self.text(v)},
                                          source=self.source)
+        if self.progress is not None:
+            self.progress(1)
         val = row[cols.index(self.qname)]
         if not math.isfinite(val):
             raise InputError(self.key, f"{self.qname} has no finite value at {self.text(v)}")
@@ -430,7 +444,7 @@ class _Search:
 
 
 def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINTS,
-          removals=()):
+          removals=(), progress=None):
     """The value of ``key`` (within ``bounds`` ``"LO:HI"`` with units) at
     which ``target`` (``"up_rate=50"``, ``"up_rate=50 1/s"``) is reached.
 
@@ -438,7 +452,10 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
     the first sign change of ``result - target`` is refined with
     :func:`scipy.optimize.brentq`.  Raises InputError when no value in the
     range reaches the target.  ``removals`` and ``overrides`` edit the
-    configuration first (as ``--unset`` and ``--set``)."""
+    configuration first (as ``--unset`` and ``--set``).  ``progress`` is
+    called with the number of evaluations just finished (scan points, then
+    each step of the refinement); its ``grow(n)``, when it has one, is told
+    of the expected refinement steps."""
     from probe.scenarios.config import scenario_from_dict
 
     raw, source = raw_config(config, overrides, removals=removals)
@@ -452,13 +469,18 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
         raise InputError("--range", f"LO and HI must differ, got {bounds!r}")
     if a > b:
         lo, hi, a, b = hi, lo, b, a
-    search = _Search(raw, source, key, (lo, hi), (a, b), target, scan_points, ax)
+    search = _Search(raw, source, key, (lo, hi), (a, b), target, scan_points, ax,
+                     progress)
     roots = _brackets(search.f)
     if not roots:
         raise search.not_reached(a, b)
+    if hasattr(progress, "grow"):         # Brent's method: about 12 steps a bracket
+        progress.grow(12 * sum(kind == "bracket" for kind, _ in roots) + 1)
     values = search.refine(roots)
     cols, units, row, warns = evaluate_point(raw, {key: search.text(values[0])},
                                              source=source)
+    if progress is not None:
+        progress(1)
     c = float(row[cols.index("sound_speed")])
     scale = c if ax.relative else 1.0
     return Solution(key=key, value=values[0] * scale,
