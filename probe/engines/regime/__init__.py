@@ -22,8 +22,8 @@ against the extent of the uniform gas (``Condensate.size``) and times a
 straight transit through it (``transit_summary``).
 """
 from probe.engines.regime.limits import (GAS_PARAMETER_1D_LIMIT, GAS_PARAMETER_2D_LIMIT,
-                                         GAS_PARAMETER_3D_LIMIT, MIN_GAP_PERIODS,
-                                         PHONON_KXI_LIMIT, PROBABILITY_LIMIT,
+                                         GAS_PARAMETER_3D_LIMIT, MIN_CROSSING_OVER_LEAVE,
+                                         MIN_CROSSING_PHASE, PHONON_KXI_LIMIT, PROBABILITY_LIMIT,
                                          RATE_OVER_GAP_LIMIT, SPEED_OVER_C_LIMIT,
                                          TEFF_ERROR_FACTOR, TEMPERATURE_OVER_TC_LIMIT,
                                          WIDTH_OVER_XI_LIMIT)
@@ -31,7 +31,8 @@ from probe.engines.regime.path import PATH_CHECKS, path_warnings, transit_summar
 from probe.engines.regime.rates import RATE_CHECKS, accuracy_warnings, regime_warnings
 
 __all__ = ["GAS_PARAMETER_1D_LIMIT", "GAS_PARAMETER_2D_LIMIT", "GAS_PARAMETER_3D_LIMIT",
-           "MIN_GAP_PERIODS", "PATH_CHECKS", "PHONON_KXI_LIMIT", "PROBABILITY_LIMIT",
+           "MIN_CROSSING_OVER_LEAVE", "MIN_CROSSING_PHASE", "PATH_CHECKS", "PHONON_KXI_LIMIT",
+           "PROBABILITY_LIMIT",
            "RATE_CHECKS", "RATE_OVER_GAP_LIMIT", "SPEED_OVER_C_LIMIT", "TEFF_ERROR_FACTOR",
            "TEMPERATURE_OVER_TC_LIMIT", "WIDTH_OVER_XI_LIMIT", "accuracy_warnings",
            "path_warnings", "regime_warnings", "transit_summary"]

@@ -33,10 +33,17 @@ SPEED_OVER_C_LIMIT = 10.0
 # First order for a finite transit needs the transition probability << 1;
 # 0.1 is the same common-practice cut-off as for Gamma/Omega.
 PROBABILITY_LIMIT = 0.1
-# A stationary rate describes a transit only if the transit lasts many gap
-# periods (otherwise switching the coupling on and off dominates); 10
-# periods is a common-practice minimum.
-MIN_GAP_PERIODS = 10.0
+# Rate x time estimates a straight crossing of duration t when t is long
+# against the inverse gap and against the time a phonon takes to leave the
+# probe, max(width, xi)/c_s: the switching's bandwidth ~1/t is then narrow
+# against the scales on which the probe's response changes.  Measured with
+# the transit engine for the box crossing of examples/transits (crossing
+# switching, ramps 5 % of t): at Omega t = 38 and 52, and t c/max(s, xi) =
+# 80, the probabilities agree with rate x time to 0.4 % and 1.5 %; at
+# Omega t = 11.5 the down probability is 15 % off and at t c/max(s, xi) = 5
+# they differ by a factor 100.  20 keeps the error to a few per cent.
+MIN_CROSSING_PHASE = 20.0
+MIN_CROSSING_OVER_LEAVE = 20.0
 # The effective temperature is reported only where |ln(down/up)| exceeds 4
 # times its error (probe.detectors.two_level.effective_temperature).
 TEFF_ERROR_FACTOR = 4.0

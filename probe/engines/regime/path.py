@@ -7,7 +7,8 @@ import math
 
 import numpy as np
 
-from probe.engines.regime.limits import MIN_GAP_PERIODS, PROBABILITY_LIMIT
+from probe.engines.regime.limits import (MIN_CROSSING_OVER_LEAVE, MIN_CROSSING_PHASE,
+                                         PROBABILITY_LIMIT)
 from probe.engines.regime.wording import fmt, lead, micrometres, range_text
 
 
@@ -138,17 +139,32 @@ def transit_first_order(condensate, trajectory, info):
 
 
 def short_transit(condensate, trajectory, info):
-    """A transit of few gap periods: switching matters."""
-    if info is None or info["gap_periods"] is None:
+    """Rate x time is a fair estimate of the crossing's probabilities only
+    where the crossing time t is long against the inverse gap (Omega t >=
+    MIN_CROSSING_PHASE) and against the time a phonon takes to leave the
+    probe, max(width, xi)/c_s (MIN_CROSSING_OVER_LEAVE); elsewhere the
+    switching on and off matters and the finite transit is the estimate."""
+    if info is None or info.get("leave_time") is None:
         return []
-    periods = np.asarray(info["gap_periods"], float)
-    short = periods < MIN_GAP_PERIODS
+    t = np.asarray(info["time"], float)
+    over_leave = t / info["leave_time"]
+    short = over_leave < MIN_CROSSING_OVER_LEAVE
+    parts = []
+    if info["gap_periods"] is not None:
+        phase = 2 * math.pi * np.asarray(info["gap_periods"], float)
+        short = short | (phase < MIN_CROSSING_PHASE)
+        parts.append(f"Omega t = {fmt(float(np.min(phase)))}")
     if not np.any(short):
         return []
-    return [f"{lead(short)}the transit lasts only {fmt(float(np.min(periods)))} gap "
-            f"periods (fewer than {MIN_GAP_PERIODS:g}): switching the coupling "
-            "on and off matters and rate x time is no estimate of the "
-            "transition probability; compute the finite transit instead"]
+    parts.append(f"t c_s/max(width, xi) = {fmt(float(np.min(over_leave)))}")
+    return [f"{lead(short)}rate x time is no fair estimate of this crossing's "
+            f"probabilities: it needs the crossing time t long against the inverse "
+            f"gap and the time a phonon takes to leave the probe, max(width, xi)/c_s = "
+            f"{fmt(info['leave_time'] * 1e3)} ms ({', '.join(parts)}; both should be "
+            f">= {MIN_CROSSING_PHASE:g}); for the estimate, add switching = \"crossing\" "
+            "(the coupling on while the probe is inside condensate.size) and run "
+            "'probe transit', or give a window or Gaussian switching (switching = "
+            "\"window\" or \"gaussian\") to 'probe transit'"]
 
 
 #: ``trajectory.stationary_kind`` -> the checks of the path, in the order
@@ -170,4 +186,9 @@ def path_warnings(condensate, probe, trajectory, result):
         return []
     checks = PATH_CHECKS.get(getattr(trajectory, "stationary_kind", None), ())
     info = transit_summary(condensate, trajectory, result) if checks else None
+    if info is not None:
+        # the time a phonon takes to leave the probe (its size or the
+        # healing length, crossed at the sound speed)
+        size = max(float(getattr(probe, "width", 0.0) or 0.0), condensate.healing_length)
+        info = {**info, "leave_time": size / condensate.sound_speed}
     return [s for check in checks for s in check(condensate, trajectory, info)]
