@@ -19,7 +19,6 @@ anything is written.
 from __future__ import annotations
 
 import json
-import os
 import warnings
 
 import click
@@ -27,11 +26,11 @@ import numpy as np
 
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_json
-from probe.cli.common import (fail, input_errors, json_value, num, q, quantity_text, report,
-                              write_atomic)
+from probe.cli.common import (fail, input_errors, json_option, json_value, num,
+                              out_option, q, quantity_text, report)
+from probe.cli.outputs import Outputs, scenario_inputs
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.cli.rates import rows_derived, rows_inputs
-from probe.errors import InputError
 from probe.quantities import kind_of, quantity, si_unit
 from probe.scenarios.limits import fmt_time
 
@@ -181,38 +180,26 @@ def passage_csv(scenario, result):
 # ---------------------------------------------------------------------------
 # command
 # ---------------------------------------------------------------------------
-def _check_target(path, option):
-    """InputError (key ``option``) unless ``path`` names a file in an existing
-    folder."""
-    folder = os.path.dirname(os.path.abspath(path))
-    if os.path.isdir(path):
-        raise InputError(option, f"{path} is a directory; give a file name")
-    if not os.path.isdir(folder):
-        raise InputError(option, f"folder {folder} does not exist")
-
-
-def _write(scenario, result, out, plot):
-    """Write the CSV and the figure; ``[(label, file)]`` of what was written."""
+def _write(outputs, scenario, result, out, plot):
+    """Draw the figure and write the CSV beside their targets (put in place
+    by ``outputs.commit``); ``[(label, file)]`` of what is written."""
     files = []
     if plot is not None:
         from probe.design.passage_plots import plot_passage
         from probe.scenarios.passage import cloud_of
-        plot_passage(result, cloud_of(scenario), plot, title=scenario.source)
+        plot_passage(result, cloud_of(scenario), outputs.temporary(plot, "--plot"),
+                     title=scenario.source)
         files.append(("plot file", plot))
     if out is not None:
-        try:
-            write_atomic(out, passage_csv(scenario, result))
-        except InputError as exc:
-            raise InputError("--out", exc.message) from None
+        outputs.stage_text(out, passage_csv(scenario, result), "--out")
         files.insert(0, ("samples file", out))
     return files
 
 
 @cli.command()
 @click.argument("config", metavar="CONFIG")
-@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of the table.")
-@click.option("-o", "--out", "out", default=None, metavar="FILE.csv",
-              help="Write one row per time sample to FILE.csv (whole or not at all).")
+@json_option("Print JSON instead of the table.")
+@out_option("FILE.csv", "Write one row per time sample to FILE.csv (whole or not at all).")
 @click.option("--plot", "plot", default=None, metavar="FILE",
               help="Draw the cloud with the path and the population against time "
                    "(PNG, PDF or SVG by extension).")
@@ -227,29 +214,32 @@ def passage(config, as_json, out, plot, overrides, removals):
     from probe.scenarios.passage import passage_outputs
 
     try:
-        if plot is not None:
-            from probe.design.plots import check_plot_path
-            check_plot_path(plot)
-        if out is not None:
-            _check_target(out, "--out")
-        scenario = load_config(config, overrides, removals=removals)
-        spec = planning_spec(scenario, passage_outputs(scenario.probe), rest=False)
-        with warnings.catch_warnings():
-            # overflow and division warnings of numpy at the cloud's edge (where
-            # the density and the sound speed vanish) are not for the reader
-            warnings.simplefilter("ignore", RuntimeWarning)
-            result = scenario.passage()
-            plan = None if spec is None else plan_passage(scenario, result, spec)
-        if plan is not None:
-            attach(result, plan)
-        files = _write(scenario, result, out, plot)
-        if as_json:
-            keys = [("samples_file" if "samples" in label else "plot_file", name)
-                    for label, name in files]
-            text = json.dumps(passage_json(scenario, result, keys, plan), indent=2,
-                              allow_nan=False)
-        else:
-            text = format_passage_table(scenario, result, files, plan)
+        with Outputs() as outputs:
+            if plot is not None:
+                from probe.design.plots import check_plot_path
+                check_plot_path(plot)
+            scenario = load_config(config, overrides, removals=removals)
+            outputs.add_inputs(scenario_inputs(scenario.source, scenario.raw))
+            outputs.check(out, "--out")
+            outputs.check(plot, "--plot")
+            spec = planning_spec(scenario, passage_outputs(scenario.probe), rest=False)
+            with warnings.catch_warnings():
+                # overflow and division warnings of numpy at the cloud's edge (where
+                # the density and the sound speed vanish) are not for the reader
+                warnings.simplefilter("ignore", RuntimeWarning)
+                result = scenario.passage()
+                plan = None if spec is None else plan_passage(scenario, result, spec)
+            if plan is not None:
+                attach(result, plan)
+            files = _write(outputs, scenario, result, out, plot)
+            if as_json:
+                keys = [("samples_file" if "samples" in label else "plot_file", name)
+                        for label, name in files]
+                text = json.dumps(passage_json(scenario, result, keys, plan), indent=2,
+                                  allow_nan=False)
+            else:
+                text = format_passage_table(scenario, result, files, plan)
+            outputs.commit()
     except input_errors() as exc:
         fail(exc)
     click.echo(text)
