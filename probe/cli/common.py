@@ -108,7 +108,7 @@ def quantity_text(name, value, error=None, note="", sound_speed=None, dimension=
     if qty.kind == "count":
         text = str(value)
     else:
-        unit, scale = table_unit(qty.kind, dimension)
+        unit, scale = table_unit(qty.kind, dimension, value=a)
         text = q(a, unit, scale)
         if error is not None:
             text += f"  (+/- {num(np.asarray(error, float) / scale, 2)}" \
@@ -227,6 +227,11 @@ def write_atomic(path, text):
             os.unlink(tmp)
 
 
+#: the line under a block whose values carry error estimates
+ERROR_FOOTNOTE = ("  (+/- is the numerical error of the integration only, not an "
+                  "uncertainty of the model or of its inputs)")
+
+
 def report(source, blocks, warnings):
     """The readable report of one scenario: ``== source ==``, the titled
     blocks of ``(label, text)`` rows aligned in one column, and the
@@ -236,6 +241,8 @@ def report(source, blocks, warnings):
     for title, rows in blocks:
         lines.append(title)
         lines += [f"  {label:<{width}}  {value}" for label, value in rows]
+        if any("(+/- " in value for _, value in rows):
+            lines.append(ERROR_FOOTNOTE)
     lines.append("Warnings")
     lines += [f"  - {w}" for w in warnings] if warnings else ["  (none)"]
     return "\n".join(lines)

@@ -104,12 +104,14 @@ class TwoLevelProbe(ProbeModel):
                     f"first-order perturbation theory is breaking down {where}: "
                     f"there the {name} rate exceeds {RATE_OVER_GAP_LIMIT} of the "
                     f"gap frequency; largest: the {name} rate {fmt(rv)} s^-1 is "
-                    f"{fmt(rv / gv)} of Omega = {fmt(gv)} rad/s (should be << 1)")
+                    f"{fmt(rv / gv)} of Omega, Omega/(2 pi) = {fmt(gv / (2 * math.pi))} Hz "
+                    f"({fmt(gv)} rad/s) (should be << 1)")
             else:
                 out.append(
                     f"first-order perturbation theory is breaking down: the "
                     f"{name} rate {fmt(rv)} s^-1 is {fmt(rv / gv)} of the gap "
-                    f"frequency Omega = {fmt(gv)} rad/s (should be << 1; limit "
+                    f"frequency Omega, Omega/(2 pi) = {fmt(gv / (2 * math.pi))} Hz "
+                    f"({fmt(gv)} rad/s) (should be << 1; limit "
                     f"{RATE_OVER_GAP_LIMIT})")
         return out
 
