@@ -137,3 +137,102 @@ def test_the_suggested_spelling_reads_as_intended():
         pytest.approx(1e20, rel=1e-12)
     assert parse_quantity(corrections("20 nk")[0][0], "k", "temperature") == \
         pytest.approx(2e-8, rel=1e-12)
+
+
+# ---------------------------------------------------------------------------
+# 8. one display rule for units
+# ---------------------------------------------------------------------------
+def test_temperatures_are_shown_in_the_unit_that_fits():
+    """300 K is shown as K, 20 nK as nK (the table unit follows the value);
+    the number shown times its unit is the value given."""
+    from probe.quantities import display_text, fitting_unit
+
+    assert fitting_unit("temperature", 300.0) == ("K", 1.0)
+    assert fitting_unit("temperature", 20e-9) == ("nK", 1e-9)
+    assert fitting_unit("temperature", 1.5e-6) == ("uK", 1e-6)
+    assert display_text("temperature", 300.0) == "300 K"
+    r = run(["rates", EXAMPLES / "box3d_supersonic.toml", "--set",
+             "condensate.temperature=300 K"])
+    assert r.exit_code == 0
+    assert re.search(r"^  temperature\s+300 K$", r.output, re.M), r.output
+    assert "e+11 nK" not in r.output and "T = 300 K is" in r.output
+    r = run(["rates", EXAMPLES / "box3d_supersonic.toml", "--set",
+             "condensate.temperature=20 nK"])
+    assert re.search(r"^  temperature\s+20 nK$", r.output, re.M)
+
+
+@pytest.mark.parametrize("assignment,shown", [
+    ("probe.gap=-150 Hz", "got '-150 Hz' (-942.478 rad/s)"),
+    ("condensate.density=-1e20 m^-3", "got '-1e20 m^-3' (-1e+20 m^-3)"),
+    ("condensate.temperature=-1 nK", "got '-1 nK' (-1e-09 K)"),
+    ("trajectory.speed=-1 mm/s", "got '-1 mm/s' (-0.001 m/s)"),
+])
+def test_refused_values_are_quoted_with_their_units(assignment, shown):
+    """A refused value is quoted as written, its SI value with the SI unit
+    beside (2 pi x 150 = 942.478 rad/s)."""
+    r = run(["rates", EXAMPLES / "box3d_supersonic.toml", "--set", assignment])
+    assert r.exit_code == 2
+    assert shown in r.stderr, r.stderr
+
+
+def test_mach_column_has_no_float_noise(tmp_path):
+    """The mach column of a sweep over speeds in c_s holds the grid's own
+    decimals (np.linspace(0.5, 3, 11): 0.75, 1.0, 1.25 ... to 12 significant
+    digits), not 1.3500000000000003."""
+    out = tmp_path / "s.csv"
+    r = run(["sweep", EXAMPLES / "box3d_supersonic.toml", "--vary",
+             "trajectory.speed=0.5c_s:3c_s:11", "--out", out])
+    assert r.exit_code == 0, r.output
+    rows = out.read_text().splitlines()
+    col = rows[0].split(",").index("mach [1]")
+    cells = [row.split(",")[col] for row in rows[1:]]
+    expected = [float(f"{v:.12g}") for v in np.linspace(0.5, 3.0, 11)]
+    assert [float(c) for c in cells] == expected
+    assert all(len(c) <= 14 for c in cells), cells
+
+
+def test_significant_rounds_to_the_decimal():
+    from probe.quantities import significant
+
+    assert significant(1.3500000000000003) == 1.35
+    assert significant(0.1 + 0.2) == 0.3
+    assert significant(-2.5e-30 * (1 + 1e-15)) == -2.5e-30
+    assert np.isnan(significant(np.nan)) and significant(0.0) == 0.0
+
+
+# ---------------------------------------------------------------------------
+# 10. the warning on rate x time for a straight crossing
+# ---------------------------------------------------------------------------
+CROSSING = EXAMPLES / "transits" / "box3d_crossing.toml"
+
+
+def _crossing(sets):
+    args = [a for s in sets for a in ("--set", s)]
+    rates = json.loads(run(["rates", CROSSING, "--json", *args]).output)
+    transit = json.loads(run(["transit", CROSSING, "--json", *args]).output)
+    return rates, transit
+
+
+def test_rate_times_time_is_not_called_unfair_where_the_transit_agrees():
+    """The box crossing at 2 c_s (Omega t = 52, t c_s/xi = 80): the finite
+    transit (transit engine, crossing switching) agrees with rate x time to a
+    few per cent, and no warning says otherwise."""
+    rates, transit = _crossing([])
+    est = rates["transit"]["expected_up"]
+    assert transit["up_probability"] == pytest.approx(est, rel=0.05)
+    assert transit["down_probability"] == pytest.approx(rates["transit"]["expected_down"],
+                                                        rel=0.05)
+    assert not any("no fair estimate" in w or "no estimate" in w for w in rates["warnings"])
+
+
+def test_rate_times_time_is_called_unfair_where_it_is_and_says_what_to_do():
+    """At 0.9 c_s with a 5 Hz gap (Omega t = 1.9) the up probability of the
+    transit is switching-made, ~2e-4, where rate x time gives 0: the warning
+    fires and says how to get the estimate."""
+    sets = ["trajectory.speed=0.9 c_s", "probe.gap=5 Hz"]
+    rates, transit = _crossing(sets)
+    assert rates["transit"]["expected_up"] == 0.0
+    assert transit["up_probability"] > 1e-5
+    text = next(w for w in rates["warnings"] if "no fair estimate" in w)
+    assert 'switching = "crossing"' in text and "probe transit" in text
+    assert "Omega t = 1.9" in text
