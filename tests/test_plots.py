@@ -14,8 +14,8 @@ from probe.design.compare import compare
 from probe.scenarios.config import load_config
 from probe.design.solver import threshold_table
 from probe.errors import InputError
-from probe.design.plots import (check_plot_path, plot_comparison, plot_emission_pattern,
-                         plot_emission_spectrum, plot_sweep, plot_threshold)
+from probe.design.plots import check_plot_path, plot_comparison, plot_sweep, plot_threshold
+from probe.design.transit_plots import plot_emission_pattern, plot_emission_spectrum
 from probe.design.sweep import sweep
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -59,8 +59,10 @@ def test_rates_versus_speed(tmp_path):
     xs = sorted(ln.get_xdata()[0] for ln in ax.get_lines() if len(ln.get_xdata()) == 2)
     vt = res.column("up_threshold_speed")[0] / res.column("sound_speed")[0]
     assert xs == pytest.approx([1.0, vt])
-    assert [t.get_text() for t in ax.get_legend().get_texts()] == [
-        r"up rate $\Gamma_\uparrow$", r"down rate $\Gamma_\downarrow$"]
+    texts = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert texts[:2] == [r"up rate $\Gamma_\uparrow$", r"down rate $\Gamma_\downarrow$"]
+    assert "sound speed $c_s$" in texts
+    assert any(t.startswith(r"threshold $v_\mathrm{th}$ = 1.434 $c_s$") for t in texts)
 
 
 def test_speed_axis_in_m_per_s_gets_a_c_s_axis_and_log_scale(tmp_path):
@@ -100,7 +102,7 @@ def test_comparison_and_threshold(tmp_path):
     fig = plot_comparison(cmp, tmp_path / "c.png")
     assert_picture(tmp_path / "c.png")
     styles = {str(ln.get_linestyle()) for ln in fig.axes[0].get_lines()
-              if len(ln.get_xdata()) > 2}
+              if len(ln.get_xdata()) > 2 and ln.get_linestyle() != "None"}
     assert len(styles) == 3                             # one line style per model
     fig = plot_threshold(threshold_table(BOX), tmp_path / "t.png")
     assert_picture(tmp_path / "t.png")

@@ -11,7 +11,7 @@ The direction histogram uses 120 bins in cos(theta).
 from _where import output, scenario
 
 from probe.scenarios.config import load_config
-from probe.design.plots import plot_emission_pattern
+from probe.design.transit_plots import plot_emission_pattern
 from probe.engines.transit import transit_probabilities
 
 
@@ -25,7 +25,8 @@ def main(argv=None):
     res = transit_probabilities(sc_.condensate, sc_.probe, sc_.trajectory, sc_.switching,
                                 rtol=sc_.transit_rtol, spectrum=True, spectrum_bins=120)
     path = output("emission_pattern.png", argv)
-    plot_emission_pattern(res, path, speed=sc_.trajectory.stationary_parameters()["speed"])
+    plot_emission_pattern(res, path, speed=sc_.trajectory.stationary_parameters()["speed"],
+                          scenario=sc_)
     print(path)
     return path
 

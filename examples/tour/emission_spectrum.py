@@ -10,13 +10,14 @@ The same numbers: probe transit examples/cross3d_gaussian.toml --spectrum ...
 from _where import output, scenario
 
 from probe.scenarios.config import load_config
-from probe.design.plots import plot_emission_spectrum
+from probe.design.transit_plots import plot_emission_spectrum
 
 
 def main(argv=None):
-    res = load_config(scenario("cross3d_gaussian")).transit(spectrum=True)
+    sc_ = load_config(scenario("cross3d_gaussian"))
+    res = sc_.transit(spectrum=True)
     path = output("emission_spectrum.png", argv)
-    plot_emission_spectrum(res, path)
+    plot_emission_spectrum(res, path, scenario=sc_)
     print(path)
     return path
 

@@ -307,9 +307,12 @@ def write_spectrum(path, scenario, result):
 @click.option("--spectrum", "spectrum", metavar="FILE.csv", default=None,
               help="Write the emitted-phonon distribution over k to FILE.csv and over "
                    "directions to FILE.directions.csv (one CONFIG only).")
+@click.option("--plot", "plot", metavar="FILE", default=None,
+              help="Draw the emitted-phonon spectrum and directions (PNG, PDF or SVG; "
+                   "one CONFIG only).")
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
 @click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)
-def transit(configs, as_json, spectrum, overrides, removals):
+def transit(configs, as_json, spectrum, plot, overrides, removals):
     """First-order transition probabilities of finite transits: a spline path
     through waypoints, or a linear or circular path with a switching function."""
     from probe.design.planning import plan_transit, planning_spec
@@ -326,9 +329,12 @@ def transit(configs, as_json, spectrum, overrides, removals):
         scenarios = [load_config(path, overrides, removals=removals) for path in configs]
         for scenario in scenarios:
             check_transit(scenario)
+        if plot is not None:
+            from probe.design.transit_plots import check_transit_plot_request
+            check_transit_plot_request(plot, scenarios)
         specs = [planning_spec(s) for s in scenarios]
         for scenario, spec in zip(scenarios, specs):
-            result = scenario.transit(spectrum=spectrum is not None)
+            result = scenario.transit(spectrum=spectrum is not None or plot is not None)
             info = describe(scenario)
             plan = None if spec is None else plan_transit(scenario, result, spec)
             if plan is not None:
@@ -336,6 +342,9 @@ def transit(configs, as_json, spectrum, overrides, removals):
             files = ()
             if spectrum is not None:
                 files = write_spectrum(spectrum, scenario, result)
+            if plot is not None:
+                from probe.design.transit_plots import plot_transit
+                plot_transit(scenario, result, plot)
             done.append((scenario, result, info, _extras(scenario, result, info), files,
                          plan))
     except errors as exc:
@@ -346,3 +355,5 @@ def transit(configs, as_json, spectrum, overrides, removals):
                               allow_nan=False))
     else:
         click.echo("\n\n".join(format_transit_table(*item) for item in done))
+        if plot is not None:
+            click.echo(f"wrote {plot}")

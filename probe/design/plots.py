@@ -2,15 +2,28 @@
 
 Figures are drawn on matplotlib's Agg canvas (``matplotlib.figure.Figure``
 with ``FigureCanvasAgg``), so nothing here touches the interactive backend
-of a notebook or a desktop session.  The format follows the file name:
-``.png``, ``.pdf`` or ``.svg``; files appear whole (written beside the
-target and renamed).
+of a notebook or a desktop session; matplotlib is imported only inside the
+drawing functions.  The format follows the file name: ``.png`` (at
+``DPI`` dots per inch), ``.pdf`` or ``.svg``; files appear whole (written
+beside the target and renamed).
 
-Every curve has its own line style and marker as well as its own colour, 2D
-maps use a colour map whose lightness rises monotonically (viridis) with
-labelled black contour lines, so the pictures stay readable when printed in
-black and white.  Axes carry the quantity and its unit; a log scale is used
-where positive values span more than two decades.
+Every figure says what it shows as computed: its title names the scenario
+file, the gas, the probe and the motion (and a transit's switching) from the
+validated scenario, with the ``--set``/``--unset`` edits of the file on a
+caption line (:func:`scenario_caption`).  Points that carry validity
+warnings are drawn with open markers over a hatched band (maps: dotted
+cells), and the legend says at how many points and what the warnings are;
+points a log axis cannot show (zeros, values below its floor) are counted in
+the legend.
+
+Every curve has its own line style and marker as well as its own colour;
+2D maps use a colour map whose lightness rises monotonically (viridis),
+with colour steps at values that split the grid's points into about equal
+groups (so a map whose values bunch in one part of their range still shows
+their structure there), and labelled black contour lines, so the pictures
+stay readable when printed in black and white.  Axes carry the quantity and
+its unit; a log scale is used where positive values span more than two
+decades.
 
 Python use::
 
@@ -24,16 +37,21 @@ from __future__ import annotations
 
 import math
 import os
+import re
+import textwrap
 from pathlib import Path
 
 import numpy as np
 
 from probe.errors import InputError
-from probe.design.sweep import column_kind, display_unit
+from probe.design.sweep import column_kind, display_unit, format_value
+from probe.design.sweep.runners import WARNING_SEPARATOR
 from probe.quantities import QUANTITIES, default_plotted, shared_noun
 from probe.scenarios.schema import KEY_LABELS
 
 SUFFIXES = (".png", ".pdf", ".svg")
+#: resolution of PNG files (dots per inch)
+DPI = 100
 
 #: (line style, marker) pairs, in order of use
 STYLES = [("-", "o"), ("--", "s"), (":", "^"), ("-.", "D"),
@@ -41,6 +59,11 @@ STYLES = [("-", "o"), ("--", "s"), (":", "^"), ("-.", "D"),
 #: Okabe-Ito colours (distinguishable with colour-vision deficiencies)
 COLOURS = ["#000000", "#D55E00", "#0072B2", "#009E73", "#CC79A7", "#E69F00", "#56B4E9"]
 HATCHES = ["///", "\\\\\\", "xxx", "...", "|||"]
+#: the hatch of the band (maps: the cells) of points with validity warnings
+WARNING_HATCH = "xx"
+WARNING_CELL_HATCH = "..."
+#: colours of that band (light: the curves stay in front)
+BAND_FACE, BAND_EDGE = "#FFF8EA", "#E8CF9A"
 #: values below this fraction of the largest are not shown on log scales
 LOG_FLOOR = 1e-12
 
@@ -54,7 +77,6 @@ def pretty_unit(unit):
     """A unit string for an axis label (``m^-3`` -> ``m$^{-3}$``)."""
     if unit in _PRETTY:
         return _PRETTY[unit]
-    import re
     return re.sub(r"\^(-?\d+)", r"$^{\1}$", unit)
 
 
@@ -88,10 +110,12 @@ def check_quantity(columns, quantity):
 
 
 def _figure(size=(6.4, 4.6)):
+    import matplotlib
+    matplotlib.use("Agg", force=False)
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=size, dpi=150, layout="constrained")
+    fig = Figure(figsize=size, dpi=DPI, layout="constrained")
     FigureCanvasAgg(fig)
     return fig
 
@@ -101,7 +125,7 @@ def save(fig, path):
     p = check_plot_path(path)
     tmp = p.with_name(f".{p.stem}.{os.getpid()}.tmp{p.suffix}")
     try:
-        fig.savefig(tmp, format=p.suffix[1:].lower())
+        fig.savefig(tmp, format=p.suffix[1:].lower(), dpi=DPI)
         os.replace(tmp, p)
     except OSError as exc:
         tmp.unlink(missing_ok=True)
@@ -113,8 +137,7 @@ def save(fig, path):
 def _style(k):
     ls, marker = STYLES[k % len(STYLES)]
     return dict(linestyle=ls, marker=marker, color=COLOURS[k % len(COLOURS)],
-                markerfacecolor="white" if k % 2 else COLOURS[k % len(COLOURS)],
-                markersize=4.5, linewidth=1.5)
+                markerfacecolor=COLOURS[k % len(COLOURS)], markersize=4.5, linewidth=1.5)
 
 
 def _spans_decades(*arrays):
@@ -126,22 +149,282 @@ def _spans_decades(*arrays):
     return neg.size == 0 and pos.max() / pos.min() > 100
 
 
-def _title(result_meta, extra=""):
-    src = result_meta.get("source") if result_meta else None
-    sc_ = (result_meta or {}).get("scenario", {})
+# ---------------------------------------------------------------------------
+# what a figure shows: the scenario as computed
+# ---------------------------------------------------------------------------
+#: the switching's keys as a caption names them
+_SWITCHING_WORDS = (("switching_width", "τ = {}"), ("switching_centre", "centred at {}"),
+                    ("start", "from {}"), ("stop", "to {}"), ("ramp", "ramp {}"))
+#: probe keys whose variation leaves the configured gap standing
+_GAP_KEEPERS = ("probe.width", "probe.tweezer_frequency", "probe.coupling",
+                "probe.coupling_length")
+#: characters per caption line
+CAPTION_WIDTH = 96
+
+
+def _flat(table, prefix=""):
+    """A TOML table as {dotted key: value} (waypoint tables kept whole)."""
+    out = {}
+    for key, value in table.items():
+        if isinstance(value, dict) and key != "waypoints":
+            out.update(_flat(value, f"{prefix}{key}."))
+        else:
+            out[f"{prefix}{key}"] = value
+    return out
+
+
+def _value_text(value):
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(_value_text(v) for v in value) + "]"
+    return str(value)
+
+
+def scenario_edits(source, raw):
+    """What ``raw`` (a scenario's TOML tables as computed) changes in the
+    file ``source``: ``key=value`` for every entry set or changed,
+    ``unset key`` for every entry removed; empty when the file cannot be
+    read (a scenario given as a dict)."""
+    if not source or not raw:
+        return []
+    import tomllib
+    try:
+        with open(source, "rb") as fh:
+            original = tomllib.load(fh)
+    except (OSError, ValueError):
+        return []
+    before, after = _flat(original), _flat(raw)
+    out = [f"{k}={_value_text(v)}" for k, v in after.items()
+           if k not in before or before[k] != v]
+    return out + [f"unset {k}" for k in before if k not in after]
+
+
+def _micro(text):
+    return re.sub(r"(?<![A-Za-z])um(?![A-Za-z])", "µm", str(text))
+
+
+def _temperature_text(temperature):
+    return "T = 0" if not temperature else \
+        f"T = {format_value('temperature', 'K', temperature)}"
+
+
+def _gas_words(gas, varied):
+    words = [f"{gas['dimension']}D {gas.get('species') or ''}".strip() + " gas"]
+    trap = gas.get("trap")
+    if trap:
+        words[0] += f" in a {trap['kind']} trap"
+    if "condensate.dispersion" not in varied:
+        words.append(f"{gas['dispersion']} dispersion")
+    if "condensate.temperature" not in varied:
+        words.append(_temperature_text(gas.get("temperature") or 0.0))
+    return words
+
+
+def _probe_words(probe, varied):
+    inner = []
+    gap = probe.get("gap")
+    if gap is not None and not any(k.startswith("probe.") and k not in _GAP_KEEPERS
+                                   for k in varied):
+        inner.append(f"gap {format_value('frequency', 'rad/s', gap)}")
+    if not {"probe.width", "probe.tweezer_frequency"} & set(varied):
+        width = probe.get("width") or 0.0
+        inner.append("point-like" if width == 0 else
+                     f"width {_micro(format_value('length', 'm', width))}")
+    return f"{probe['model']} probe" + (f" ({', '.join(inner)})" if inner else "")
+
+
+def _motion_words(scenario, raw_path, varied):
+    path = scenario.get("trajectory", {})
+    c = scenario.get("derived", {}).get("sound_speed")
+    text = f"{path.get('kind', '?')} path"
+    radius = raw_path.get("radius", path.get("radius"))
+    if radius is not None and "trajectory.radius" not in varied:
+        text += f", R = {_micro(radius) if isinstance(radius, str) else format_value('length', 'm', radius)}"
+    speed = raw_path.get("speed", path.get("speed"))
+    if speed is not None and not {"trajectory.speed", "trajectory.angular_frequency"} \
+            & set(varied):
+        text += f" at {speed}" if isinstance(speed, str) else \
+            f" at {speed / c:.4g} c_s" if c else ""
+    return text
+
+
+def switching_words(raw_path, varied=()):
+    """The switching of a transit from its TOML table (``gaussian
+    switching, τ = 2 ms``), or None without one."""
+    name = raw_path.get("switching")
+    if name is None:
+        return None
+    words = [template.format(_micro(raw_path[key])) for key, template in _SWITCHING_WORDS
+             if isinstance(raw_path.get(key), str) and f"trajectory.{key}" not in varied]
+    return f"{name} switching" + (f", {', '.join(words)}" if words else "")
+
+
+def scenario_caption(scenario, raw=None, varied=(), extra=None, switching=None):
+    """The lines that say which scenario a figure shows, as computed: the
+    file and the gas; the probe, the path and (a transit) the switching;
+    the edits of the file (``--set``/``--unset``).  ``scenario``: the dict
+    of ``Scenario.describe()`` (with ``source``); ``raw``: the TOML tables
+    as computed; ``varied``: keys on the figure's axes (their configured
+    values are not stated); ``extra``: what the figure is (first words);
+    ``switching``: the switching in words (default: from ``raw``)."""
+    raw = raw or {}
+    source = scenario.get("source")
+    first = ", ".join(_gas_words(scenario["condensate"], varied))
+    if source:
+        first = f"{os.path.basename(source)}: {first}"
+    if extra:
+        first = f"{extra} — {first}"
+    second = [_probe_words(scenario["probe"], varied),
+              _motion_words(scenario, raw.get("trajectory", {}), varied)]
+    sw = switching or switching_words(raw.get("trajectory", {}), varied)
+    if sw:
+        second.append(sw)
+    lines = [first, "; ".join(second)]
+    edits = scenario_edits(source, raw)
+    if edits:
+        lines += textwrap.wrap("as computed with " + ", ".join(
+            f"--{e}" if e.startswith("unset ") else f"--set {e}" for e in edits),
+            CAPTION_WIDTH, break_on_hyphens=False)
+    return lines
+
+
+def _title(meta, extra=None, varied=(), more=()):
+    """The title lines of a figure of a sweep's ``meta`` (sidecar record)."""
+    meta = meta or {}
+    scenario = dict(meta.get("scenario") or {})
+    if not scenario:
+        text = os.path.basename(meta.get("source") or "")
+        return [t for t in (extra, text) if t] + list(more)
+    scenario.setdefault("source", meta.get("source"))
+    return scenario_caption(scenario, meta.get("config"), varied, extra) + list(more)
+
+
+def set_title(fig, lines, size=9):
+    """The figure's title: the first line larger, the others (what it was
+    computed with) smaller."""
+    width = int(fig.get_figwidth() * 130 / size)
+    lines = [part for ln in lines if ln
+             for part in textwrap.wrap(ln, width, break_on_hyphens=False)]
+    if not lines:
+        return
+    fig.suptitle("\n".join(lines), fontsize=size, linespacing=1.35)
+
+
+# ---------------------------------------------------------------------------
+# validity warnings of the points
+# ---------------------------------------------------------------------------
+#: characters of a warning kept as its kind in a legend
+KIND_CHARACTERS = 90
+
+
+def warning_kind(sentence):
+    """The kind of a warning: its words up to the first colon, semicolon or
+    parenthesis (``first-order perturbation theory is breaking down``)."""
+    kind = re.split(r"[:;(]", sentence, maxsplit=1)[0].strip()
+    return kind if len(kind) <= KIND_CHARACTERS else \
+        kind[:KIND_CHARACTERS].rsplit(" ", 1)[0] + " …"
+
+
+def validity_flags(warnings):
+    """``(flags, kinds)``: for every point, whether it carries a validity
+    warning (a point without a result is not counted here: it has no value
+    to mistrust), and {kind: number of points} in order of appearance."""
+    flags = np.zeros(len(warnings), bool)
+    kinds = {}
+    for i, text in enumerate(warnings):
+        seen = set()
+        for part in str(text or "").split(WARNING_SEPARATOR.strip()):
+            part = part.strip()
+            if not part or part.startswith("no result"):
+                continue
+            flags[i] = True
+            seen.add(warning_kind(part))
+        for kind in sorted(seen):
+            kinds[kind] = kinds.get(kind, 0) + 1
+    return flags, kinds
+
+
+def warning_label(flags, kinds, width=84):
+    """The legend text of the marked points: how many, and why."""
+    what = "; ".join(f"{k} ({n})" if len(kinds) > 1 else k for k, n in kinds.items())
+    return textwrap.fill(f"validity warning at {int(flags.sum())} of {flags.size} points: "
+                         f"{what}", width)
+
+
+def _warning_band(ax, x, flags):
+    """A hatched band behind the x ranges of the flagged points; returns
+    its legend handle (None when no point is flagged)."""
+    from matplotlib.patches import Patch
+
+    if not flags.any():
+        return None
+    for lo, hi in _runs(x, flags):
+        if hi == lo:
+            span = 0.004 * (np.nanmax(x) - np.nanmin(x) or 1.0)
+            lo, hi = lo - span, hi + span
+        ax.axvspan(lo, hi, facecolor=BAND_FACE, edgecolor=BAND_EDGE, hatch=WARNING_HATCH,
+                   linewidth=0, zorder=0)
+    return Patch(facecolor=BAND_FACE, edgecolor=BAND_EDGE, hatch=WARNING_HATCH, linewidth=0)
+
+
+def _open_markers(ax, x, y, flags, k):
+    """The flagged points of curve ``k`` as open markers."""
+    st = _style(k)
+    keep = flags & np.isfinite(y)
+    if keep.any():
+        ax.plot(x[keep], y[keep], linestyle="none", marker=st["marker"],
+                markersize=5.5, markerfacecolor="white", markeredgecolor=st["color"],
+                markeredgewidth=1.2, zorder=4)
+
+
+def _warning_handle(band):
+    """The legend handle of the marked points: the band with an open
+    marker on it."""
+    from matplotlib.lines import Line2D
+
+    marker = Line2D([], [], linestyle="none", marker="o", markersize=5.5,
+                    markerfacecolor="white", markeredgecolor="black")
+    return (band, marker) if band is not None else marker
+
+
+#: characters per line of a legend entry
+LEGEND_WIDTH = 84
+
+
+def _legend(fig, handles, labels, ncols=2, title=None):
+    """The legend below the axes (it never hides a curve)."""
+    from matplotlib.legend_handler import HandlerTuple
+
+    labels = [textwrap.fill(lb, LEGEND_WIDTH) if "\n" not in lb else lb for lb in labels]
+    if ncols > 1 and any(len(line) > fig.get_figwidth() * 6 for lb in labels
+                         for line in lb.splitlines()):
+        ncols = 1
+    fig.legend(handles, labels, loc="outside lower center", ncols=ncols, fontsize=8,
+               frameon=False, title=title, title_fontsize=8,
+               handler_map={tuple: HandlerTuple(ndivide=1)})
+
+
+def hidden_text(y, log, bottom=None, points="points"):
+    """What a curve cannot show: no result anywhere, zeros (or values
+    below ``bottom``, the axis's floor) off a log axis; '' when every point
+    is drawn.  ``points``: what the values are counted as."""
+    y = np.asarray(y, float)
+    finite = np.isfinite(y)
+    if not finite.any():
+        return "no result at any point"
+    if not log:
+        return ""
+    zero = finite & (y <= 0)
+    low = finite & (y > 0) & (y < (bottom if bottom is not None else 0))
+    if not (zero | low).any():
+        return ""
+    if not (finite & ~zero & ~low).any():
+        return f"not drawn: 0 at all {int(finite.sum())} {points} with a result"
     parts = []
-    if sc_:
-        gas = sc_.get("condensate", {})
-        prb = sc_.get("probe", {})
-        traj = sc_.get("trajectory", {})
-        parts.append(f"{gas.get('dimension')}D {gas.get('species') or ''} gas".replace("  ", " "))
-        parts.append(f"{prb.get('model')} probe")
-        parts.append(f"{traj.get('kind')} motion")
-    head = os.path.basename(src) if src else ""
-    text = ", ".join(parts)
-    if head:
-        text = f"{head}: {text}" if text else head
-    return (text + (f" — {extra}" if extra else "")).strip()
+    if zero.any():
+        parts.append(f"0 at {int(zero.sum())} of {y.size} {points}")
+    if low.any():
+        parts.append(f"{int(low.sum())} {points} below {bottom:.2g}")
+    return ", ".join(parts) + " (off the log axis)"
 
 
 # ---------------------------------------------------------------------------
@@ -218,6 +501,8 @@ def _no_result_strip(ax, x, bad, label, hatch, level, colour="0.3"):
 
 
 def _log_limits(ax, arrays):
+    """Log y limits over the positive values (at most LOG_FLOOR below the
+    largest); returns the bottom of what is shown (None: nothing positive)."""
     vals = np.concatenate([np.asarray(a, float).ravel() for a in arrays])
     pos = vals[np.isfinite(vals) & (vals > 0)]
     if pos.size == 0:
@@ -225,7 +510,7 @@ def _log_limits(ax, arrays):
     top = pos.max()
     bottom = max(pos.min(), top * LOG_FLOOR)
     ax.set_ylim(bottom / 2, top * 3)
-    return bottom > pos.min()
+    return bottom
 
 
 def _nice_log_ticks(ax):
@@ -241,26 +526,26 @@ def _nice_log_ticks(ax):
         axis.set_minor_formatter(mticker.NullFormatter())
 
 
-def _mark_speed(ax, x_is_cs, factor, sound_speed, threshold, vertical=True, text=True):
-    """Sound speed (and threshold) as labelled lines on a speed axis."""
+def _mark_speed(ax, x_cs, factor, sound_speed, threshold, whose=""):
+    """Sound speed and threshold as vertical lines on a speed axis, named
+    in the legend (one line where they coincide, as for the phonon
+    dispersion); ``whose``: whose threshold it is (a comparison's)."""
+    c_pos = 1.0 if x_cs else sound_speed * factor
     marks = []
-    if sound_speed is not None:
-        pos = 1.0 if x_is_cs else sound_speed * factor
-        marks.append((pos, "$c_s$", (0, (4, 2)), "0.25"))
-    if threshold is not None:
-        pos = threshold / sound_speed if x_is_cs else threshold * factor
-        marks.append((pos, r"$v_\mathrm{th}$", (0, (1, 1.5)), "0.1"))
-    for pos, lab, ls, col in marks:
-        if vertical:
-            ax.axvline(pos, linestyle=ls, color=col, linewidth=1.2, zorder=1)
-            if text:
-                ax.annotate(lab, xy=(pos, 0.0), xycoords=("data", "axes fraction"),
-                            xytext=(3, 4), textcoords="offset points", fontsize=10,
-                            zorder=6, bbox=dict(boxstyle="square,pad=0.1",
-                                                facecolor="white", edgecolor="none",
-                                                alpha=0.8))
+    if threshold is not None and math.isfinite(threshold):
+        t_pos = threshold / sound_speed if x_cs else threshold * factor
+        mach = threshold / sound_speed
+        if math.isclose(t_pos, c_pos, rel_tol=1e-9):
+            marks.append((c_pos, r"sound speed $c_s$ = threshold $v_\mathrm{th}$" + whose,
+                          (0, (4, 2)), "0.25"))
         else:
-            ax.axhline(pos, linestyle=ls, color=col, linewidth=1.2, zorder=1)
+            marks.append((c_pos, "sound speed $c_s$", (0, (4, 2)), "0.25"))
+            marks.append((t_pos, r"threshold $v_\mathrm{th}$" + f" = {mach:.4g} $c_s$"
+                          + whose, (0, (1, 1.5)), "0.1"))
+    else:
+        marks.append((c_pos, "sound speed $c_s$", (0, (4, 2)), "0.25"))
+    for pos, lab, ls, col in marks:
+        ax.axvline(pos, linestyle=ls, color=col, linewidth=1.2, zorder=1, label=lab)
     return marks
 
 
@@ -292,7 +577,9 @@ def plot_sweep(result, path=None, quantity=None):
 
 def plot_lines(result, path=None, quantities=None):
     """Quantities versus the swept key, with the sound speed and threshold
-    marked on a speed axis and hatched ranges where there is no result."""
+    marked on a speed axis, hatched ranges where there is no result, and
+    the points with validity warnings marked (open markers on a hatched
+    band)."""
     if len(result.axes) != 1:
         raise InputError("--plot", "curves need a 1D grid")
     quantities = quantities or default_plotted(result.columns)
@@ -300,58 +587,97 @@ def plot_lines(result, path=None, quantities=None):
         check_quantity(result.columns, q)
     ax_ = result.axes[0]
     x, xlabel, factor, x_cs = _coords(result, ax_)
-    fig = _figure()
+    fig = _figure((6.4, 5.4))
     ax = fig.add_subplot()
-    ys = [result.column(q) for q in quantities]
-    units = {result.unit(q) for q in quantities}
-    unit = units.pop() if len(units) == 1 else None
-    shown_unit = unit
-    yfac = 1.0
-    if unit is not None:
-        yfac, shown_unit = display_unit(column_kind(quantities[0]), unit,
-                                        np.concatenate(ys))
-    every = max(1, x.size // 14)
+    ys, yfac, ylabel = _shared_y(result, quantities)
+    flags, kinds = validity_flags(result.warnings)
     order = np.argsort(x)
-    shaded = []
+    every = max(1, x.size // 14)
+    lines, shaded = [], []
     for k, (q, y) in enumerate(zip(quantities, ys)):
-        ax.plot(x[order], (y * yfac)[order], label=QUANTITY_LABELS.get(q, q),
-                markevery=every, **_style(k))
+        lines.append(_curve(ax, x, y * yfac, order, flags, k, every,
+                            QUANTITY_LABELS.get(q, q)))
         shaded += _bands(ax, result, q, x[order], order, yfac, _style(k)["color"], k == 0)
-    ys += shaded
-    log_y = _spans_decades(*ys)
-    clipped = False
-    if log_y:
+    bottom = None
+    if _spans_decades(*ys, *shaded):
         ax.set_yscale("log")
-        clipped = _log_limits(ax, [y * yfac for y in ys])
+        bottom = _log_limits(ax, [y * yfac for y in ys + shaded])
+    for line, y in zip(lines, ys):
+        note = hidden_text(y * yfac, ax.get_yscale() == "log", bottom)
+        if note:
+            line.set_label(f"{line.get_label()}: {note}")
     if ax_.log:
         ax.set_xscale("log")
     ax.set_xlabel(xlabel)
-    if len(quantities) == 1:
-        ax.set_ylabel(axis_label(quantities[0], shown_unit))
-    else:
-        noun = shared_noun(quantities) if unit is not None else None
-        unit_text = f"[{pretty_unit(shown_unit)}]" if shown_unit else ""
-        ax.set_ylabel(" ".join(t for t in (noun, unit_text) if t) or "value")
+    ax.set_ylabel(ylabel)
+    band = _warning_band(ax, x, flags)
     bad = np.array([w.startswith("no result") for w in result.warnings])
     _no_result_strip(ax, x, bad, "no result", HATCHES[0], 0)
-    if ax_.kind == "speed":
-        c = _constant(result.column("sound_speed"))
-        vt = _constant(result.column("up_threshold_speed")) if \
-            "up_threshold_speed" in result.columns else None
-        if c is not None:
-            _mark_speed(ax, x_cs, factor, c, vt)
-            _second_speed_axis(ax, x_cs, factor, c)
+    _speed_lines(ax, result, ax_, x_cs, factor)
     ax.grid(True, which="major", color="0.85", linewidth=0.6)
     _nice_log_ticks(ax)
-    ax.legend(loc="best", fontsize=9, framealpha=0.9)
-    note = f"values below {LOG_FLOOR:.0e} of the largest not shown" if clipped else ""
-    if note:
-        ax.annotate(note, xy=(0.01, 0.01), xycoords="axes fraction", fontsize=7,
-                    color="0.3")
-    fig.suptitle(_title(result.meta), fontsize=10)
+    handles, labels = ax.get_legend_handles_labels()
+    if flags.any():
+        handles.append(_warning_handle(band))
+        labels.append(warning_label(flags, kinds))
+    _legend(fig, handles, labels)
+    set_title(fig, _title(result.meta, varied=[a.key for a in result.axes],
+                          more=_band_caption(result, shaded)))
     if path is not None:
         save(fig, path)
     return fig
+
+
+def _shared_y(result, quantities):
+    """(SI columns, display factor, y label) of the plotted quantities."""
+    ys = [result.column(q) for q in quantities]
+    units = {result.unit(q) for q in quantities}
+    unit = units.pop() if len(units) == 1 else None
+    shown_unit, yfac = unit, 1.0
+    if unit is not None:
+        yfac, shown_unit = display_unit(column_kind(quantities[0]), unit, np.concatenate(ys))
+    if len(quantities) == 1:
+        return ys, yfac, axis_label(quantities[0], shown_unit)
+    noun = shared_noun(quantities) if unit is not None else None
+    unit_text = f"[{pretty_unit(shown_unit)}]" if shown_unit else ""
+    return ys, yfac, " ".join(t for t in (noun, unit_text) if t) or "value"
+
+
+def _curve(ax, x, y, order, flags, k, every, label):
+    """One curve: filled markers at (every ``every``-th of) the points
+    without warnings, open markers at the points with one."""
+    st = _style(k)
+    clean = np.flatnonzero(~flags[order])
+    line, = ax.plot(x[order], y[order], label=label,
+                    markevery=list(clean[::every]) if clean.size else [], **st)
+    _open_markers(ax, x, y, flags, k)
+    return line
+
+
+def _speed_lines(ax, owner, axis, x_cs, factor, whose=""):
+    """Sound speed and threshold (of ``owner``, a sweep result) on a speed
+    axis, and the second speed axis on top."""
+    if axis.kind != "speed":
+        return
+    c = _constant(owner.column("sound_speed"))
+    if c is None:
+        return
+    vt = _constant(owner.column("up_threshold_speed")) if \
+        "up_threshold_speed" in owner.columns else None
+    _mark_speed(ax, x_cs, factor, c, vt, whose)
+    _second_speed_axis(ax, x_cs, factor, c)
+
+
+def _band_caption(result, shaded):
+    """The caption line of the uncertainty bands: the uncertain inputs."""
+    if not shaded:
+        return []
+    table = dict((result.config or {}).get("uncertainty") or {})
+    samples = table.pop("samples", None)
+    table.pop("seed", None)
+    inputs = ", ".join(f"{k} ± {_micro(v)}" for k, v in table.items())
+    text = f"bands: {inputs}" + (f" ({samples} samples)" if samples else "")
+    return textwrap.wrap(text, CAPTION_WIDTH)
 
 
 #: the band columns of a sweep of uncertain inputs (``probe.design.sweep.planning``)
@@ -427,7 +753,7 @@ def _cell_edges(values, log):
     return np.exp(e) if log else e
 
 
-def _hatch_cells(ax, xe, ye, bad, hatch):
+def _hatch_cells(ax, xe, ye, bad, hatch, filled=True):
     """Hatch the cells flagged in ``bad`` (shape (len(xe)-1, len(ye)-1)),
     merged into runs along x for each row of y."""
     from matplotlib.collections import PatchCollection
@@ -445,23 +771,54 @@ def _hatch_cells(ax, xe, ye, bad, hatch):
                 k += 1
             patches.append(Rectangle((xe[i], ye[j]), xe[k + 1] - xe[i], ye[j + 1] - ye[j]))
             i = k + 1
-    ax.add_collection(PatchCollection(patches, facecolor="white", edgecolor="0.2",
+    ax.add_collection(PatchCollection(patches, facecolor="white" if filled else "none",
+                                      edgecolor="0.2" if filled else "0.15",
                                       hatch=hatch, linewidth=0, zorder=2))
 
 
-def _map_norm(z):
-    """(norm, masked z, clipped): the colour scale of a map (logarithmic
-    where positive values span decades; fixed around a value that is the
-    same everywhere), and whether small values fall below it."""
+#: colour steps of a map whose values span decades
+MAP_STEPS = 10
+#: mantissas of the values at which the colour of a map steps
+_NICE = (1.0, 1.5, 2.0, 3.0, 5.0, 7.0)
+
+
+def _nice(value, how):
+    """The 1-1.5-2-3-5-7 number at or below (``floor``), at or above
+    (``ceil``) or nearest to (``round``, in ratio) ``value`` > 0."""
+    e = math.floor(math.log10(value))
+    cands = [m * 10.0 ** k for k in (e - 1, e, e + 1) for m in _NICE]
+    if how == "floor":
+        return max(c for c in cands if c <= value * (1 + 1e-12))
+    if how == "ceil":
+        return min(c for c in cands if c >= value * (1 - 1e-12))
+    return min(cands, key=lambda c: abs(math.log(c / value)))
+
+
+def quantile_levels(z, steps=MAP_STEPS):
+    """Levels at rounded quantiles of the positive values of ``z`` (taken
+    in log): each colour step of a map holds about as many points as the
+    next, wherever in their range the values bunch; the first level is at
+    or below the smallest value, the last at or above the largest."""
+    pos = np.asarray(z, float)
+    pos = pos[np.isfinite(pos) & (pos > 0)]
+    inner = np.quantile(np.log10(pos), np.linspace(0, 1, steps + 1)[1:-1])
+    levels = {_nice(float(pos.min()), "floor"), _nice(float(pos.max()), "ceil")}
+    levels |= {_nice(10.0 ** q, "round") for q in inner}
+    return sorted(v for v in levels if _nice(float(pos.min()), "floor") <= v
+                  <= _nice(float(pos.max()), "ceil"))
+
+
+def _map_norm(z, cmap):
+    """(norm, masked z, levels): the colour scale of a map.  Where positive
+    values span decades, colour steps at :func:`quantile_levels` (zeros
+    and negative values left white); a value that is the same everywhere
+    gets a scale about it; otherwise a linear scale."""
     import matplotlib.colors as mcolors
 
-    norm, zm, clipped = None, np.ma.masked_invalid(z), False
+    norm, zm, levels = None, np.ma.masked_invalid(z), None
     if _spans_decades(z):
-        pos = z[np.isfinite(z) & (z > 0)]
-        top = pos.max()
-        bottom = max(pos.min(), top * LOG_FLOOR)
-        clipped = bottom > pos.min() or np.any(np.isfinite(z) & (z <= 0))
-        norm = mcolors.LogNorm(vmin=bottom, vmax=top)
+        levels = quantile_levels(z)
+        norm = mcolors.BoundaryNorm(levels, cmap.N)
         zm = np.ma.masked_where(~np.isfinite(z) | (z <= 0), z)
     finite = z[np.isfinite(z)]
     if finite.size > 0 and finite.min() == finite.max():
@@ -469,19 +826,28 @@ def _map_norm(z):
         v0 = float(finite[0])
         norm = mcolors.Normalize(vmin=v0 - 1 if v0 == 0 else 0.5 * v0,
                                  vmax=v0 + 1 if v0 == 0 else 1.5 * v0)
-    return norm, zm, clipped
+    return norm, zm, levels
 
 
 def _colour_map(fig, ax, edges, z, quantity, zunit):
-    """The colour mesh of a map and its colour bar."""
+    """The colour mesh of a map and its colour bar; returns the colour
+    levels (None on a linear scale)."""
     import matplotlib as mpl
 
     cmap = mpl.colormaps["viridis"].with_extremes(bad="white", under="white")
-    norm, zm, clipped = _map_norm(z)
+    norm, zm, levels = _map_norm(z, cmap)
     mesh = ax.pcolormesh(*edges, zm.T, cmap=cmap, norm=norm, rasterized=True)
-    cbar = fig.colorbar(mesh, ax=ax, extend="min" if clipped else "neither")
-    cbar.set_label(axis_label(quantity, zunit) + (
-        f"   (white: 0 or below {LOG_FLOOR:.0e} of the largest)" if clipped else ""))
+    cbar = fig.colorbar(mesh, ax=ax)
+    label = axis_label(quantity, zunit)
+    if levels is not None:
+        cbar.set_ticks(levels)
+        cbar.set_ticklabels([_contour_fmt(v) for v in levels])
+        cbar.ax.tick_params(labelsize=7)
+        zero = int(np.sum(np.isfinite(z) & (z <= 0)))
+        label += "\ncolour steps at quantiles of the values (log)"
+        if zero:
+            label += f"; white: 0 at {zero} of {z.size} points"
+    cbar.set_label(label, fontsize=8)
     finite = z[np.isfinite(z)]
     if finite.size > 0 and finite.min() == finite.max():
         cbar.set_ticks([float(finite[0])])
@@ -490,16 +856,19 @@ def _colour_map(fig, ax, edges, z, quantity, zunit):
                     xycoords="axes fraction", va="top", fontsize=8,
                     bbox=dict(boxstyle="square,pad=0.2", facecolor="white",
                               edgecolor="none"))
+    return levels
 
 
-def _map_contours(fig, ax, x, y, z):
+def _map_contours(fig, ax, x, y, z, levels=None):
+    """Labelled contour lines: at the colour steps of a log map, else at
+    round values."""
     log = _spans_decades(z)
-    levels = _levels(z, log)
+    levels = list(levels[1:-1]) if levels is not None else _levels(z, log)
     if len(levels) and min(x.size, y.size) > 2:
         zc = np.where(np.isfinite(z) & ((z > 0) | (not log)), z,
                       (min(levels) / 10) if log else np.nan)
-        cs = ax.contour(x, y, zc.T, levels=levels, colors="black", linewidths=0.9)
-        _declutter(fig, ax.clabel(cs, fmt=_contour_fmt, fontsize=8, inline=True))
+        cs = ax.contour(x, y, zc.T, levels=levels, colors="black", linewidths=0.8)
+        _declutter(fig, ax.clabel(cs, fmt=_contour_fmt, fontsize=7, inline=True))
 
 
 def _map_threshold(ax, result, k, axis, fac, c, x, y):
@@ -536,7 +905,8 @@ def _map_speed_marks(ax, result, scaled_axes, x, y):
 
 def plot_map(result, path=None, quantity=None):
     """A 2D grid as a colour map with labelled contours; the sound speed
-    and (straight motion) the threshold are drawn on a speed axis."""
+    and (straight motion) the threshold are drawn on a speed axis; cells
+    without a result are hatched, cells with validity warnings dotted."""
     if len(result.axes) != 2:
         raise InputError("--plot", "a map needs a 2D grid")
     quantity = quantity or default_plotted(result.columns)[0]
@@ -547,11 +917,11 @@ def plot_map(result, path=None, quantity=None):
     z_si = result.grid(quantity)
     zfac, zunit = display_unit(column_kind(quantity), result.unit(quantity), z_si)
     z = z_si * zfac
-    fig = _figure((6.4, 5.0))
+    fig = _figure((6.6, 5.6))
     ax = fig.add_subplot()
     xe, ye = _cell_edges(x, a0.log), _cell_edges(y, a1.log)
-    _colour_map(fig, ax, (xe, ye), z, quantity, zunit)
-    _map_contours(fig, ax, x, y, z)
+    levels = _colour_map(fig, ax, (xe, ye), z, quantity, zunit)
+    _map_contours(fig, ax, x, y, z, levels)
     if a0.log:
         ax.set_xscale("log")
     if a1.log:
@@ -559,21 +929,36 @@ def plot_map(result, path=None, quantity=None):
     _nice_log_ticks(ax)
     ax.set_xlabel(xlabel)
     ax.set_ylabel(ylabel)
-    # no-result points: hatched
-    bad = np.array([w.startswith("no result") for w in result.warnings]).reshape(result.shape)
-    if bad.any():
-        _hatch_cells(ax, xe, ye, bad, HATCHES[0])
-        ax.annotate("hatched: no result (model diverges)", xy=(0.01, 0.01),
-                    xycoords="axes fraction", fontsize=7, zorder=6,
-                    bbox=dict(boxstyle="square,pad=0.2", facecolor="white",
-                              edgecolor="none"))
+    handles = _map_cells(ax, result, xe, ye)
     _map_speed_marks(ax, result, ((a0, fx), (a1, fy)), x, y)
-    if ax.get_legend_handles_labels()[0]:
-        ax.legend(loc="upper left", fontsize=8, framealpha=0.9)
-    fig.suptitle(_title(result.meta), fontsize=10)
+    h, labels = ax.get_legend_handles_labels()
+    if h or handles:
+        _legend(fig, h + [hd for hd, _ in handles], labels + [lb for _, lb in handles])
+    set_title(fig, _title(result.meta, varied=[a.key for a in result.axes]))
     if path is not None:
         save(fig, path)
     return fig
+
+
+def _map_cells(ax, result, xe, ye):
+    """Hatch the cells without a result and dot those with validity
+    warnings; returns [(legend handle, label)]."""
+    from matplotlib.patches import Rectangle
+
+    out = []
+    bad = np.array([w.startswith("no result") for w in result.warnings]).reshape(result.shape)
+    if bad.any():
+        _hatch_cells(ax, xe, ye, bad, HATCHES[0])
+        out.append((Rectangle((0, 0), 1, 1, facecolor="white", edgecolor="0.2",
+                              hatch=HATCHES[0]),
+                    f"no result at {int(bad.sum())} of {bad.size} points"))
+    flags, kinds = validity_flags(result.warnings)
+    if flags.any():
+        _hatch_cells(ax, xe, ye, flags.reshape(result.shape), WARNING_CELL_HATCH,
+                     filled=False)
+        out.append((Rectangle((0, 0), 1, 1, facecolor="none", edgecolor="0.15",
+                              hatch=WARNING_CELL_HATCH), warning_label(flags, kinds)))
+    return out
 
 
 # ---------------------------------------------------------------------------
@@ -581,43 +966,39 @@ def plot_map(result, path=None, quantity=None):
 # ---------------------------------------------------------------------------
 def plot_comparison(cmp, path=None):
     """The models of a :class:`probe.compare.Comparison` overlaid: curves on
-    a 1D grid, contour lines on a 2D grid."""
+    a 1D grid, contour lines on a 2D grid.  Points where a model's result
+    carries validity warnings get open markers; the threshold marked is
+    the configured model's."""
     if len(cmp.axes) == 2:
         return _compare_map(cmp, path)
     base = cmp.base.result
     ax_ = cmp.axes[0]
     x, xlabel, factor, x_cs = _coords(base, ax_)
-    fig = _figure((6.8, 5.4))
+    fig = _figure((6.8, 5.8))
     ax = fig.add_subplot()
     ys = [v.result.column(v.main) for v in cmp.variants]
     unit = base.unit(cmp.base.main)
     every = max(1, x.size // 12)
     order = np.argsort(x)
+    lines, flagged = [], []
     for k, (v, y) in enumerate(zip(cmp.variants, ys)):
         q = QUANTITY_LABELS.get(v.main, v.main).split(" $")[0]
         name = "configured" if k == 0 else v.label
-        ax.plot(x[order], y[order], label=f"{name}: {q}", markevery=every,
-                **_style(k))
+        flags, _ = validity_flags(v.result.warnings)
+        flagged.append((v.label if k else "configured", flags))
+        lines.append(_curve(ax, x, y, order, flags, k, every, f"{name}: {q}"))
+    bottom = None
     if _spans_decades(*ys):
         ax.set_yscale("log")
-        _log_limits(ax, ys)
+        bottom = _log_limits(ax, ys)
+    for line, y in zip(lines, ys):
+        note = hidden_text(y, ax.get_yscale() == "log", bottom)
+        if note:
+            line.set_label(f"{line.get_label()}: {note}")
     if ax_.log:
         ax.set_xscale("log")
-    h = 0
-    for k, v in enumerate(cmp.variants):
-        st = np.array(v.status())
-        bad = st != "ok"
-        word = "diverges" if (st == "diverges").any() else "no result"
-        if _no_result_strip(ax, x, bad, f"{v.label}: {word}", HATCHES[h % len(HATCHES)],
-                            h, colour=COLOURS[k % len(COLOURS)]):
-            h += 1
-    if ax_.kind == "speed":
-        c = _constant(base.column("sound_speed"))
-        if c is not None:
-            vt = _constant(base.column("up_threshold_speed")) if \
-                "up_threshold_speed" in base.columns else None
-            _mark_speed(ax, x_cs, factor, c, vt)
-            _second_speed_axis(ax, x_cs, factor, c)
+    _compare_strips(ax, cmp, x)
+    _speed_lines(ax, base, ax_, x_cs, factor, whose=" (configured model)")
     ax.set_xlabel(xlabel)
     ax.set_ylabel(f"rate [{pretty_unit(unit)}]" if unit == "1/s" else
                   "probability or phonon number" if unit == "1" else f"[{pretty_unit(unit)}]")
@@ -626,13 +1007,30 @@ def plot_comparison(cmp, path=None):
     handles, labels = ax.get_legend_handles_labels()
     keep = [(h_, l_) for h_, l_ in zip(handles, labels) if not l_.endswith(
         (": diverges", ": no result"))]
-    fig.legend([h_ for h_, _ in keep], [l_ for _, l_ in keep], loc="outside lower center",
-               ncols=2, fontsize=8, frameon=False, title=f"configured: {cmp.base.label}",
-               title_fontsize=8)
-    fig.suptitle(_title(base.meta, "model comparison"), fontsize=10)
+    marked = [(name, int(f.sum())) for name, f in flagged if f.any()]
+    if marked:
+        keep.append((_warning_handle(None), textwrap.fill(
+            "open markers: validity warning (" + ", ".join(
+                f"{name} at {n} of {x.size} points" for name, n in marked) + ")", 60)))
+    _legend(fig, [h_ for h_, _ in keep], [l_ for _, l_ in keep],
+            title=f"configured: {cmp.base.label}")
+    set_title(fig, _title(base.meta, "model comparison", [a.key for a in cmp.axes]))
     if path is not None:
         save(fig, path)
     return fig
+
+
+def _compare_strips(ax, cmp, x):
+    """A hatched strip for each model over the points where it has no
+    result (or diverges)."""
+    h = 0
+    for k, v in enumerate(cmp.variants):
+        st = np.array(v.status())
+        bad = st != "ok"
+        word = "diverges" if (st == "diverges").any() else "no result"
+        if _no_result_strip(ax, x, bad, f"{v.label}: {word}", HATCHES[h % len(HATCHES)],
+                            h, colour=COLOURS[k % len(COLOURS)]):
+            h += 1
 
 
 def _compare_map(cmp, path):
@@ -677,7 +1075,7 @@ def _compare_map(cmp, path):
     ax.legend(handles=handles, loc="upper left", fontsize=7, framealpha=0.9,
               title=f"contours [{pretty_unit(base.unit(cmp.base.main))}]",
               title_fontsize=7)
-    fig.suptitle(_title(base.meta, "model comparison"), fontsize=10)
+    set_title(fig, _title(base.meta, "model comparison", [a.key for a in cmp.axes]))
     if path is not None:
         save(fig, path)
     return fig
@@ -694,7 +1092,7 @@ def plot_threshold(table, path=None):
     c = table.sound_speed
     conf = table.configured
     fac, unit = display_unit("speed", "m/s", np.concatenate([vt, [c]]))
-    fig = _figure()
+    fig = _figure((6.4, 4.9))
     ax = fig.add_subplot()
     ax.plot(f, vt * fac, label=r"up threshold $v_\mathrm{th}$", markevery=max(1, f.size // 12),
             **_style(0))
@@ -720,168 +1118,16 @@ def plot_threshold(table, path=None):
     sec = ax.secondary_yaxis("right", functions=(lambda v: v / scale, lambda m: m * scale))
     sec.set_ylabel("$v/c_s$")
     ax.grid(True, which="major", color="0.85", linewidth=0.6)
+    _nice_log_ticks(ax)
     ax.legend(loc="lower right", fontsize=8, framealpha=0.95)
-    fig.suptitle(f"Threshold of straight motion, {table.dispersion} dispersion", fontsize=10)
-    if path is not None:
-        save(fig, path)
-    return fig
-
-
-# ---------------------------------------------------------------------------
-# emitted phonons of a finite transit (probe.transit spectrum output)
-# ---------------------------------------------------------------------------
-def _spectrum_of(result):
-    sp = getattr(result, "spectrum", None)
-    if not sp:
-        raise InputError("spectrum", "the transit result has no spectrum; call "
-                                     "transit_probabilities(..., spectrum=True)")
-    return sp
-
-
-def _two_starts(sp):
-    """True when the spectrum has a second series: the probe starting excited
-    (a probe with internal states)."""
-    return "dN_dk_excited" in sp
-
-
-def _start_labels(sp):
-    if _two_starts(sp):
-        return ("probe starts in the ground state", "probe starts excited")
-    return ("emitted phonons", None)
-
-
-def _pattern_1d(sp, main, second):
-    """Forward and backward counts of a 1D transit as bars."""
-    fig = _figure((5.2, 4.2))
-    ax = fig.add_subplot()
-    keys = [("dN_backward", "dN_forward", main)]
-    if second and "dN_forward_excited" in sp:
-        keys.append(("dN_backward_excited", "dN_forward_excited", second))
-    width = 0.8 / len(keys)
-    for k, (b, f, lab) in enumerate(keys):
-        xs = np.array([0, 1]) + (k - (len(keys) - 1) / 2) * width
-        ax.bar(xs, [sp[b], sp[f]], width=width, facecolor="white" if k else "0.35",
-               edgecolor="black", hatch=HATCHES[k] if k else None, label=lab)
-    ax.set_xticks([0, 1], ["backward (-x)", "forward (+x)"])
-    ax.set_ylabel("emitted phonons")
-    ax.legend(fontsize=8)
-    fig.suptitle("Emitted phonons of the transit, 1D", fontsize=10)
-    return fig
-
-
-def _polar_series(sp, d, main, second):
-    """(series, scale, unit, angles, values, axis text) of a 2D or 3D
-    direction spectrum: 3D dN/dcos(theta) -> dN/dOmega mirrored about the
-    axis, 2D dN/dphi closed around the circle."""
-    if d == 3:
-        theta = np.arccos(np.clip(np.asarray(sp["cos_theta"], float), -1, 1))
-        return ([("dN_dcos_theta", main), ("dN_dcos_theta_excited", second)],
-                1 / (2 * math.pi), "1/sr", np.concatenate([theta[::-1], -theta]),
-                lambda v: np.concatenate([v[::-1], v]), r"$\theta$ from the mean velocity")
-    phi = np.asarray(sp["phi"], float)
-    return ([("dN_dphi", main), ("dN_dphi_excited", second)], 1.0, "1/rad",
-            np.concatenate([phi, phi[:1]]), lambda v: np.concatenate([v, v[:1]]),
-            r"$\phi$ from the mean velocity")
-
-
-def _mach_cone(ax, c, speed):
-    """The Mach cone cos(theta) = c/v of a supersonic transit."""
-    cone = math.acos(c / speed)
-    for a in (cone, -cone):
-        ax.plot([a, a], [0, ax.get_rmax()], color="0.3", linestyle=(0, (4, 2)),
-                linewidth=1.1)
-    ax.plot([], [], color="0.3", linestyle=(0, (4, 2)),
-            label=f"Mach cone, cos = $c_s/v$ = {c / speed:.3g}")
-
-
-def plot_emission_pattern(result, path=None, speed=None):
-    """Directions of the emitted phonons of a transit
-    (:class:`probe.transit.TransitResult` with a spectrum).
-
-    3D: polar plot of dN/dOmega (per steradian, azimuth-averaged) against the
-    angle theta from the spectrum axis (the mean velocity), mirrored about
-    the axis; 2D: dN/dphi (per radian) against phi; 1D: forward and
-    backward counts.  ``speed`` (m/s) marks the Mach cone cos(theta) = c/v
-    when supersonic."""
-    import matplotlib.ticker as mticker
-
-    sp = _spectrum_of(result)
-    d = result.dimension
-    main, second = _start_labels(sp)
-    if d == 1:
-        fig = _pattern_1d(sp, main, second)
-        if path is not None:
-            save(fig, path)
-        return fig
-    fig = _figure((5.6, 5.6))
-    ax = fig.add_subplot(projection="polar")
-    ax.set_theta_zero_location("E")
-    series, scale, unit, angles, values, axis_text = _polar_series(sp, d, main, second)
-    k = 0
-    for key, lab in series:
-        if lab is None or key not in sp:
-            continue
-        r = np.asarray(sp[key], float) * scale
-        ax.plot(angles, values(r), label=lab, markevery=max(1, angles.size // 24),
-                **_style(k))
-        k += 1
-    if speed is not None and speed > result.sound_speed:
-        _mach_cone(ax, result.sound_speed, speed)
-    ax.set_rlabel_position(157.5)
-    ax.yaxis.set_major_locator(mticker.MaxNLocator(4))
-    ax.tick_params(labelsize=8)
-    ax.set_title(f"dN/d{'Ω' if d == 3 else 'φ'} [{unit}], {axis_text}; motion to the right",
-                 fontsize=9, pad=14)
-    fig.legend(loc="outside lower center", fontsize=8, frameon=False)
-    fig.suptitle(f"Emitted phonons of the transit, {d}D", fontsize=10)
-    if path is not None:
-        save(fig, path)
-    return fig
-
-
-def plot_emission_spectrum(result, path=None):
-    """Wavenumber spectrum of the emitted phonons of a transit: dN/d(k xi)
-    against k xi (top axis: k in 1/um), with k xi = 1 marked (phonons below,
-    particle-like excitations above)."""
-    sp = _spectrum_of(result)
-    xi = result.healing_length
-    q = np.asarray(sp["k"], float) * xi
-    main, second = _start_labels(sp)
-    fig = _figure()
-    ax = fig.add_subplot()
-    curves = [(np.asarray(sp["dN_dk"], float) / xi, main)]
-    if second and "dN_dk_excited" in sp:
-        curves.append((np.asarray(sp["dN_dk_excited"], float) / xi, second))
-    for k, (y, lab) in enumerate(curves):
-        ax.plot(q, y, label=lab, markevery=max(1, q.size // 14), **_style(k))
-    ys = [y for y, _ in curves]
-    if _spans_decades(*ys):
-        ax.set_yscale("log")
-        pos = np.concatenate([y[y > 0] for y in ys])
-        top = pos.max()
-        ax.set_ylim(max(pos.min(), top * 1e-8) / 2, top * 3)
-    else:
-        ax.set_ylim(bottom=0)
-    ax.set_xlim(0, q.max())
-    ax.axvline(1.0, color="0.3", linestyle=(0, (1, 1.5)), linewidth=1.2)
-    ax.annotate(r"$k\xi = 1$", xy=(1.0, 1.0), xycoords=("data", "axes fraction"),
-                xytext=(3, -12), textcoords="offset points", fontsize=9)
-    ax.set_xlabel(r"wavenumber $k\xi$")
-    ax.set_ylabel(r"$dN/d(k\xi)$ [phonons per unit $k\xi$]")
-    f = 1e-6 / xi
-    sec = ax.secondary_xaxis("top", functions=(lambda x: x * f, lambda k_: k_ / f))
-    sec.set_xlabel(f"k [{pretty_unit('1/um')}]")
-    ax.grid(True, which="major", color="0.85", linewidth=0.6)
-    ax.legend(fontsize=8)
-    total = getattr(result, "emitted_phonons", None)
-    start = " from the ground state" if _two_starts(sp) else ""
-    fig.suptitle("Spectrum of the emitted phonons" +
-                 (f" (N = {total:.3g}{start})" if total is not None else ""), fontsize=10)
+    meta = getattr(table, "meta", None) or {}
+    set_title(fig, _title(meta, "threshold of straight motion", ["probe.gap"]) if meta
+              else [f"threshold of straight motion, {table.dispersion} dispersion"])
     if path is not None:
         save(fig, path)
     return fig
 
 
 __all__ = ["plot_sweep", "plot_lines", "plot_map", "plot_comparison",
-           "plot_threshold", "plot_emission_pattern", "plot_emission_spectrum",
+           "plot_threshold", "scenario_caption", "scenario_edits", "validity_flags",
            "save", "check_plot_path", "SUFFIXES"]
