@@ -30,6 +30,7 @@ Python use::
 from __future__ import annotations
 
 import copy
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -280,7 +281,7 @@ def _width_variants(raw, base, varied, given):
         raise _Skip("the configured probe is point-like; give --width "
                     "for a finite-width variant")
     r["probe"]["width"] = width
-    return [("wide", f"finite width {width}", r)]
+    return [("wide", f"finite width {_spaced(width)}", r)]
 
 
 def _temperature_variants(raw, base, varied, given):
@@ -295,7 +296,13 @@ def _temperature_variants(raw, base, varied, given):
         raise _Skip("the configured gas is at T = 0; give --temperature "
                     "for a thermal variant")
     r["condensate"]["temperature"] = temperature
-    return [("thermal", f"T = {temperature}", r)]
+    return [("thermal", f"T = {_spaced(temperature)}", r)]
+
+
+def _spaced(text):
+    """A value as written, with a space between number and unit ('10nK' ->
+    '10 nK')."""
+    return re.sub(r"^\s*([-+]?[0-9.]+(?:[eE][-+]?[0-9]+)?)\s*(?=\S)", r"\1 ", str(text))
 
 
 #: comparison -> the variants it makes: ``f(raw, base scenario, varied
