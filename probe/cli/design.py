@@ -16,7 +16,7 @@ from probe.cli.app import cli
 from probe.cli.common import (EXIT_INPUT, fail, input_errors, json_option, json_text,
                               jsonable, out_option)
 from probe.cli.outputs import Outputs, json_by_suffix, scenario_inputs
-from probe.cli.progress import PROGRESS_DELAY, Progress
+from probe.cli.progress import Progress
 from probe.errors import InputError
 
 _VARY_HELP = ("Grid over a numeric key, START and STOP with units, e.g. "
@@ -377,7 +377,7 @@ def solve(config, key, target, bounds, out, as_json, overrides, removals):
     try:
         with Outputs(_config_inputs(config, overrides, removals)) as outputs:
             outputs.check(out, "--out")
-            with Progress(SCAN_POINTS, "solve", delay=PROGRESS_DELAY) as bar:
+            with Progress(SCAN_POINTS, "solve", delay=True) as bar:
                 sol = run(config, key, target, bounds=bounds, overrides=overrides,
                           removals=removals, progress=bar)
             _flat_zero_target(sol)

@@ -31,13 +31,15 @@ def terminal_stream():
 class Progress:
     """``Progress(total, label)``: call it with the number of steps just
     finished; ``grow(n)`` when more steps turn out to be needed; ``close()``
-    at the end (also a context manager)."""
+    at the end (also a context manager).  ``delay``: seconds before the bar
+    appears (``True``: :data:`PROGRESS_DELAY`); ``stream``: where to draw it
+    (default: stderr when it is a terminal)."""
 
     def __init__(self, total, label, delay=0.0, stream=None):
         self.total = int(total)
         self.label = label
         self.done = 0
-        self.delay = float(delay)
+        self.delay = PROGRESS_DELAY if delay is True else float(delay)
         self.started = time.monotonic()
         self.bar = None
         self.timer = None
@@ -60,6 +62,8 @@ class Progress:
             return
         self.bar = click.progressbar(length=self.total, label=self.label,
                                      file=self.stream, show_pos=True, show_eta=True)
+        eta = self.bar.format_eta
+        self.bar.format_eta = lambda: f"{eta()} left" if self.bar.eta_known else ""
         self.bar.__enter__()
         if self.done:
             self.bar.update(self.done)

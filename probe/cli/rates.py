@@ -20,7 +20,7 @@ from probe.cli.cloud import cloud_derived_rows, cloud_input_rows, cloud_json
 from probe.cli.common import (KIND_EXTRAS, fail, input_errors, json_option, json_value,
                               num, out_option, outputs_json, q, report, result_rows)
 from probe.cli.outputs import Outputs, json_by_suffix, scenario_inputs
-from probe.cli.progress import PROGRESS_DELAY, Progress
+from probe.cli.progress import Progress
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.quantities import stationary_outputs, table_unit
 
@@ -154,7 +154,7 @@ def result_json(scenario, result, planning=None):
     return out
 
 
-def _stage_report(outputs, out, as_json, objs, texts):
+def stage_report(outputs, out, as_json, objs, texts, key=None):
     """The report of ``probe rates`` or ``probe transit``: ``(text, or
     None when it went to ``out``)``.  JSON when ``--json`` is given or the
     file's name ends in .json (an object for one scenario, an array for
@@ -167,7 +167,7 @@ def _stage_report(outputs, out, as_json, objs, texts):
         text = "\n\n".join(texts())
     if out is None:
         return text
-    outputs.stage_text(out, text + "\n", OUT_KEY)
+    outputs.stage_text(out, text + "\n", key or OUT_KEY)
     return None
 
 
@@ -200,7 +200,7 @@ def rates(configs, as_json, overrides, removals, out):
             outputs.check(out, OUT_KEY)
             specs = [planning_spec(s) for s in scenarios]
             with warnings.catch_warnings(), \
-                    Progress(len(scenarios), "rates", delay=PROGRESS_DELAY) as bar:
+                    Progress(len(scenarios), "rates", delay=True) as bar:
                 # numpy's overflow/invalid-value warnings are not for the reader:
                 # every result passes the engine's guard (no NaN, inf or negative
                 # number is returned; a ModelError says why instead)
@@ -212,7 +212,7 @@ def rates(configs, as_json, overrides, removals, out):
                         attach(result, plan)
                     done.append((scenario, result, plan))
                     bar(1)
-            text = _stage_report(outputs, out, as_json,
+            text = stage_report(outputs, out, as_json,
                                  lambda: [result_json(*item) for item in done],
                                  lambda: [format_table(*item) for item in done])
             outputs.commit()

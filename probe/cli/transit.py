@@ -1,4 +1,4 @@
-"""``probe transit CONFIG [CONFIG ...] [--json] [--spectrum FILE.csv] [--set ...]``.
+"""``probe transit CONFIG [CONFIG ...] [--json] [-o FILE] [--spectrum FILE.csv] [--plot FILE] [--set ...]``.
 
 First-order probabilities of finite transits (a spline path, or a linear or
 circular path with a switching function; keys in
@@ -26,24 +26,26 @@ with its unit in square brackets (``[1]``: a pure number).
   dN [1]`` (forward and backward rows).  ``*_excited`` columns as above.
   ``sum(density * (high - low))`` is ``emitted_phonons``.
 
-Both are written to ``*.partial`` and renamed when complete, so an error or
-an interrupt never leaves a half-written file.  Bad input ends with
+Both are written to hidden temporary files beside them and renamed when
+every output of the run is complete, so an error or an interrupt never
+leaves a half-written file (:mod:`probe.cli.outputs`).  Bad input ends with
 ``error: <key>: <message>`` and exit status 2.
 """
 from __future__ import annotations
 
-import json
 import math
-import os
 from pathlib import Path
 
 import click
 
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_json
-from probe.cli.common import fail, input_errors, num, outputs_json, q, report, result_rows
+from probe.cli.common import (fail, input_errors, json_option, num, out_option,
+                              outputs_json, q, report, result_rows)
+from probe.cli.outputs import Outputs, json_by_suffix, scenario_inputs
+from probe.cli.progress import Progress
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
-from probe.cli.rates import rows_derived, rows_inputs
+from probe.cli.rates import rows_derived, rows_inputs, stage_report
 from probe.errors import InputError
 from probe.quantities import headline, quantity
 from probe.scenarios.limits import fmt_time
@@ -150,6 +152,8 @@ _ROUTES = {
     "fft": "FFT over time, frequency-uniform nodes (FFT length {fft_length})",
     "lag": "lag sums of the switching's autocorrelation (separations depend on the lag "
            "alone: angles exact)",
+    "pairs": "double time sum over pairs of times ({chebyshev_terms} Chebyshev terms in the "
+             "separation: angles exact)",
 }
 
 
@@ -196,18 +200,6 @@ def directions_path(path):
     p = Path(path)
     return str(p.with_name(p.stem + ".directions" + p.suffix)) if p.suffix \
         else str(p.with_name(p.name + ".directions"))
-
-
-def _check_writable(path):
-    """Fail early (before computing) when the spectrum files cannot be written."""
-    for target in (path, directions_path(path)):
-        folder = os.path.dirname(os.path.abspath(target))
-        if os.path.isdir(target):
-            raise InputError("--spectrum", f"{target} is a directory; give a file name")
-        if not os.path.isdir(folder):
-            raise InputError("--spectrum", f"folder {folder} does not exist")
-        if not os.access(folder, os.W_OK):
-            raise InputError("--spectrum", f"folder {folder} is not writable")
 
 
 def _g(x):
@@ -276,63 +268,42 @@ def spectrum_tables(scenario, result):
     return "\n".join(rad) + "\n", "\n".join(dirs) + "\n"
 
 
-def write_spectrum(path, scenario, result):
-    """Write both spectrum files via ``*.partial`` and rename; returns their names."""
-    texts = spectrum_tables(scenario, result)
+def write_spectrum(outputs, path, scenario, result):
+    """Write both spectrum files beside their names (put in place by
+    ``outputs.commit``); returns their names."""
     targets = (str(path), directions_path(path))
-    partials = [t + ".partial" for t in targets]
-    try:
-        for name, text in zip(partials, texts):
-            with open(name, "w", encoding="utf-8") as fh:
-                fh.write(text)
-        for name, target in zip(partials, targets):
-            os.replace(name, target)
-    except OSError as exc:
-        raise InputError("--spectrum", f"cannot write {exc.filename or path}: "
-                                       f"{exc.strerror or exc}") from None
-    finally:
-        for name in partials:
-            if os.path.exists(name):
-                os.remove(name)
+    for target, text in zip(targets, spectrum_tables(scenario, result)):
+        outputs.stage_text(target, text, "--spectrum")
     return targets
 
 
 # ---------------------------------------------------------------------------
 # command
 # ---------------------------------------------------------------------------
-@cli.command()
-@click.argument("configs", nargs=-1, required=True, metavar="CONFIG [CONFIG ...]")
-@click.option("--json", "as_json", is_flag=True,
-              help="Print JSON (an object for one config, an array for several).")
-@click.option("--spectrum", "spectrum", metavar="FILE.csv", default=None,
-              help="Write the emitted-phonon distribution over k to FILE.csv and over "
-                   "directions to FILE.directions.csv (one CONFIG only).")
-@click.option("--plot", "plot", metavar="FILE", default=None,
-              help="Draw the emitted-phonon spectrum and directions (PNG, PDF or SVG; "
-                   "one CONFIG only).")
-@click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
-@click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)
-def transit(configs, as_json, spectrum, plot, overrides, removals):
-    """First-order transition probabilities of finite transits: a spline path
-    through waypoints, or a linear or circular path with a switching function."""
-    from probe.design.planning import plan_transit, planning_spec
-    from probe.scenarios.config import load_config
+def _check_files(outputs, scenarios, out, spectrum, plot):
+    """Every file the run writes, before anything is computed."""
+    for scenario in scenarios:
+        outputs.add_inputs(scenario_inputs(scenario.source, scenario.raw))
+    outputs.check(out, "--out")
+    if spectrum is not None:
+        if len(scenarios) != 1:
+            raise InputError("--spectrum", f"writes the files of one scenario; give "
+                                           f"one CONFIG (got {len(scenarios)})")
+        outputs.check(spectrum, "--spectrum")
+        outputs.check(directions_path(spectrum), "--spectrum", what="the directions file")
+    if plot is not None:
+        from probe.design.transit_plots import check_transit_plot_request
+        check_transit_plot_request(plot, scenarios)
+        outputs.check(plot, "--plot")
 
-    errors = input_errors()
+
+def _run(outputs, scenarios, spectrum, plot):
+    """The transits, their planning, and the files of the spectrum and figure."""
+    from probe.design.planning import plan_transit, planning_spec
+
     done = []
-    try:
-        if spectrum is not None:
-            if len(configs) != 1:
-                raise InputError("--spectrum", f"writes the files of one scenario; give "
-                                               f"one CONFIG (got {len(configs)})")
-            _check_writable(spectrum)
-        scenarios = [load_config(path, overrides, removals=removals) for path in configs]
-        for scenario in scenarios:
-            check_transit(scenario)
-        if plot is not None:
-            from probe.design.transit_plots import check_transit_plot_request
-            check_transit_plot_request(plot, scenarios)
-        specs = [planning_spec(s) for s in scenarios]
+    specs = [planning_spec(s) for s in scenarios]
+    with Progress(len(scenarios), "transit", delay=True) as bar:
         for scenario, spec in zip(scenarios, specs):
             result = scenario.transit(spectrum=spectrum is not None or plot is not None)
             info = describe(scenario)
@@ -341,19 +312,50 @@ def transit(configs, as_json, spectrum, plot, overrides, removals):
                 attach(result, plan)
             files = ()
             if spectrum is not None:
-                files = write_spectrum(spectrum, scenario, result)
+                files = write_spectrum(outputs, spectrum, scenario, result)
             if plot is not None:
                 from probe.design.transit_plots import plot_transit
-                plot_transit(scenario, result, plot)
+                plot_transit(scenario, result, outputs.temporary(plot, "--plot"))
             done.append((scenario, result, info, _extras(scenario, result, info), files,
                          plan))
-    except errors as exc:
+            bar(1)
+    return done
+
+
+@cli.command()
+@click.argument("configs", nargs=-1, required=True, metavar="CONFIG [CONFIG ...]")
+@json_option("Print JSON (an object for one config, an array for several).")
+@out_option("FILE", "Write the table (JSON with --json or when FILE ends in .json) to "
+                    "FILE instead of the terminal; FILE is written whole or left untouched.")
+@click.option("--spectrum", "spectrum", metavar="FILE.csv", default=None,
+              help="Write the emitted-phonon distribution over k to FILE.csv and over "
+                   "directions to FILE.directions.csv (one CONFIG only).")
+@click.option("--plot", "plot", metavar="FILE", default=None,
+              help="Draw the emitted-phonon spectrum and directions (PNG, PDF or SVG; "
+                   "one CONFIG only).")
+@click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
+@click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)
+def transit(configs, as_json, out, spectrum, plot, overrides, removals):
+    """First-order transition probabilities of finite transits: a spline path
+    through waypoints, or a linear or circular path with a switching function."""
+    from probe.scenarios.config import load_config
+
+    try:
+        with Outputs() as outputs:
+            scenarios = [load_config(path, overrides, removals=removals)
+                         for path in configs]
+            for scenario in scenarios:
+                check_transit(scenario)
+            _check_files(outputs, scenarios, out, spectrum, plot)
+            done = _run(outputs, scenarios, spectrum, plot)
+            text = stage_report(outputs, out, as_json,
+                                lambda: [transit_json(*item) for item in done],
+                                lambda: [format_transit_table(*item) for item in done],
+                                key="--out")
+            outputs.commit()
+    except input_errors() as exc:
         fail(exc)
-    if as_json:
-        objs = [transit_json(*item) for item in done]
-        click.echo(json.dumps(objs[0] if len(objs) == 1 else objs, indent=2,
-                              allow_nan=False))
-    else:
-        click.echo("\n\n".join(format_transit_table(*item) for item in done))
-        if plot is not None:
+    if text is not None:
+        click.echo(text)
+        if plot is not None and not (as_json or json_by_suffix(out)):
             click.echo(f"wrote {plot}")
