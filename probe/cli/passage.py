@@ -188,7 +188,7 @@ def _write(outputs, scenario, result, out, plot):
         from probe.design.passage_plots import plot_passage
         from probe.scenarios.passage import cloud_of
         plot_passage(result, cloud_of(scenario), outputs.temporary(plot, "--plot"),
-                     title=scenario.source)
+                     scenario=scenario)
         files.append(("plot file", plot))
     if out is not None:
         outputs.stage_text(out, passage_csv(scenario, result), "--out")

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from probe.design.plots import COLOURS, _figure, pretty_unit, save
+from probe.design.plots import COLOURS, _figure, pretty_unit, save, scenario_caption, set_title
 from probe.engines.passage import integral
 from probe.quantities import QUANTITIES
 
@@ -139,23 +139,41 @@ def _running(time, rate):
     return np.concatenate([[0.0], np.cumsum(steps)])
 
 
-def plot_passage(result, cloud, path=None, title=None):
+def plot_passage(result, cloud, path=None, title=None, scenario=None):
     """Draw a passage (:class:`probe.engines.passage.PassageResult`) through
     ``cloud`` (a harmonic trap or a box); writes ``path`` when given and
-    returns the Figure."""
-    fig = _figure(size=(11.0, 4.6))
+    returns the Figure.  The title names ``scenario`` (a
+    :class:`probe.scenarios.config.Scenario`) as computed, with the edits
+    of its file, or else the text ``title``."""
+    import os
+
+    fig = _figure(size=(11.0, 5.2))
     left, right = fig.subplots(1, 2, gridspec_kw={"width_ratios": [1.05, 1.0]})
     _cloud_panel(fig, left, result, cloud)
     _population_panel(right, result)
-    head = f"{title}: " if title else ""
-    totals = result.totals
-    if "excited_probability" in totals:
-        head += f"excited probability {totals['excited_probability']:.3g}"
-    elif "contrast" in totals:
-        head += f"contrast {totals['contrast']:.3g}"
-    elif "emitted_phonons" in totals:
-        head += f"emitted phonons {integral(result.time, result.samples['emission_rate']):.3g}"
-    fig.suptitle(head, fontsize=10)
+    if scenario is not None:
+        lines = scenario_caption(scenario.describe(), scenario.raw,
+                                 extra="passage through the cloud")
+    else:
+        lines = [os.path.basename(title)] if title else []
+    set_title(fig, lines + [_totals_text(result)])
     if path is not None:
         save(fig, path)
     return fig
+
+
+def _totals_text(result):
+    """The caption line of the passage's totals (and its warnings)."""
+    totals = result.totals
+    if "excited_probability" in totals:
+        text = f"excited probability {totals['excited_probability']:.3g}"
+    elif "contrast" in totals:
+        text = f"contrast {totals['contrast']:.3g}"
+    elif "emitted_phonons" in totals:
+        text = f"emitted phonons {integral(result.time, result.samples['emission_rate']):.3g}"
+    else:
+        text = ""
+    n = len(result.warnings or ())
+    if n:
+        text += f"; {n} validity warning{'s' if n > 1 else ''} (listed with the results)"
+    return text

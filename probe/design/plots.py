@@ -199,7 +199,11 @@ def scenario_edits(source, raw):
 
 
 def _micro(text):
-    return re.sub(r"(?<![A-Za-z])um(?![A-Za-z])", "µm", str(text))
+    """A value as written, for a caption: a space between number and unit,
+    um as µm."""
+    text = re.sub(r"^\s*([-+]?[0-9.]+(?:[eE][-+]?[0-9]+)?)\s*(?=[^\s\d.%])", r"\1 ",
+                  str(text))
+    return re.sub(r"(?<![A-Za-z])um(?![A-Za-z])", "µm", text)
 
 
 def _temperature_text(temperature):
@@ -242,7 +246,7 @@ def _motion_words(scenario, raw_path, varied):
     speed = raw_path.get("speed", path.get("speed"))
     if speed is not None and not {"trajectory.speed", "trajectory.angular_frequency"} \
             & set(varied):
-        text += f" at {speed}" if isinstance(speed, str) else \
+        text += f" at {_micro(speed)}" if isinstance(speed, str) else \
             f" at {speed / c:.4g} c_s" if c else ""
     return text
 
@@ -736,9 +740,9 @@ def _contour_fmt(v):
         return "0"
     e = math.floor(math.log10(abs(v)))
     m = v / 10 ** e
-    if abs(m - 1) < 1e-9:
-        return f"1e{e}" if abs(e) > 2 else f"{v:g}"
-    return f"{v:.3g}"
+    if abs(e) <= 2:
+        return f"{v:.3g}"
+    return f"1e{e}" if abs(m - 1) < 1e-9 else f"{m:.3g}e{e}"
 
 
 def _cell_edges(values, log):
@@ -796,11 +800,13 @@ def _nice(value, how):
 
 def quantile_levels(z, steps=MAP_STEPS):
     """Levels at rounded quantiles of the positive values of ``z`` (taken
-    in log): each colour step of a map holds about as many points as the
-    next, wherever in their range the values bunch; the first level is at
-    or below the smallest value, the last at or above the largest."""
+    in log) down to LOG_FLOOR of the largest: each colour step of a map
+    holds about as many points as the next, wherever in their range the
+    values bunch; the first level is at or below the smallest value shown,
+    the last at or above the largest."""
     pos = np.asarray(z, float)
     pos = pos[np.isfinite(pos) & (pos > 0)]
+    pos = pos[pos >= pos.max() * LOG_FLOOR]
     inner = np.quantile(np.log10(pos), np.linspace(0, 1, steps + 1)[1:-1])
     levels = {_nice(float(pos.min()), "floor"), _nice(float(pos.max()), "ceil")}
     levels |= {_nice(10.0 ** q, "round") for q in inner}
@@ -830,33 +836,42 @@ def _map_norm(z, cmap):
 
 
 def _colour_map(fig, ax, edges, z, quantity, zunit):
-    """The colour mesh of a map and its colour bar; returns the colour
-    levels (None on a linear scale)."""
+    """The colour mesh of a map and its colour bar; returns (the colour
+    levels (None on a linear scale), [(legend handle, text)] of the white
+    cells)."""
     import matplotlib as mpl
+    from matplotlib.patches import Rectangle
 
     cmap = mpl.colormaps["viridis"].with_extremes(bad="white", under="white")
     norm, zm, levels = _map_norm(z, cmap)
     mesh = ax.pcolormesh(*edges, zm.T, cmap=cmap, norm=norm, rasterized=True)
-    cbar = fig.colorbar(mesh, ax=ax)
+    finite = np.isfinite(z)
+    zero = int(np.sum(finite & (z <= 0))) if levels is not None else 0
+    low = int(np.sum(finite & (z > 0) & (z < levels[0]))) if levels is not None else 0
+    cbar = fig.colorbar(mesh, ax=ax, extend="min" if low else "neither")
     label = axis_label(quantity, zunit)
     if levels is not None:
         cbar.set_ticks(levels)
         cbar.set_ticklabels([_contour_fmt(v) for v in levels])
         cbar.ax.tick_params(labelsize=7)
-        zero = int(np.sum(np.isfinite(z) & (z <= 0)))
-        label += "\ncolour steps at quantiles of the values (log)"
-        if zero:
-            label += f"; white: 0 at {zero} of {z.size} points"
+        label += "\n(steps at quantiles of the values)"
     cbar.set_label(label, fontsize=8)
-    finite = z[np.isfinite(z)]
-    if finite.size > 0 and finite.min() == finite.max():
-        cbar.set_ticks([float(finite[0])])
-        ax.annotate(f"{QUANTITY_LABELS.get(quantity, quantity)} = {finite[0]:.4g} "
+    notes = []
+    if zero or low:
+        words = [t for t in (f"0 at {zero}" if zero else "",
+                             f"below {LOG_FLOOR:.0e} of the largest at {low}" if low else "")
+                 if t]
+        notes.append((Rectangle((0, 0), 1, 1, facecolor="white", edgecolor="0.5"),
+                      f"white: {', '.join(words)} of {z.size} points"))
+    values = z[finite]
+    if values.size > 0 and values.min() == values.max():
+        cbar.set_ticks([float(values[0])])
+        ax.annotate(f"{QUANTITY_LABELS.get(quantity, quantity)} = {values[0]:.4g} "
                     f"{pretty_unit(zunit)} wherever it is finite", xy=(0.01, 0.97),
                     xycoords="axes fraction", va="top", fontsize=8,
                     bbox=dict(boxstyle="square,pad=0.2", facecolor="white",
                               edgecolor="none"))
-    return levels
+    return levels, notes
 
 
 def _map_contours(fig, ax, x, y, z, levels=None):
@@ -920,7 +935,7 @@ def plot_map(result, path=None, quantity=None):
     fig = _figure((6.6, 5.6))
     ax = fig.add_subplot()
     xe, ye = _cell_edges(x, a0.log), _cell_edges(y, a1.log)
-    levels = _colour_map(fig, ax, (xe, ye), z, quantity, zunit)
+    levels, notes = _colour_map(fig, ax, (xe, ye), z, quantity, zunit)
     _map_contours(fig, ax, x, y, z, levels)
     if a0.log:
         ax.set_xscale("log")
@@ -929,7 +944,7 @@ def plot_map(result, path=None, quantity=None):
     _nice_log_ticks(ax)
     ax.set_xlabel(xlabel)
     ax.set_ylabel(ylabel)
-    handles = _map_cells(ax, result, xe, ye)
+    handles = notes + _map_cells(ax, result, xe, ye)
     _map_speed_marks(ax, result, ((a0, fx), (a1, fy)), x, y)
     h, labels = ax.get_legend_handles_labels()
     if h or handles:
