@@ -234,6 +234,27 @@ CASES = [
      ["--vary", "probe.gap=1Hz:1e20Hz:3"], "threshold"),
     ("grid of 1e30 points", "3D", None, [],
      ["--vary", "trajectory.speed=1c_s:2c_s:1" + "0" * 30, "--out", "grid.csv"], "sweep"),
+    # --- output files and the command line -----------------------------------------------------
+    ("output file is the scenario it reads", "3D", None, [], ["-o", "scenario.toml"]),
+    ("output path is a folder", "3D", None, [], ["-o", "."]),
+    ("output path is a device", "3D", None, [], ["-o", "/dev/null"]),
+    ("output path is a symbolic link", "3D", None, [], ["-o", "/dev/stdout"]),
+    ("one name for two outputs", "3D trap", None, [], ["-o", "p.png", "--plot", "p.png"],
+     "passage"),
+    ("--quantity that is not a column (without --plot)", "3D", None, [],
+     ["--vary", "trajectory.speed=1c_s:2c_s:2", "--out", "grid.csv", "--quantity", "up_rat"],
+     "sweep"),
+    ("sweep without --out or --json", "3D", None, [], ["--vary", "trajectory.speed=1c_s:2c_s:2"],
+     "sweep"),
+    ("--resume without --out", "3D", None, [],
+     ["--vary", "trajectory.speed=1c_s:2c_s:2", "--json", "--resume"], "sweep"),
+    ("option value of the wrong type", "3D", None, [],
+     ["--vary", "trajectory.speed=1c_s:2c_s:2", "--out", "grid.csv", "--workers", "two"],
+     "sweep"),
+    ("unknown option", "3D", None, [], ["--jsn"]),
+    ("option without its value", "3D", None, [], ["--unset"]),
+    ("solve for a zero rate that vanishes below a threshold", "3D", None, [],
+     ["--for", "trajectory.speed", "--target", "up_rate=0 1/s"], "solve"),
 ]
 
 
