@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from probe.engines.quadrature import integrate
+from probe.engines.quadrature import Primitive, gauss_legendre, integrate, integrate_smooth
 from probe.engines.stationary.limits import (CUT, EPS, NEAR_SOUND, ROUNDING, STATIC_SPEED,
                                              STATIC_SPEED_3D)
 from probe.engines.stationary.threshold import refine_up_window
@@ -153,6 +153,11 @@ def _closed_forms_3d(disp, win, tags, out):
     return [t for t in tags if t not in done]
 
 
+def _weighted(gas, q, s, t):
+    """q S |F|^2 weight: the 3D integrand without its 1/(2 pi v)."""
+    return q * gas.disp.structure_factor(q) * gas.form(q, s) * gas.weights(q, t)
+
+
 def _window_3d(gas, win, kind, tags, rtol, out):
     """d = 3: int_a^b q S |F|^2 weight dq / (2 pi v) per tag, into ``out``;
     up windows just above the threshold from edges found relative to the
@@ -161,13 +166,12 @@ def _window_3d(gas, win, kind, tags, rtol, out):
 
     def make(t):
         def f(x, i):
-            return (x * disp.structure_factor(x) * gas.form(x, win.s[i, None])
-                    * gas.weights(x, t)) / (2 * math.pi * win.v[i, None])
+            return _weighted(gas, x, win.s[i, None], t) / (2 * math.pi * win.v[i, None])
         return f
     for t in _closed_forms_3d(disp, win, tags, out):
         f = make(t)
         top = _tag_top(gas, win, t)
-        val, err, _ = integrate(f, win.a, top, rtol=rtol * 0.1)
+        val, err = _integrals_3d(gas, win, t, f, top, rtol * 0.1)
         rows = np.arange(win.idx.size)
         with np.errstate(invalid="ignore", over="ignore"):
             tail = f(top[:, None], rows)[:, 0] * _tail_length(gas, win, t, top)
@@ -176,6 +180,67 @@ def _window_3d(gas, win, kind, tags, rtol, out):
     _narrow_window_error(out, win.idx, win.a, win.bq)
     if kind == "W2":
         refine_up_window(gas, win, tags, rtol, out, make)
+
+
+#: fewest points of one probe width for which the 3D windows are integrated
+#: from one tabulated primitive (its table costs ~ PANEL_COUNT * 21 nodes)
+_TABLE_POINTS = 16
+#: width of the primitive's panels in u = asinh(q / sigma)
+_PANEL_WIDTH = 0.25
+
+
+def _integrals_3d(gas, win, t, f, top, tol):
+    """int_a^top f dq for every row of ``win``: where the rows share one
+    probe width, as differences of one tabulated primitive in
+    u = asinh(q / sigma) (``quadrature.Primitive``: two short series per
+    row, whatever the window), directly (``_integrate_sinh``) for the rows
+    whose difference misses ``tol`` (narrow windows, where G(b) - G(a)
+    cancels) and for mixed widths."""
+    n = win.idx.size
+    sigma = _scale(gas, t)
+    val, err = np.zeros(n), np.full(n, np.inf)
+    hi = float(np.max(top, initial=0.0))
+    if n >= _TABLE_POINTS and np.all(win.s == win.s[0]) and math.isfinite(hi) and hi > 0:
+        def g(u):
+            q = sigma * np.sinh(u)
+            return _weighted(gas, q, win.s[0], t) * (sigma * np.cosh(u))
+        u_hi = math.asinh(hi / sigma)
+        table = Primitive(g, 0.0, u_hi, max(4, math.ceil(u_hi / _PANEL_WIDTH)))
+        with np.errstate(invalid="ignore"):
+            ua = np.arcsinh(win.a / sigma)
+            ub = np.maximum(np.arcsinh(top / sigma), ua)
+        val, err = table.integral(ua, ub)
+        val, err = val / (2 * math.pi * win.v), err / (2 * math.pi * win.v)
+    with np.errstate(invalid="ignore"):
+        redo = np.nonzero(~(err <= tol * np.abs(val)) & (top > win.a))[0]
+    if redo.size:
+        def fr(x, i):
+            return f(x, redo[i])
+        v_, e_, _ = _integrate_sinh(fr, win.a[redo], top[redo], sigma, tol)
+        val[redo], err[redo] = v_, e_
+    return val, np.where(top > win.a, err, 0.0)
+
+
+def _scale(gas, t):
+    """Distance from the real axis of the integrand's nearest complex
+    singularities, which lie near q = 0: the dispersion's own at q ~ 1 (the
+    healing length: Bogoliubov's branch points at q = +-2i) and the poles of
+    the Bose occupation at w = 2 pi i T (q ~ 2 pi T for a cold gas)."""
+    if t == "thermal" and gas.T > 0:
+        return min(1.0, 2 * math.pi * gas.T)
+    return 1.0
+
+
+def _integrate_sinh(f, a, b, sigma, rtol):
+    """int_a^b f(q) dq in the variable u of q = sigma sinh(u): graded
+    towards q = 0, near which the singularities at distance ~sigma lie, so
+    that a window far longer than sigma needs no more nodes than a short
+    one (fixed pair of rules, adaptive only where it misses rtol)."""
+    def g(u, i):
+        return f(sigma * np.sinh(u), i) * (sigma * np.cosh(u))
+    with np.errstate(invalid="ignore"):
+        lo, hi = np.arcsinh(a / sigma), np.arcsinh(b / sigma)
+    return integrate_smooth(g, lo, np.where(b > a, hi, lo), rtol=rtol)
 
 
 def _tag_top(gas, win, t):
@@ -268,22 +333,147 @@ def _integrand_2d(gas, win, kind, t):
     return f
 
 
+#: orders of the fixed pairs of rules of the 2D windows: the first for all
+#: windows, the second where the first misses the tolerance
+_PAIRS_2D = ((40, 30), (64, 48))
+#: grading of the 2D variable: theta = c sinh(w) with c = _GRADE 2 sqrt(1/(b - a)),
+#: the theta at which q - a reaches the healing scale q ~ 1 of a wide window
+_GRADE = 0.3
+#: rows per block of the 2D fixed rules (bounds the memory of the node arrays)
+_BLOCK = 2048
+
+
+def _theta_top(win, top):
+    """theta of q = top on the finite windows (a + (b - a) sin^2(theta/2)),
+    sqrt(top - a) on the unbounded ones (q = a + t^2)."""
+    fin = ~win.unbounded
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frac = np.clip((top - win.a) / np.where(fin, win.b - win.a, 1), 0, 1)
+        return np.where(fin, np.where(top < win.b, 2 * np.arcsin(np.sqrt(frac)), math.pi),
+                        np.sqrt(np.maximum(top - win.a, 0.0)))
+
+
+def _graded_nodes(rows, win, th_hi, orders):
+    """Nodes theta = c sinh(w) of the pair of Gauss-Legendre rules of
+    ``orders`` on w in [0, asinh(th_hi / c)] and dtheta/dw times the half
+    length (the rules' weights then apply directly)."""
+    x0 = np.concatenate([gauss_legendre(k)[0] for k in orders])
+    c = _GRADE * 2 / np.sqrt(win.b[rows] - win.a[rows])
+    w_hi = np.arcsinh(th_hi / c)
+    e = np.exp(0.5 * w_hi[:, None] * (x0[None, :] + 1))
+    inv = 1 / e
+    return (0.5 * c[:, None]) * (e - inv), (0.25 * w_hi * c)[:, None] * (e + inv)
+
+
+def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
+    """The 2D integrals of ``tags`` over [0, th_hi] in theta for the finite
+    windows ``rows`` by the fixed pair of rules, from one evaluation of the
+    part the tags share (q S |F|^2 and the window factor, formed directly:
+    sqrt((q - a)(b - q) / ((k v)^2 - X^2)), whose terms vanish at the
+    edges: their rounding, node by node, is part of the estimate).
+    {tag: (value, estimate)}."""
+    disp = gas.disp
+    n = gauss_legendre(orders[0])[1]
+    m = gauss_legendre(orders[1])[1]
+    th, jac = _graded_nodes(rows, win, th_hi, orders)
+    col = (lambda x: x[rows, None])
+    a, b, v, W, s = (col(x) for x in (win.a, win.b, win.v, win.W, win.s))
+    da = (b - a) * np.sin(0.5 * th) ** 2
+    db = (b - a) * np.cos(0.5 * th) ** 2
+    q = np.where(da < db, a + da, b - db)
+    om = disp.omega(q)
+    vq = v * q
+    if kind == "W1":
+        p1, p2 = vq + om - W, vq - om + W
+    else:
+        p1, p2 = vq - om - W, vq + om + W
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        base = (q * disp.structure_factor(q) * np.exp(-(q * s) ** 2)
+                * np.sqrt(da * db / (p1 * p2)) * jac / math.pi)
+        # rounding of the factor: each of p1, p2 is off by ~2 eps (v q + w + W)
+        # (its terms and the edge it vanishes at), halved by the square root
+        a1, a2 = np.abs(p1[:, :n.size]), np.abs(p2[:, :n.size])
+        rnd = 2 * EPS * (vq + om + W)[:, :n.size] * (a1 + a2) / (a1 * a2) + 16 * EPS
+    out = {}
+    for t in tags:
+        if t == "thermal":
+            with np.errstate(over="ignore", divide="ignore"):
+                vals = base / np.expm1(om / gas.T)
+        else:
+            vals = base * om if t == "energy" else base
+        hi = vals[:, :n.size] @ n
+        with np.errstate(invalid="ignore"):
+            bound = np.abs(hi - vals[:, n.size:] @ m) + (np.abs(vals[:, :n.size]) * rnd) @ n
+        out[t] = (hi, np.where(np.isfinite(bound), bound, np.inf))
+    return out
+
+
+def _lean_2d(gas, win, kind, tags, tops, orders, todo):
+    """Values and estimates {tag: (value, error)} of the finite windows by
+    ``_lean_pair_2d``: all tags at once on the rows where their cuts lie
+    close together (each tag then integrated to the largest cut, its
+    integrand below exp(-CUT) of its peak beyond its own), each tag alone
+    elsewhere; inf estimates on the unbounded windows.  Also returns the
+    theta each tag's integral reached."""
+    n = win.idx.size
+    res = {t: (np.zeros(n), np.full(n, np.inf)) for t in tags}
+    ths = {t: _theta_top(win, tops[t]) for t in tags}
+    th_max = np.max([ths[t] for t in tags], axis=0)
+    ok = ~win.unbounded & todo
+    close = np.all([ths[t] >= 0.6 * th_max for t in tags], axis=0)
+    jobs = [(tags, ok & close & (th_max > 0), th_max)] + [
+        ([t], ok & ~close & (ths[t] > 0), ths[t]) for t in tags]
+    for job_tags, mask, th in jobs:
+        sel = np.nonzero(mask)[0]
+        for k in range(0, sel.size, _BLOCK):
+            rows = sel[k:k + _BLOCK]
+            got = _lean_pair_2d(gas, win, kind, job_tags, rows, th[rows], orders)
+            for t in job_tags:
+                res[t][0][rows] = got[t][0]
+                res[t][1][rows] = got[t][1]
+    return res, {t: np.where(ok & close, th_max, ths[t]) for t in tags}
+
+
 def _window_2d(gas, win, kind, tags, rtol, out):
     """d = 2: the integral of q S |F|^2 weight 2/sqrt(k^2 v^2 - X^2) dq /
-    (2 pi) over the window per tag, into ``out``."""
+    (2 pi) over the window per tag, into ``out``: the fixed pair of rules
+    (``_lean_2d``) where it meets the tolerance, the adaptive rule on the
+    factor free of cancellation (``_integrand_2d``) elsewhere."""
     fin = ~win.unbounded
     rows = np.arange(win.idx.size)
-    for t in tags:
-        top = _tag_top(gas, win, t)
-        cut = top < win.b
-        th_hi = np.empty(win.idx.size)
+    tol = rtol * 0.1
+    tops = {t: _tag_top(gas, win, t) for t in tags}
+    todo = np.ones(win.idx.size, dtype=bool)
+    for orders in _PAIRS_2D:
+        got, th_got = _lean_2d(gas, win, kind, tags, tops, orders, todo)
+        if orders == _PAIRS_2D[0]:
+            lean, th_used = got, th_got
+        else:
+            for t in tags:
+                lean[t][0][todo], lean[t][1][todo] = got[t][0][todo], got[t][1][todo]
+                th_used[t][todo] = th_got[t][todo]
         with np.errstate(invalid="ignore"):
-            frac = np.clip((top - win.a) / np.where(fin, win.b - win.a, 1), 0, 1)
-        # b cut at top: a + (b - a) sin^2(theta/2) = top
-        th_hi[fin] = np.where(cut[fin], 2 * np.arcsin(np.sqrt(frac[fin])), math.pi)
-        th_hi[~fin] = np.sqrt(np.maximum(top[~fin] - win.a[~fin], 0.0))
+            todo = np.any([~(lean[t][1] <= tol * np.abs(lean[t][0])) for t in tags], axis=0)
+        if not np.any(todo):
+            break
+    for t in tags:
+        val, err = lean[t]
+        th_hi = th_used[t]
+        # the cut the integral reached, in q
+        top = np.where(fin & (th_hi < math.pi),
+                       win.a + (win.b - win.a) * np.sin(0.5 * th_hi) ** 2,
+                       np.where(fin, win.b, win.a + th_hi ** 2))
+        top = np.where(fin & (th_hi >= math.pi), win.b, top)
+        cut = (th_hi < math.pi) & fin | (~fin & (top < win.b))
         f = _integrand_2d(gas, win, kind, t)
-        val, err, _ = integrate(f, np.zeros(win.idx.size), th_hi, rtol=rtol * 0.1)
+        with np.errstate(invalid="ignore"):
+            redo = np.nonzero(~(err <= tol * np.abs(val)) & (th_hi > 0))[0]
+        if redo.size:
+            def fr(x, i, f=f):
+                return f(x, redo[i])
+            v_, e_, _ = integrate(fr, np.zeros(redo.size), th_hi[redo], rtol=tol)
+            val[redo], err[redo] = v_, e_
+        err = np.where(th_hi > 0, err, 0.0)
         # the neglected tail beyond the cut: the integrand in q there is
         # f(theta) / (dq/dtheta), dq/dtheta = (b - a) sin(theta)/2 or 2 t
         with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
