@@ -155,7 +155,11 @@ class Primitive:
         t = np.cos(np.pi * (np.arange(degree + 1) + 0.5) / (degree + 1))
         centres = self.lo + self.h * (np.arange(self.panels) + 0.5)
         values = g(centres[:, None] + 0.5 * self.h * t[None, :])    # (panels, degree+1)
-        coef = np.polynomial.chebyshev.chebfit(t, values.T, degree)  # (degree+1, panels)
+        # interpolation at the first-kind points: c_k = (2 - [k = 0]) mean_j f_j T_k(t_j)
+        k = np.arange(degree + 1)
+        basis = np.cos(np.outer(k, np.pi * (k + 0.5) / (degree + 1))) * (2.0 / (degree + 1))
+        basis[0] *= 0.5
+        coef = basis @ values.T                                     # (degree+1, panels)
         # G on a panel from its left end, in the panel variable t: (h/2) int_{-1}^t
         self.coef = np.polynomial.chebyshev.chebint(coef, lbnd=-1, scl=0.5 * self.h)
         whole = np.polynomial.chebyshev.chebval(1.0, self.coef)      # each panel's integral
@@ -169,7 +173,14 @@ class Primitive:
         x = np.clip(np.asarray(x, float), self.lo, self.hi)
         k = np.clip(((x - self.lo) / self.h).astype(int), 0, self.panels - 1)
         t = 2 * (x - self.lo - self.h * k) / self.h - 1
-        return self.start[k] + np.polynomial.chebyshev.chebval(t, self.coef[:, k], tensor=False), k
+        c = np.take(self.coef, k, axis=1)                          # (degree+2, points)
+        # Clenshaw's recurrence for sum_j c_j T_j(t), point by point
+        b1 = np.zeros(t.shape)
+        b2 = np.zeros(t.shape)
+        t2 = 2 * t
+        for j in range(c.shape[0] - 1, 0, -1):
+            b1, b2 = c[j] + t2 * b1 - b2, b1
+        return self.start[k] + (c[0] + t * b1 - b2), k
 
     def integral(self, x, y):
         """int_x^y g for arrays lo <= x <= y <= hi, with the bound of its

@@ -335,7 +335,7 @@ def _integrand_2d(gas, win, kind, t):
 
 #: orders of the fixed pairs of rules of the 2D windows: the first for all
 #: windows, the second where the first misses the tolerance
-_PAIRS_2D = ((40, 30), (64, 48))
+_PAIRS_2D = ((48, 36), (72, 56))
 #: grading of the 2D variable: theta = c sinh(w) with c = _GRADE 2 sqrt(1/(b - a)),
 #: the theta at which q - a reaches the healing scale q ~ 1 of a wide window
 _GRADE = 0.3
@@ -378,9 +378,10 @@ def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
     th, jac = _graded_nodes(rows, win, th_hi, orders)
     col = (lambda x: x[rows, None])
     a, b, v, W, s = (col(x) for x in (win.a, win.b, win.v, win.W, win.s))
-    da = (b - a) * np.sin(0.5 * th) ** 2
-    db = (b - a) * np.cos(0.5 * th) ** 2
-    q = np.where(da < db, a + da, b - db)
+    L = b - a
+    da = L * np.sin(0.5 * th) ** 2
+    db = L - da
+    q = a + da
     om = disp.omega(q)
     vq = v * q
     if kind == "W1":
@@ -393,7 +394,9 @@ def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
         # rounding of the factor: each of p1, p2 is off by ~2 eps (v q + w + W)
         # (its terms and the edge it vanishes at), halved by the square root
         a1, a2 = np.abs(p1[:, :n.size]), np.abs(p2[:, :n.size])
-        rnd = 2 * EPS * (vq + om + W)[:, :n.size] * (a1 + a2) / (a1 * a2) + 16 * EPS
+        # and b - q = (b - a) - (q - a) is off by eps (b - a)
+        rnd = (2 * EPS * (vq + om + W)[:, :n.size] * (a1 + a2) / (a1 * a2)
+               + EPS * L / db[:, :n.size] + 16 * EPS)
     out = {}
     for t in tags:
         if t == "thermal":
@@ -565,8 +568,13 @@ def _up_down(gas, v, W, s, I1, I2, static, tags):
     p2, e2 = _pick(I2, "plain", n)
     t1, f1 = _pick(I1, "thermal", n)
     t2, f2 = _pick(I2, "thermal", n)
-    sp = _static_values(gas, W, s, "plain")
-    stt = _static_values(gas, W, s, "thermal") if "thermal" in tags else np.zeros(n)
+    sp, stt = np.zeros(n), np.zeros(n)
+    if np.any(static):
+        i = np.nonzero(static)[0]
+        si = s[i] if np.ndim(s) else s
+        sp[i] = _static_values(gas, W[i], si, "plain")
+        if "thermal" in tags:
+            stt[i] = _static_values(gas, W[i], si, "thermal")
     # floor of the error estimate: rounding in the window edges and sums
     fl = ROUNDING
     down = np.where(static, sp + stt, p1 + t1 + t2)
