@@ -272,21 +272,22 @@ def scenario_caption(scenario, raw=None, varied=(), extra=None, switching=None):
     ``switching``: the switching in words (default: from ``raw``)."""
     raw = raw or {}
     source = scenario.get("source")
-    first = ", ".join(_gas_words(scenario["condensate"], varied))
-    if source:
-        first = f"{os.path.basename(source)}: {first}"
-    if extra:
-        first = f"{extra} — {first}"
+    gas = ", ".join(_gas_words(scenario["condensate"], varied))
+    name = os.path.basename(source) if source else ""
     second = [_probe_words(scenario["probe"], varied),
               _motion_words(scenario, raw.get("trajectory", {}), varied)]
     sw = switching or switching_words(raw.get("trajectory", {}), varied)
     if sw:
         second.append(sw)
-    lines = [first, "; ".join(second)]
+    if extra:
+        lines = [" — ".join(t for t in (extra, name) if t), "; ".join([gas] + second)]
+    else:
+        lines = [f"{name}: {gas}" if name else gas, "; ".join(second)]
     edits = scenario_edits(source, raw)
     if edits:
         lines += textwrap.wrap("as computed with " + ", ".join(
-            f"--{e}" if e.startswith("unset ") else f"--set {e}" for e in edits),
+            (f"--{e}" if e.startswith("unset ") else f"--set {e}").replace(" ", "\u00a0")
+            for e in edits),
             CAPTION_WIDTH, break_on_hyphens=False)
     return lines
 
@@ -302,12 +303,28 @@ def _title(meta, extra=None, varied=(), more=()):
     return scenario_caption(scenario, meta.get("config"), varied, extra) + list(more)
 
 
+def _wrap_phrases(line, width):
+    """``line`` in lines of at most ``width`` characters, broken after a
+    comma, semicolon or dash (never inside "T = 0"), words only where a
+    phrase alone is too long."""
+    out, current = [], ""
+    for phrase in re.split(r"(?<=[,;—:])\s+", line):
+        joined = f"{current} {phrase}" if current else phrase
+        if len(joined) <= width or not current:
+            current = joined
+        else:
+            out.append(current)
+            current = phrase
+    out.append(current)
+    return [part for ln in out for part in (
+        textwrap.wrap(ln, width, break_on_hyphens=False) if len(ln) > width else [ln])]
+
+
 def set_title(fig, lines, size=9):
     """The figure's title: the first line larger, the others (what it was
     computed with) smaller."""
     width = int(fig.get_figwidth() * 130 / size)
-    lines = [part for ln in lines if ln
-             for part in textwrap.wrap(ln, width, break_on_hyphens=False)]
+    lines = [part for ln in lines if ln for part in _wrap_phrases(ln, width)]
     if not lines:
         return
     fig.suptitle("\n".join(lines), fontsize=size, linespacing=1.35)

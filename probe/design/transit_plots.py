@@ -231,6 +231,7 @@ def _pattern_bars(ax, sp, main, second):
                edgecolor="black", hatch=HATCHES[k] if k else None, label=lab)
     ax.set_xticks([0, 1], ["backward (-x)", "forward (+x)"])
     ax.set_ylabel("emitted phonons")
+    ax.legend(fontsize=8, loc="best")
     ax.set_title("directions: phonons emitted backward and forward", fontsize=9)
 
 
