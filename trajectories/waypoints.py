@@ -62,13 +62,15 @@ class WaypointTable(NamedTuple):
     lines: tuple
 
 
-def read_waypoints_csv(path) -> WaypointTable:
+def read_waypoints_csv(path, text=None) -> WaypointTable:
     """Read the waypoints of the CSV file at ``path`` without building a
     spline: the checks and errors of :func:`load_waypoints_csv` on the file,
-    with the line numbers kept for messages about single waypoints."""
+    with the line numbers kept for messages about single waypoints.  With
+    ``text`` (the file's content, read before) the file is not opened."""
     try:
-        with open(os.fspath(path), encoding="utf-8-sig") as handle:
-            text = handle.read()
+        if text is None:
+            with open(os.fspath(path), encoding="utf-8-sig") as handle:
+                text = handle.read()
     except FileNotFoundError:
         raise TrajectoryError("waypoints.file", f"no such file: {os.fspath(path)}") from None
     except IsADirectoryError:

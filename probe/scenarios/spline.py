@@ -265,8 +265,10 @@ def _file_waypoints(name, d, source, info):
         raise InputError(key, f"must be a file name such as \"path.csv\", got {name!r}")
     path = name if os.path.isabs(name) else os.path.join(_scenario_dir(source), name)
     from trajectories import read_waypoints_csv
+
+    from probe.scenarios.files import read_text
     try:
-        table = read_waypoints_csv(path)
+        table = read_waypoints_csv(path, text=read_text(path, source, name, key))
     except TrajectoryError as exc:
         raise _trajectory_error(exc, file=name) from None
     pos = _fit_to_gas(table.positions, d, key, f"{name}: ")

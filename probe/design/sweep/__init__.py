@@ -31,8 +31,12 @@ process, in ``workers`` local processes, or on a Dask cluster
 
 Files.  With ``out`` the rows go to ``OUT.partial`` as chunks finish
 (flushed), next to a plan file ``OUT.partial.json`` that identifies the
-sweep; ``resume=True`` keeps the rows already there and computes only the
-missing points.  On completion the rows are put in point order, the CSV
+sweep (its configuration, grid, version and the content of every file the
+scenario reads, such as a spline's waypoint CSV); ``resume=True`` keeps the
+rows already there and computes only the missing points.  One run at a time
+writes them: it holds the lock file ``OUT.lock`` (another run is refused).
+An interrupt (Ctrl-C, SIGTERM), a lost Dask scheduler or a worker process
+that dies keep the partial file for ``--resume``.  On completion the rows are put in point order, the CSV
 appears at ``OUT`` in one rename, and a JSON sidecar (``OUT`` with suffix
 ``.json``) records the configuration, the grid, the columns with units and
 the versions of the tool and its libraries.
@@ -58,7 +62,11 @@ sidecar, partial file), ``display`` (readable units) and ``planning``
 """
 from __future__ import annotations
 
+import contextlib
 import math
+import os
+import signal
+import threading
 import time
 
 import numpy as np
@@ -75,8 +83,8 @@ from probe.design.sweep.grid import (MAX_POINTS, Axis, Plan, make_axis, parse_va
 from probe.design.sweep.keys import (NUMERIC_KEYS, VECTOR_KEYS, assign, check_numeric_key,
                                      raw_config, value_text)
 from probe.design.sweep.planning import PlanningEvaluator, band_column
-from probe.design.sweep.runners import make_tasks, run_dask, run_local
-from probe.errors import InputError
+from probe.design.sweep.runners import SweepStopped, make_tasks, run_dask, run_local
+from probe.errors import InputError, ModelError
 from probe.quantities import si_unit
 
 #: the partial file of an unfinished sweep (the name the tests use)
@@ -129,34 +137,101 @@ def _checked_workers(workers, scheduler):
     return workers
 
 
+#: tasks per worker at least (the last task of a worker decides when it ends)
+TASKS_PER_WORKER = 16
+
+
 def _chunk_size(plan, chunk_size, workers, todo):
     """Points per task: the evaluator's choice for the scenario (an
     engine's chunk, one transit), fewer when local workers would otherwise
-    idle."""
+    wait for the last tasks."""
     if chunk_size is None:
         chunk_size = evaluator_for(plan.scenario).chunk(plan.scenario)
         if workers > 1 and todo:
-            chunk_size = max(1, min(chunk_size, math.ceil(todo / (4 * workers))))
+            chunk_size = max(1, min(chunk_size,
+                                    math.ceil(todo / (TASKS_PER_WORKER * workers))))
     return max(1, int(chunk_size))
 
 
+class SweepInterrupted(KeyboardInterrupt):
+    """The sweep's process was asked to stop (SIGTERM): handled as Ctrl-C
+    (the partial file is kept for ``--resume``)."""
+
+    signum = 15
+
+
+@contextlib.contextmanager
+def _terminate_as_interrupt():
+    """SIGTERM raises :class:`SweepInterrupted` while the sweep runs (in the
+    main thread, where no other handler was installed), so that the workers
+    are stopped and the partial file closed whole."""
+    installed = False
+    try:
+        installed = (threading.current_thread() is threading.main_thread()
+                     and signal.getsignal(signal.SIGTERM) == signal.SIG_DFL)
+    except (AttributeError, ValueError):
+        pass
+    if installed:
+        def stop(signum, frame):
+            raise SweepInterrupted()
+        signal.signal(signal.SIGTERM, stop)
+    try:
+        yield
+    finally:
+        if installed:
+            signal.signal(signal.SIGTERM, signal.SIG_DFL)
+
+
+def _stopped(exc, partial):
+    """The one-line refusal of a sweep whose machinery stopped, saying how
+    to continue."""
+    where = (f"; the finished rows are kept in {os.fspath(partial.path)!r}: run the "
+             "same command with --resume to continue") if partial is not None else ""
+    return InputError(exc.option, exc.message + where)
+
+
 def _run(tasks, workers, scheduler, collect):
-    """Run the tasks; an interrupt keeps the partial file, any other error
-    removes it."""
+    """Run the tasks; bad input at a point removes the partial file, an
+    interrupt or anything else keeps it (a lost cluster or worker process
+    ends in a one-line error saying how to resume)."""
+    from trajectories import TrajectoryError
+
     partial = collect.partial
     try:
         if scheduler is not None:
             run_dask(tasks, scheduler, collect)
         else:
             run_local(tasks, workers, collect)
-    except (KeyboardInterrupt, SystemExit):
+    except SweepStopped as exc:
         if partial is not None:
             partial.close()
-        raise
-    except BaseException:
+        raise _stopped(exc, partial) from None
+    except (InputError, ModelError, TrajectoryError):
         if partial is not None:
             partial.discard()
         raise
+    except BaseException:
+        if partial is not None:
+            partial.close()
+        raise
+
+
+def _evaluate(plan, partial, progress, chunk_size, workers, scheduler, command):
+    """(collected rows, sidecar record) of the points not yet in the
+    partial file; the complete table put in place."""
+    collect = _Collector(plan, partial, progress)
+    todo = np.nonzero(~collect.done)[0]
+    tasks = make_tasks(plan, todo, _chunk_size(plan, chunk_size, workers, todo.size))
+    if progress is not None and collect.done.any():
+        progress(int(collect.done.sum()))
+    t0 = time.perf_counter()
+    _run(tasks, workers, scheduler, collect)
+    meta = sweep_meta(plan, workers=workers, scheduler=scheduler,
+                      elapsed=time.perf_counter() - t0,
+                      resumed=int(plan.size - todo.size), command=command)
+    if partial is not None:
+        partial.finish(collect.data, collect.warnings, meta)
+    return collect, meta
 
 
 def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
@@ -193,18 +268,13 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
                                                               removals=removals)
     workers = _checked_workers(workers, scheduler)
     partial = PartialFile(out, plan, resume) if out is not None else None
-    collect = _Collector(plan, partial, progress)
-    todo = np.nonzero(~collect.done)[0]
-    tasks = make_tasks(plan, todo, _chunk_size(plan, chunk_size, workers, todo.size))
-    if progress is not None and collect.done.any():
-        progress(int(collect.done.sum()))
-    t0 = time.perf_counter()
-    _run(tasks, workers, scheduler, collect)
-    meta = sweep_meta(plan, workers=workers, scheduler=scheduler,
-                      elapsed=time.perf_counter() - t0,
-                      resumed=int(plan.size - todo.size), command=command)
-    if partial is not None:
-        partial.finish(collect.data, collect.warnings, meta)
+    try:
+        with _terminate_as_interrupt():
+            collect, meta = _evaluate(plan, partial, progress, chunk_size, workers,
+                                      scheduler, command)
+    finally:
+        if partial is not None:
+            partial.release()
     return SweepResult(columns=list(plan.columns), units=list(plan.units),
                        data=collect.data, warnings=collect.warnings, shape=plan.shape,
                        axes=plan.axes, config=plan.raw, meta=meta)
@@ -215,6 +285,6 @@ __all__ = ["sweep", "plan_sweep", "Plan", "SweepResult", "Axis", "read_sweep",
            "VECTOR_KEYS", "MAX_POINTS", "EVALUATORS", "evaluator_for", "RatesEvaluator",
            "TransitEvaluator", "PassageEvaluator", "PartialFile", "library_versions", "sidecar_path",
            "sweep_meta", "write_csv", "write_json", "cell_text", "raw_config",
-           "PlanningEvaluator", "band_column",
+           "PlanningEvaluator", "band_column", "SweepStopped", "SweepInterrupted",
            "check_numeric_key", "si_unit", "display_unit", "format_value", "column_kind",
            "COLUMN_KINDS", "axis_value_text", "assign", "value_text"]

@@ -1,6 +1,7 @@
 """The files of a sweep: the result table (CSV whose header names every
-column with its unit), its JSON sidecar, and the partial file of an
-unfinished sweep that ``--resume`` continues."""
+column with its unit), its JSON sidecar, the partial file of an unfinished
+sweep that ``--resume`` continues, and the lock file ``OUT.lock`` that keeps
+a second run from writing the same partial file while the first runs."""
 from __future__ import annotations
 
 import csv
@@ -276,8 +277,93 @@ def _cannot_write(path, exc):
     return InputError("--out", f"cannot write {os.fspath(path)!r}: {exc.strerror or exc}")
 
 
+def _try_lock(fd):
+    """Take an exclusive lock on the open file ``fd`` without waiting (True),
+    or find it held by another process (False)."""
+    try:
+        import fcntl
+    except ImportError:                       # Windows
+        import msvcrt
+        try:
+            msvcrt.locking(fd, msvcrt.LK_NBLCK, 1)
+            return True
+        except OSError:
+            return False
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        return True
+    except OSError:
+        return False
+
+
+def _holder(fd):
+    """Who holds a lock file: the process number it recorded."""
+    try:
+        text = os.pread(fd, 64, 0).decode("ascii", "replace").strip()
+    except (OSError, AttributeError):
+        text = ""
+    return f"process {text}" if text.isdigit() else "another process"
+
+
+class SweepLock:
+    """``OUT.lock``: held (an OS file lock, released when the process ends,
+    however it ends) by the one run that writes ``OUT`` and its partial file;
+    it records that process's number and is removed when the run ends."""
+
+    def __init__(self, out):
+        self.out = Path(out)
+        self.path = Path(os.fspath(out) + ".lock")
+        self.fd = None
+
+    def acquire(self):
+        """Hold the lock, or InputError naming the process that holds it."""
+        for _ in range(20):
+            try:
+                fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o644)
+            except OSError as exc:
+                raise _cannot_write(self.path, exc) from None
+            if not _try_lock(fd):
+                who = _holder(fd)
+                os.close(fd)
+                raise InputError("--out", f"{os.fspath(self.out)!r} is being written by "
+                                          f"another sweep ({who}, still running); wait "
+                                          "for it to end, or stop it and continue with "
+                                          "--resume")
+            try:          # the holder may have removed the file just before
+                same = os.path.samestat(os.fstat(fd), os.stat(self.path))
+            except OSError:
+                same = False
+            if same:
+                break
+            os.close(fd)
+        else:
+            raise InputError("--out", f"cannot lock {os.fspath(self.path)!r}")
+        os.ftruncate(fd, 0)
+        os.write(fd, f"{os.getpid()}\n".encode())
+        self.fd = fd
+
+    def release(self):
+        """Remove the lock file (while still holding it) and let go."""
+        if self.fd is None:
+            return
+        try:
+            self.path.unlink(missing_ok=True)
+        except OSError:
+            pass
+        os.close(self.fd)
+        self.fd = None
+
+
+def _stored_plan(plan):
+    """What the plan file ``OUT.partial.json`` records of a sweep."""
+    return {"fingerprint": plan.fingerprint(), "config": plan.raw,
+            "axes": [a.to_dict() for a in plan.axes], "columns": plan.header(),
+            "files": plan.file_digests()}
+
+
 class PartialFile:
-    """Rows of an unfinished sweep in ``OUT.partial`` (+ ``.partial.json``)."""
+    """Rows of an unfinished sweep in ``OUT.partial`` (+ ``.partial.json``),
+    written by the one run that holds ``OUT.lock``."""
 
     def __init__(self, out, plan, resume):
         self.out = Path(out)
@@ -296,8 +382,11 @@ class PartialFile:
                                       "does not exist")
         if self.out.is_dir():
             raise InputError("--out", f"{os.fspath(self.out)!r} is a directory")
+        self.lock = SweepLock(self.out)
+        self.lock.acquire()
         exists = self.path.exists()
         if exists and not resume:
+            self.lock.release()
             raise InputError("--out", f"{os.fspath(self.path)!r} holds an "
                                       "interrupted sweep; continue it with "
                                       "--resume, or delete it to start afresh")
@@ -313,10 +402,7 @@ class PartialFile:
                 self.fh = open(self.path, "w", newline="")
                 self.fh.write(self.header_line)
                 self.fh.flush()
-                write_json(self.plan_path, {"fingerprint": self.plan.fingerprint(),
-                                            "config": self.plan.raw,
-                                            "axes": [a.to_dict() for a in self.plan.axes],
-                                            "columns": self.plan.header()})
+                write_json(self.plan_path, _stored_plan(self.plan))
         except OSError as exc:
             raise _cannot_write(self.path, exc) from None
 
@@ -329,12 +415,23 @@ class PartialFile:
             stored = {}
         if stored.get("fingerprint") != self.plan.fingerprint():
             raise InputError("--resume", f"{os.fspath(self.path)!r} was started "
-                                         "by a different sweep (configuration, "
-                                         "grid or version differ); delete it to "
-                                         "start afresh")
+                                         f"by a different sweep ({self._differs(stored)}); "
+                                         "delete it to start afresh")
         if not blob.startswith(self.header_line.encode()):
             raise InputError("--resume", f"{os.fspath(self.path)!r} does not start "
                                          "with this sweep's header; delete it")
+
+    def _differs(self, stored):
+        """What differs between the stored plan and this one, in words."""
+        now = json.loads(json.dumps(_stored_plan(self.plan), default=str))
+        same = [k for k in ("config", "axes", "columns") if stored.get(k) == now[k]]
+        files = stored.get("files")
+        if len(same) == 3 and isinstance(files, dict) and files != now["files"]:
+            changed = sorted(n for n in set(files) | set(now["files"])
+                             if files.get(n) != now["files"].get(n))
+            return "the content of " + ", ".join(repr(n) for n in changed) + \
+                " changed since it was started"
+        return "configuration, grid, files read or version differ"
 
     def _parse_row(self, line):
         """(index, values, warning) of a stored row, or None where the file
@@ -385,6 +482,11 @@ class PartialFile:
     def close(self):
         if self.fh is not None and not self.fh.closed:
             self.fh.close()
+
+    def release(self):
+        """Close the file and let another run write ``OUT``."""
+        self.close()
+        self.lock.release()
 
     def finish(self, data, warnings, meta):
         """Put the complete table in place and remove the partial files."""

@@ -7,7 +7,7 @@ import hashlib
 import json
 import math
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -168,6 +168,9 @@ class Plan:
     columns: list
     units: list
     vector: dict           # key -> engine argument, for the axes passed as arrays
+    #: the files the scenario reads ((source, name) -> text, read once when
+    #: planning): the tasks carry them, the fingerprint covers their content
+    files: dict = field(default_factory=dict)
 
     @property
     def shape(self):
@@ -177,10 +180,18 @@ class Plan:
     def size(self):
         return int(np.prod(self.shape)) if self.axes else 1
 
+    def file_digests(self):
+        """``{name: SHA-256}`` of the files the scenario reads."""
+        from probe.scenarios.files import digests
+        return digests(self.files)
+
     def fingerprint(self):
+        """What identifies the sweep: configuration, axes, columns, version
+        and the content of every file the scenario reads."""
         from probe import __version__
         blob = json.dumps({"config": self.raw, "axes": [a.to_dict() for a in self.axes],
                            "columns": self.columns, "units": self.units,
+                           "files": self.file_digests(),
                            "version": __version__}, sort_keys=True, default=str)
         return hashlib.sha256(blob.encode()).hexdigest()
 
@@ -226,9 +237,11 @@ def plan_sweep(config, vary, log=(), overrides=(), source=None, removals=()):
     ``source`` names the file a dict ``config`` came from; ``removals`` and
     ``overrides`` edit it first (as ``--unset`` and ``--set``)."""
     from probe.scenarios.config import scenario_from_dict
+    from probe.scenarios.files import pinned, recording
 
     raw, source = raw_config(config, overrides, source, removals)
-    base = scenario_from_dict(raw, source=source)
+    with recording() as files:
+        base = scenario_from_dict(raw, source=source)
     entries = vary_entries(vary)
     log = tuple(log)
     keys = _checked_keys(entries, log)
@@ -238,7 +251,8 @@ def plan_sweep(config, vary, log=(), overrides=(), source=None, removals=()):
         raise InputError("--vary", f"the grid has {total} points, more than "
                                    f"the limit {MAX_POINTS}")
     axes = [make_axis(k, a, b, n, k in log, base) for k, a, b, n in entries]
-    _check_corners(raw, source, axes)
+    with pinned(files):
+        _check_corners(raw, source, axes)
     ev = evaluator_for(base)
     cols = [("point", "1")] + [(a.key, si_unit(a.kind, base.condensate.dimension))
                                for a in axes]
@@ -246,4 +260,5 @@ def plan_sweep(config, vary, log=(), overrides=(), source=None, removals=()):
     cols.append(("warnings", "text"))
     vec = {k: v for k, v in ev.vector_keys(raw, base).items() if k in keys}
     return Plan(raw=raw, source=source, scenario=base, axes=axes,
-                columns=[c for c, _ in cols], units=[u for _, u in cols], vector=vec)
+                columns=[c for c, _ in cols], units=[u for _, u in cols], vector=vec,
+                files=dict(files))

@@ -2,18 +2,48 @@
 processes, or on a Dask cluster (the numbers are the same in all three).
 
 Points that share the values of every key not passed to the engine as an
-array share one scenario; a task holds chunks of such points."""
+array share one scenario; a task holds chunks of such points, the
+configuration and the text of every file the scenario reads (read once when
+the sweep was planned: a worker never reads them from its own disk or
+working folder).
+
+Local workers (``run_local``): this process computes tasks itself while
+``workers - 1`` processes start in the background, then shares the rest
+with them.  Each worker watches a pipe from this process and exits as soon
+as it closes: when this process ends (even killed by SIGKILL) or stops the
+pool (an interrupt).  A Dask cluster (``run_dask``) that stops answering
+ends the run with :class:`SweepStopped`; the rows already finished stay.
+"""
 from __future__ import annotations
 
+import collections
+import contextlib
 import functools
 import json
+import logging
+import os
 import threading
 
 import numpy as np
 
 from probe.design.sweep.evaluators import evaluator_for
 from probe.design.sweep.keys import assign
-from probe.errors import InputError
+from probe.errors import InputError, ModelError
+
+
+class OtherColumns(RuntimeError):
+    """A worker computed rows of another width than the plan's (another
+    version of the package where it runs)."""
+
+
+class SweepStopped(Exception):
+    """The machinery running a sweep stopped before it finished (a worker
+    process died, the Dask scheduler went away): the rows already finished
+    are kept.  ``option`` names the command-line option it concerns."""
+
+    def __init__(self, option, message):
+        super().__init__(message)
+        self.option, self.message = option, message
 
 #: the warnings of a point joined into one CSV cell
 WARNING_SEPARATOR = " | "
@@ -22,42 +52,56 @@ _SCENARIO_LOCK = threading.Lock()
 
 
 @functools.lru_cache(maxsize=64)
-def _scenario(raw_json, source, group):
+def _scenario(raw_json, source, files, group):
     from probe.scenarios.config import scenario_from_dict
 
     raw = json.loads(raw_json)
     return scenario_from_dict(assign(raw, dict(group)), source=source)
 
 
-def _group_scenario(raw_json, source, group):
+def _group_scenario(raw_json, source, files, group):
     # pint's registry is not meant for concurrent use: one build at a time
     with _SCENARIO_LOCK:
-        return _scenario(raw_json, source, group)
+        return _scenario(raw_json, source, files, group)
 
 
 def run_task(task):
-    """Evaluate one task: ``(raw_json, source, pieces)`` with pieces
-    ``(group, axes, index)``; ``group`` is a tuple of (key, config value) for
-    the axes set through the configuration, ``axes`` a tuple of
-    (key, engine argument or None, relative, values) for every axis.
-    Returns a list of (index, rows, warnings)."""
-    raw_json, source, pieces = task
-    out = []
-    for group, axes, index in pieces:
-        scenario = _group_scenario(raw_json, source, group)
-        n = len(index)
-        c = scenario.condensate.sound_speed
-        arrays, axis_cols = {}, []
-        for key, arg, relative, values in axes:
-            v = np.asarray(values, float) * (c if relative else 1.0)
-            axis_cols.append(v)
-            if arg is not None:
-                arrays[arg] = v
-        rows, warns = evaluator_for(scenario).evaluate(scenario, arrays, n)
-        full = np.column_stack([np.asarray(index, float)] + axis_cols + [rows]) \
-            if axis_cols else np.column_stack([np.asarray(index, float), rows])
-        out.append((np.asarray(index), full, [WARNING_SEPARATOR.join(w) for w in warns]))
+    """Evaluate one task: ``(raw_json, source, files, width, pieces)`` with
+    ``files`` the pairs ((source, name), text) of the files the scenario
+    reads, ``width`` the numbers in a row and pieces ``(group, axes,
+    index)``; ``group`` is a tuple of (key, config value) for the axes set
+    through the configuration, ``axes`` a tuple of (key, engine argument or
+    None, relative, values) for every axis.  Returns a list of (index, rows,
+    warnings)."""
+    from probe.scenarios.files import pinned
+
+    raw_json, source, files, width, pieces = task
+    with pinned(files):
+        out = [_run_piece(raw_json, source, files, piece) for piece in pieces]
+    for _, rows, _ in out:
+        if rows.shape[1] != width:
+            raise OtherColumns(f"a worker computed rows of {rows.shape[1]} numbers where "
+                               f"the sweep has {width} (another version of "
+                               "condensate-probe where it runs?)")
     return out
+
+
+def _run_piece(raw_json, source, files, piece):
+    """(index, rows, warnings) of one piece of a task."""
+    group, axes, index = piece
+    scenario = _group_scenario(raw_json, source, files, group)
+    n = len(index)
+    c = scenario.condensate.sound_speed
+    arrays, axis_cols = {}, []
+    for key, arg, relative, values in axes:
+        v = np.asarray(values, float) * (c if relative else 1.0)
+        axis_cols.append(v)
+        if arg is not None:
+            arrays[arg] = v
+    rows, warns = evaluator_for(scenario).evaluate(scenario, arrays, n)
+    full = np.column_stack([np.asarray(index, float)] + axis_cols + [rows]) \
+        if axis_cols else np.column_stack([np.asarray(index, float), rows])
+    return np.asarray(index), full, [WARNING_SEPARATOR.join(w) for w in warns]
 
 
 def _groups(plan, indices):
@@ -79,6 +123,8 @@ def make_tasks(plan, indices, chunk):
     """Split the points ``indices`` (sorted flat indices) into tasks of
     about ``chunk`` points."""
     raw_json = json.dumps(plan.raw, sort_keys=True)
+    files = tuple(sorted(plan.files.items(), key=lambda kv: repr(kv[0])))
+    width = len(plan.columns) - 1                 # without the warnings
     axes = plan.axes
     sub, group_axes, gkey, order = _groups(plan, indices)
     tasks, current, filled = [], [], 0
@@ -86,7 +132,7 @@ def make_tasks(plan, indices, chunk):
     def flush():
         nonlocal current, filled
         if current:
-            tasks.append((raw_json, plan.source, tuple(current)))
+            tasks.append((raw_json, plan.source, files, width, tuple(current)))
         current, filled = [], 0
 
     start = 0
@@ -112,49 +158,148 @@ def make_tasks(plan, indices, chunk):
     return tasks
 
 
-def _worker_init():
+# ---------------------------------------------------------------------------
+# local worker processes
+# ---------------------------------------------------------------------------
+def _watch_parent(life):
+    """Block until the pipe from the sweep's process closes (it ended or
+    stopped the pool), then end this worker at once."""
+    try:
+        while True:
+            life.recv_bytes()
+    except (EOFError, OSError):
+        pass
+    os._exit(1)
+
+
+def _worker_init(life):
+    """In each worker: Ctrl-C goes to the sweep's process (which stops the
+    pool), and the worker ends when that process does."""
     import signal
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    threading.Thread(target=_watch_parent, args=(life,), daemon=True,
+                     name="sweep-parent-watch").start()
 
 
-def _pool(workers):
-    """Worker processes started from a fork server that has imported the
+def _context():
+    """Worker processes are started from a fork server that has imported the
     engine (cheap to start; forking this process directly would share its
     memory copy-on-write, which measurably slows the workers, and is unsafe
     when it runs other threads); spawned where there is no fork server."""
     import multiprocessing as mp
-    from concurrent.futures import ProcessPoolExecutor
 
     if "forkserver" in mp.get_all_start_methods():
         ctx = mp.get_context("forkserver")
         ctx.set_forkserver_preload(["probe.design.sweep", "probe.engines.stationary",
                                     "probe.scenarios.config"])
-    else:
-        ctx = mp.get_context("spawn")
-    return ProcessPoolExecutor(max_workers=workers, mp_context=ctx,
-                               initializer=_worker_init)
+        return ctx
+    return mp.get_context("spawn")
+
+
+class LocalPool:
+    """``size`` worker processes, started in the background (starting them
+    takes a second or more: the caller computes meanwhile).  ``executor`` is
+    None until they are ready."""
+
+    def __init__(self, size):
+        self.ctx = _context()
+        self.size = size
+        self._life_r, self._life_w = self.ctx.Pipe(duplex=False)
+        self.executor = None
+        self.error = None
+        self._closed = False
+        self._lock = threading.Lock()
+        self._thread = threading.Thread(target=self._start, daemon=True,
+                                        name="sweep-pool-start")
+        self._thread.start()
+
+    def _start(self):
+        from concurrent.futures import ProcessPoolExecutor
+
+        ex = None
+        try:
+            ex = ProcessPoolExecutor(max_workers=self.size, mp_context=self.ctx,
+                                     initializer=_worker_init, initargs=(self._life_r,))
+            # the first calls start the processes
+            for fut in [ex.submit(os.getpid) for _ in range(self.size)]:
+                fut.result()
+        except Exception as exc:              # the caller computes alone
+            self.error = exc
+        with self._lock:
+            if self._closed or self.error is not None:
+                if ex is not None:
+                    ex.shutdown(wait=True, cancel_futures=True)
+            else:
+                self.executor = ex
+
+    def stop(self, finished):
+        """Stop the workers: after their last task when the sweep
+        ``finished``, at once otherwise."""
+        with self._lock:
+            self._closed = True
+            ex = self.executor
+        if ex is None:
+            # processes still starting end as soon as they read the closed
+            # pipe; wait for that (a process still reading its start-up data
+            # when this one exits would fail noisily)
+            self._life_w.close()
+            self._thread.join(60)
+        else:
+            if not finished:
+                self._life_w.close()             # the workers end now
+            ex.shutdown(wait=True, cancel_futures=not finished)
+            self._life_w.close()
+        self._life_r.close()
+
+
+def _take(pending, handle, block):
+    """Hand the finished tasks' results to ``handle`` (waiting for one when
+    ``block``)."""
+    from concurrent.futures import FIRST_COMPLETED, wait
+    from concurrent.futures.process import BrokenProcessPool
+
+    done = wait(pending, return_when=FIRST_COMPLETED)[0] if block else \
+        [f for f in pending if f.done()]
+    for fut in done:
+        pending.discard(fut)
+        try:
+            result = fut.result()
+        except BrokenProcessPool:
+            raise SweepStopped("--workers", "a worker process ended before its task "
+                                            "was done (killed?)") from None
+        except OtherColumns as exc:
+            raise SweepStopped("--workers", str(exc)) from None
+        handle(result)
 
 
 def run_local(tasks, workers, handle):
-    """Run the tasks here (``workers`` <= 1) or in local processes; every
-    task's result goes to ``handle`` as it finishes."""
+    """Run the tasks here (``workers`` <= 1) or here and in ``workers - 1``
+    local processes; every task's result goes to ``handle`` as it finishes.
+    This process takes tasks from the end of the list, the workers from its
+    start."""
     if workers <= 1 or len(tasks) < 2:
         for t in tasks:
             handle(run_task(t))
         return
-    from concurrent.futures import as_completed
-
-    ex = _pool(workers)
+    pool = LocalPool(workers - 1)
+    finished = False
     try:
-        futures = [ex.submit(run_task, t) for t in tasks]
-        for fut in as_completed(futures):
-            handle(fut.result())
-    except BaseException:
-        ex.shutdown(wait=True, cancel_futures=True)
-        raise
-    ex.shutdown(wait=True)
+        queue, pending = collections.deque(tasks), set()
+        while queue or pending:
+            if pool.executor is not None:
+                while queue and len(pending) < 2 * pool.size:
+                    pending.add(pool.executor.submit(run_task, queue.popleft()))
+            _take(pending, handle, block=not queue)
+            if queue:
+                handle(run_task(queue.pop()))
+        finished = True
+    finally:
+        pool.stop(finished)
 
 
+# ---------------------------------------------------------------------------
+# Dask
+# ---------------------------------------------------------------------------
 def _client(scheduler):
     """(client, own): a Dask client for ``scheduler`` (an address, or a
     client to use as it is)."""
@@ -164,27 +309,101 @@ def _client(scheduler):
         return scheduler, False
     try:
         return Client(scheduler, timeout="20s"), True
-    except (OSError, TimeoutError, ValueError) as exc:
+    except Exception as exc:                # refused, timed out, not a scheduler
         raise InputError("--scheduler", f"cannot connect to {scheduler!r}: "
-                                        f"{exc}") from None
+                                        f"{_reason(exc)}") from None
+
+
+def _reason(exc):
+    """The kind of an error and its first line, shortened."""
+    text = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+    text = text if len(text) <= 120 else text[:117] + "..."
+    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+
+
+def _bounded(call, seconds=10):
+    """Run ``call`` for at most ``seconds`` (a client talking to a scheduler
+    that is gone may wait much longer)."""
+    t = threading.Thread(target=lambda: _ignore(call), daemon=True)
+    t.start()
+    t.join(seconds)
+
+
+def _ignore(call):
+    try:
+        call()
+    except Exception:
+        pass
+
+
+class _Quiet:
+    """No log records of an own Dask client on stderr while it runs the
+    sweep: a lost scheduler is reported once, by the sweep.  After a loss
+    the client's loop may still log its reconnection attempts while it
+    closes, so the levels stay raised then."""
+
+    NAMES = ("distributed", "tornado")
+
+    def __init__(self, own):
+        known = list(logging.root.manager.loggerDict)
+        self.names = sorted({n for n in known + list(self.NAMES)
+                             if n.split(".")[0] in self.NAMES}) if own else []
+        self.levels = [logging.getLogger(n).level for n in self.names]
+        self.lost = False
+
+    def __enter__(self):
+        for n in self.names:
+            logging.getLogger(n).setLevel(logging.CRITICAL + 1)
+        return self
+
+    def __exit__(self, *exc):
+        if not self.lost:
+            for n, level in zip(self.names, self.levels):
+                logging.getLogger(n).setLevel(level)
+
+
+def _gather(client, tasks, handle):
+    from distributed import as_completed
+
+    futures = client.map(run_task, tasks, pure=False)
+    try:
+        for fut in as_completed(futures):
+            handle(fut.result())
+    except BaseException:
+        _bounded(lambda: client.cancel(futures))
+        raise
+
+
+def _lost(exc):
+    """The words for a cluster that stopped the sweep."""
+    text = f"{type(exc).__name__}: {exc}"
+    if isinstance(exc, (OSError, TimeoutError)) or "CommClosed" in text or \
+            "connection-lost" in text or "connection lost" in text.lower():
+        return "lost the connection to the scheduler"
+    return f"the cluster stopped the sweep ({_reason(exc)})"
 
 
 def run_dask(tasks, scheduler, handle):
-    """Run the tasks on a Dask cluster; results go to ``handle``."""
+    """Run the tasks on a Dask cluster; results go to ``handle``.  A
+    scheduler that stops answering (or workers that die) end the run with
+    :class:`SweepStopped`."""
     try:
-        from distributed import as_completed
+        import distributed  # noqa: F401
     except ImportError:
         raise InputError("--scheduler", "needs the optional Dask packages: "
                                         "pip install 'condensate-probe[cluster]'") from None
+    from trajectories import TrajectoryError
+
     client, own = _client(scheduler)
-    try:
-        futures = client.map(run_task, tasks, pure=False)
+    address = getattr(getattr(client, "scheduler", None), "address", None) or scheduler
+    with _Quiet(own) as quiet:
         try:
-            for fut in as_completed(futures):
-                handle(fut.result())
-        except BaseException:
-            client.cancel(futures)
+            _gather(client, tasks, handle)
+        except (InputError, ModelError, TrajectoryError):
             raise
-    finally:
-        if own:
-            client.close()
+        except Exception as exc:
+            quiet.lost = True
+            raise SweepStopped("--scheduler", f"{_lost(exc)} at {address}") from None
+        finally:
+            if own:
+                _bounded(lambda: client.close(timeout=5), 10)
