@@ -170,17 +170,16 @@ def sweep(config, vary, log, out, as_json, overrides, removals, resume, workers,
             if quantity is not None:
                 from probe.design.plots import check_quantity
                 check_quantity(plan.columns, quantity)
-            bar = Progress(plan.size, "sweep")
-            try:
-                result = run(plan, vary, log, overrides, out=out, resume=resume,
-                             workers=workers, scheduler=scheduler, progress=bar,
-                             command=_command_line(), removals=removals)
-            except KeyboardInterrupt:
-                bar.close()
-                _interrupted(out)
-            bar.close()
             if out is not None:
-                outputs.adopt(out, sidecar_path(out))
+                outputs.watch(out, sidecar_path(out))
+            with Progress(plan.size, "sweep") as bar:
+                try:
+                    result = run(plan, vary, log, overrides, out=out, resume=resume,
+                                 workers=workers, scheduler=scheduler, progress=bar,
+                                 command=_command_line(), removals=removals)
+                except KeyboardInterrupt:
+                    bar.close()
+                    _interrupted(out)
             if plot is not None:
                 from probe.design.plots import plot_sweep
                 _stage_plot(outputs, plot, plot_sweep, result, quantity=quantity)

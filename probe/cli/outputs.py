@@ -112,6 +112,7 @@ class Outputs:
         self.targets = {}            # absolute path -> option
         self.staged = []             # (temporary, target, option)
         self.placed = []             # files of this run now in place
+        self.watched = {}            # path -> what was there before the run
 
     def add_inputs(self, paths):
         self.inputs += [os.fspath(p) for p in paths if p]
@@ -157,6 +158,11 @@ class Outputs:
     def adopt(self, *paths):
         self.placed += [os.fspath(p) for p in paths if p is not None]
 
+    def watch(self, *paths):
+        """Files another writer of this run may put in place (a sweep's CSV
+        and sidecar): removed on failure if the run changed them."""
+        self.watched.update({os.fspath(p): _signature(p) for p in paths if p is not None})
+
     def commit(self):
         """Rename every staged file over its target (mode as a new file's)."""
         mode = 0o666 & ~_umask()
@@ -177,7 +183,10 @@ class Outputs:
             _remove(tmp)
         for target in self.placed:
             _remove(target)
-        self.staged, self.placed = [], []
+        for target, before in self.watched.items():
+            if _signature(target) != before:
+                _remove(target)
+        self.staged, self.placed, self.watched = [], [], {}
 
     def __enter__(self):
         return self
@@ -186,6 +195,15 @@ class Outputs:
         if kind is not None:
             self.discard()
         return False
+
+
+def _signature(path):
+    """What is at ``path`` (inode, size, modification time), or None."""
+    try:
+        st = os.lstat(path)
+    except OSError:
+        return None
+    return (st.st_ino, st.st_size, st.st_mtime_ns)
 
 
 def _remove(path):
