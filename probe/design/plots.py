@@ -924,14 +924,14 @@ def _map_speed_marks(ax, result, scaled_axes, x, y):
     speed axes of a map; ``scaled_axes``: (axis, factor) of x and y."""
     c = _constant(result.column("sound_speed"))
     for k, (axis, fac) in enumerate(scaled_axes):
-        if axis.kind != "speed" or c is None:
+        if axis.kind != "speed" or (c is None and not axis.relative):
             continue
         pos = 1.0 if axis.relative else c * fac
         line = ax.axvline if k == 0 else ax.axhline
         line(pos, color="white", linewidth=2.6, zorder=3)
         line(pos, color="black", linestyle=(0, (4, 2)), linewidth=1.3, zorder=4,
              label="sound speed $c_s$")
-        if "up_threshold_speed" in result.columns:
+        if "up_threshold_speed" in result.columns and c is not None:
             _map_threshold(ax, result, k, axis, fac, c, x, y)
 
 
@@ -1095,8 +1095,12 @@ def _compare_map(cmp, path):
             handles.append(Rectangle((0, 0), 1, 1, facecolor="white", edgecolor="0.2",
                                      hatch=HATCHES[k % len(HATCHES)],
                                      label=f"{v.label}: no result"))
+        flags, _ = validity_flags(v.result.warnings)
         handles.append(Line2D([], [], color=st["color"], linestyle=st["linestyle"],
-                              label=f"{v.label}: {v.main}"))
+                              label=f"{'configured' if k == 0 else v.label}: "
+                                    f"{QUANTITY_LABELS.get(v.main, v.main).split(' $')[0]}"
+                                    + (f" (validity warning at {int(flags.sum())} of "
+                                       f"{flags.size} points)" if flags.any() else "")))
     if a0.log:
         ax.set_xscale("log")
     if a1.log:
@@ -1104,9 +1108,9 @@ def _compare_map(cmp, path):
     _nice_log_ticks(ax)
     ax.set_xlabel(xlabel)
     ax.set_ylabel(ylabel)
-    ax.legend(handles=handles, loc="upper left", fontsize=7, framealpha=0.9,
-              title=f"contours [{pretty_unit(base.unit(cmp.base.main))}]",
-              title_fontsize=7)
+    _legend(fig, handles, [h.get_label() for h in handles],
+            title=f"contours [{pretty_unit(base.unit(cmp.base.main))}]; "
+                  f"configured: {cmp.base.label}")
     set_title(fig, _title(base.meta, "model comparison", [a.key for a in cmp.axes]))
     if path is not None:
         save(fig, path)
