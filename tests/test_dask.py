@@ -59,3 +59,139 @@ def test_scheduler_and_workers_exclude_each_other(cluster, tmp_path):
                                  "--workers", "2"])
     assert r.exit_code == 2 and "error: --workers: not used with --scheduler" in r.output
     assert list(tmp_path.iterdir()) == []
+
+
+# ---------------------------------------------------------------------------
+# a scheduler and a worker in processes of their own
+# ---------------------------------------------------------------------------
+import os  # noqa: E402
+import signal  # noqa: E402
+import subprocess  # noqa: E402
+import sys  # noqa: E402
+import time  # noqa: E402
+
+import test_sweep_safety as safety  # noqa: E402
+
+VARY_MAP = ["trajectory.speed=0.3c_s:1.6c_s:40", "trajectory.radius=2um:8um:30"]
+
+
+class RemoteCluster:
+    """A Dask scheduler and one single-threaded worker (no nanny), each a
+    process of its own on 127.0.0.1; the worker runs in ``worker_cwd``."""
+
+    def __init__(self, folder, worker_cwd=None):
+        folder.mkdir(parents=True, exist_ok=True)
+        info = folder / f"scheduler-{time.monotonic_ns()}.json"
+        quiet = dict(stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        self.scheduler = subprocess.Popen(
+            [sys.executable, "-m", "distributed.cli.dask_scheduler", "--host", "127.0.0.1",
+             "--port", "0", "--no-dashboard", "--scheduler-file", str(info)], **quiet)
+        safety.wait_for(info.exists, timeout=60, what="the scheduler's address")
+        time.sleep(0.2)
+        import json
+        self.address = json.loads(info.read_text())["address"]
+        worker_cwd = worker_cwd or folder
+        self.worker = subprocess.Popen(
+            [sys.executable, "-m", "distributed.cli.dask_worker", self.address,
+             "--nthreads", "1", "--no-nanny", "--no-dashboard", "--host", "127.0.0.1",
+             "--local-directory", str(folder / "scratch")], cwd=worker_cwd, **quiet)
+        with distributed.Client(self.address, timeout="60s") as client:
+            client.wait_for_workers(1, timeout=120)
+
+    def close(self):
+        for proc in (self.worker, self.scheduler):
+            if proc.poll() is None:
+                proc.terminate()
+        for proc in (self.worker, self.scheduler):
+            try:
+                proc.wait(timeout=20)
+            except subprocess.TimeoutExpired:
+                proc.kill()
+                proc.wait()
+
+
+@pytest.fixture(scope="module")
+def map_reference(tmp_path_factory):
+    ref = tmp_path_factory.mktemp("ref") / "ref.csv"
+    sweep(RING, VARY_MAP, out=ref)
+    return ref.read_bytes()
+
+
+def test_a_worker_in_another_folder_uses_the_planned_waypoint_file(tmp_path):
+    """The worker's own folder holds another path.csv: the numbers are those
+    of the file beside the scenario, read once by the planning process."""
+    config = safety.spline_folder(tmp_path / "a", safety.PATH_A)
+    safety.spline_folder(tmp_path / "b", safety.PATH_B)
+    cluster = RemoteCluster(tmp_path / "cluster", worker_cwd=tmp_path / "b")
+    try:
+        args = safety.cli_args("s.toml", safety.GAPS, "remote.csv", "--scheduler",
+                               cluster.address)
+        done = subprocess.run(safety.EXE + args, cwd=config.parent, capture_output=True,
+                              text=True, timeout=300)
+        assert done.returncode == 0, done.stderr
+    finally:
+        cluster.close()
+    sweep(str(config), safety.GAPS, out=tmp_path / "local.csv")
+    assert (config.parent / "remote.csv").read_bytes() == \
+        (tmp_path / "local.csv").read_bytes()
+
+
+def _stopped_run(tmp_path, stop):
+    """A CLI sweep on a cluster of its own, stopped by ``stop(proc,
+    cluster)`` after its first rows; returns (proc, stderr, out)."""
+    out = tmp_path / "out" / "map.csv"
+    out.parent.mkdir()
+    cluster = RemoteCluster(tmp_path / "c1")
+    try:
+        proc = safety.start_cli(safety.cli_args(RING, VARY_MAP, out, "--scheduler",
+                                                cluster.address))
+        safety.wait_for(lambda: safety.rows_in(str(out) + ".partial") >= 1, proc,
+                        what="the first rows")
+        t0 = time.monotonic()
+        stop(proc, cluster)
+        _, err = proc.communicate(timeout=120)
+        assert time.monotonic() - t0 < 60
+    finally:
+        cluster.close()
+    return proc, err, out
+
+
+def _resume_on_a_new_cluster(tmp_path, out, reference):
+    cluster = RemoteCluster(tmp_path / "c2")
+    try:
+        done = subprocess.run(safety.EXE + safety.cli_args(
+            RING, VARY_MAP, out, "--resume", "--scheduler", cluster.address),
+            capture_output=True, text=True, timeout=300)
+    finally:
+        cluster.close()
+    assert done.returncode == 0, done.stderr
+    assert "resumed:" in done.stdout
+    assert out.read_bytes() == reference
+    assert safety.leftovers(out.parent, ("map.csv", "map.json")) == []
+
+
+def test_killing_the_scheduler_keeps_the_rows_and_resume_continues(tmp_path, map_reference):
+    proc, err, out = _stopped_run(
+        tmp_path, lambda proc, cluster: cluster.scheduler.send_signal(signal.SIGKILL))
+    partial = str(out) + ".partial"
+    if proc.returncode == 0:
+        pytest.skip("the sweep had finished when the scheduler was killed")
+    assert proc.returncode == 2, err
+    assert err.strip().splitlines() == [
+        f"error: --scheduler: lost the connection to the scheduler at "
+        f"{err.split(' at ')[1].split(';')[0]}; the finished rows are kept in "
+        f"{partial}: run the same command with --resume to continue"], err
+    assert "Traceback" not in err and safety.rows_in(partial) >= 1
+    _resume_on_a_new_cluster(tmp_path, out, map_reference)
+
+
+def test_ctrl_c_stops_a_scheduler_sweep(tmp_path, map_reference):
+    proc, err, out = _stopped_run(
+        tmp_path, lambda proc, cluster: proc.send_signal(signal.SIGINT))
+    if proc.returncode == 0:
+        pytest.skip("the sweep had finished when Ctrl-C came")
+    assert proc.returncode == 130, err
+    assert err.strip().splitlines() == [
+        f"interrupted: finished rows are kept in {out}.partial; run the same command "
+        "with --resume to continue"]
+    _resume_on_a_new_cluster(tmp_path, out, map_reference)

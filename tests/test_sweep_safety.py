@@ -241,7 +241,7 @@ def test_a_held_lock_refuses_a_second_run(tmp_path):
         r = CliRunner().invoke(cli, cli_args(RING, ["trajectory.speed=0.5c_s:1c_s:3"], out,
                                              "--resume"))
         line = _refused(r, "--out")
-        assert "'" + str(out) + "'" in line and f"process {os.getpid()}" in line
+        assert f"--out: {out} is being written" in line and f"process {os.getpid()}" in line
     finally:
         held.release()
     assert leftovers(tmp_path, ()) == []
@@ -250,7 +250,7 @@ def test_a_held_lock_refuses_a_second_run(tmp_path):
 
 
 def test_a_second_resume_while_the_first_runs_is_refused(tmp_path):
-    vary = ["trajectory.speed=0.3c_s:1.2c_s:12", "trajectory.radius=2um:6um:10"]
+    vary = ["trajectory.speed=0.3c_s:1.2c_s:24", "trajectory.radius=2um:6um:20"]
     ref = tmp_path / "ref.csv"
     sweep(RING, vary, out=ref)
     out = tmp_path / "o.csv"
@@ -259,11 +259,12 @@ def test_a_second_resume_while_the_first_runs_is_refused(tmp_path):
     try:
         wait_for(lambda: rows_in(partial) >= 1, first, what="the first rows")
         first.send_signal(signal.SIGSTOP)             # still running, holding the file
+        assert first.poll() is None, "the first run ended before the second started"
         before = partial.read_bytes()
         for extra in (["--resume"], []):
             r = CliRunner().invoke(cli, cli_args(RING, vary, out, *extra))
             line = _refused(r, "--out")
-            assert f"'{out}'" in line and f"process {first.pid}" in line
+            assert f"--out: {out} is being written" in line and f"process {first.pid}" in line
         assert partial.read_bytes() == before
     finally:
         first.send_signal(signal.SIGCONT)

@@ -185,7 +185,7 @@ def _terminate_as_interrupt():
 def _stopped(exc, partial):
     """The one-line refusal of a sweep whose machinery stopped, saying how
     to continue."""
-    where = (f"; the finished rows are kept in {os.fspath(partial.path)!r}: run the "
+    where = (f"; the finished rows are kept in {os.fspath(partial.path)}: run the "
              "same command with --resume to continue") if partial is not None else ""
     return InputError(exc.option, exc.message + where)
 

@@ -325,7 +325,7 @@ class SweepLock:
             if not _try_lock(fd):
                 who = _holder(fd)
                 os.close(fd)
-                raise InputError("--out", f"{os.fspath(self.out)!r} is being written by "
+                raise InputError("--out", f"{os.fspath(self.out)} is being written by "
                                           f"another sweep ({who}, still running); wait "
                                           "for it to end, or stop it and continue with "
                                           "--resume")
