@@ -36,6 +36,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from probe.errors import InputError
+from probe.design.gapscan import sweep_over_gaps
 from probe.design.sweep import (axis_value_text, cell_text, format_value, plan_sweep,
                                 raw_config, sweep, write_csv)
 from probe.design.sweep.evaluators import model_parameters
@@ -374,8 +375,9 @@ def compare(config, vary, log=(), models=None, overrides=(), gap=None, width=Non
     if hasattr(progress, "grow"):
         progress.grow(sum(v.plan.size for v in variants))
     for v in variants:
-        v.result = sweep(v.plan, (), workers=workers, scheduler=scheduler,
-                         progress=progress)
+        # a transit over its probe's gap: every point from shared lag sums
+        v.result = sweep_over_gaps(v.plan, workers=workers, scheduler=scheduler,
+                                   progress=progress)
     cmp = Comparison(variants=variants, axes=plan.axes, shape=plan.shape,
                      tolerance=float(tolerance), notes=notes)
     cmp.statements = _statements(cmp)

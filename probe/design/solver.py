@@ -23,9 +23,10 @@ from probe.engines.stationary.checks import check_gaps
 from probe.errors import InputError
 from probe.quantities import quantity, target_names
 from probe.scenarios.planning import without_planning
+from probe.design.gapscan import gap_grid, sweep_over_gaps
 from probe.design.sweep import (NUMERIC_KEYS, cell_text, check_numeric_key, column_kind,
                                 display_unit, evaluate_point, format_value, plan_sweep,
-                                raw_config, si_unit, sweep, write_csv)
+                                raw_config, si_unit, write_csv)
 
 # ---------------------------------------------------------------------------
 # threshold versus gap
@@ -376,8 +377,11 @@ class _Search:
         self.axis = axis
         a, b = span
         use_log = a > 0 and b / a >= 100
-        self.scan = sweep(raw, [(key, self.lo, self.hi, int(scan_points))],
-                          log=(key,) if use_log else (), source=source, progress=progress)
+        plan = plan_sweep(raw, [(key, self.lo, self.hi, int(scan_points))],
+                          log=(key,) if use_log else (), source=source)
+        # a transit over its probe's gap: every point from shared lag sums
+        self.gaps = gap_grid(plan)
+        self.scan = sweep_over_gaps(plan, progress=progress, grid=self.gaps)
         self.qname, self.goal = parse_target(target, self.scan.columns, self.scan.units)
         self.qunit = self.scan.unit(self.qname)
         self.x = self.scan.axes[0].values
@@ -388,12 +392,23 @@ class _Search:
         ax = self.axis
         return float(v) if ax.kind == "dimensionless" else f"{float(v)!r} {ax.unit}"
 
-    def miss(self, v):
-        """``quantity - goal`` at the value ``v`` of the key."""
-        cols, _, row, _ = evaluate_point(self.raw, {self.key: self.text(v)},
-                                         source=self.source)
+    def point(self, v):
+        """(columns, row, warnings) at the value ``v`` of the key: one step
+        of the progress (from the scan's lag sums for a transit over its
+        probe's gap)."""
+        if self.gaps is not None:
+            rows, warns = self.gaps.rows([v])
+            cols, row, warns = self.gaps.columns, rows[0], warns[0]
+        else:
+            cols, _, row, warns = evaluate_point(self.raw, {self.key: self.text(v)},
+                                                 source=self.source)
         if self.progress is not None:
             self.progress(1)
+        return cols, row, warns
+
+    def miss(self, v):
+        """``quantity - goal`` at the value ``v`` of the key."""
+        cols, row, _ = self.point(v)
         val = row[cols.index(self.qname)]
         if not math.isfinite(val):
             raise InputError(self.key, f"{self.qname} has no finite value at {self.text(v)}")
@@ -448,8 +463,10 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
     """The value of ``key`` (within ``bounds`` ``"LO:HI"`` with units) at
     which ``target`` (``"up_rate=50"``, ``"up_rate=50 1/s"``) is reached.
 
-    The range is scanned on a grid (vectorised where the engine allows);
-    the first sign change of ``result - target`` is refined with
+    The range is scanned on a grid (vectorised where the engine allows; a
+    transit over its probe's gap from one set of lag sums,
+    :mod:`probe.design.gapscan`, which also serve the refinement); the
+    first sign change of ``result - target`` is refined with
     :func:`scipy.optimize.brentq`.  Raises InputError when no value in the
     range reaches the target.  ``removals`` and ``overrides`` edit the
     configuration first (as ``--unset`` and ``--set``).  ``progress`` is
@@ -477,10 +494,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
     if hasattr(progress, "grow"):         # Brent's method: about 12 steps a bracket
         progress.grow(12 * sum(kind == "bracket" for kind, _ in roots) + 1)
     values = search.refine(roots)
-    cols, units, row, warns = evaluate_point(raw, {key: search.text(values[0])},
-                                             source=source)
-    if progress is not None:
-        progress(1)
+    cols, row, warns = search.point(values[0])
     c = float(row[cols.index("sound_speed")])
     scale = c if ax.relative else 1.0
     return Solution(key=key, value=values[0] * scale,

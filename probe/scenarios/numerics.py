@@ -15,7 +15,7 @@ _S = "numerics"
 RTOL_RANGE = (1e-13, 0.1)
 #: allowed numerics.transit_rtol
 TRANSIT_RTOL_RANGE = (1e-10, 0.1)
-TRANSIT_METHODS = ("auto", "phasor", "fft", "lag")
+TRANSIT_METHODS = ("auto", "phasor", "fft", "lag", "pairs")
 
 RTOL = Key(_S, "rtol", "1e-8", "relative accuracy of the stationary rates, between 1e-13 "
            "and 0.1 (refused for a spline, which has no rates)", kind="dimensionless",
@@ -24,9 +24,10 @@ TRANSIT_RTOL = Key(_S, "transit_rtol", "1e-4", "relative accuracy of a finite tr
                    "between 1e-10 and 0.1", kind="dimensionless", default=1e-4, vary=21)
 TRANSIT_METHOD = Key(_S, "transit_method", '"auto"', "how the transit's mode amplitudes "
                      "are computed: \"auto\" (the cheapest), \"phasor\" (direct sums), "
-                     "\"fft\" (FFTs over time) or \"lag\" (linear and circular paths: "
-                     "exact angular average); the same result", choices=TRANSIT_METHODS,
-                     default="auto")
+                     "\"fft\" (FFTs over time), \"lag\" (linear and circular paths: "
+                     "exact angular average) or \"pairs\" (double time sum over pairs "
+                     "of times: exact angular average); the same result",
+                     choices=TRANSIT_METHODS, default="auto")
 
 PASSAGE_SAMPLES = Key(_S, "passage_samples", "1000", "time samples of a passage "
                       "('probe passage'), at least 3", default=1000)

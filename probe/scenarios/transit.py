@@ -98,22 +98,37 @@ def check_transit(scenario):
 def run_transit(scenario, spectrum=False, workers=None):
     """The :class:`probe.transit.TransitResult` of a transit scenario, with
     the regime-of-validity warnings of the gas and the path."""
-    from probe.engines.regime import regime_warnings
     from probe.engines.transit import transit_probabilities
 
     check_transit(scenario)
     cond = scenario.condensate
-    path = _project(scenario.trajectory, cond.dimension)
-    res = transit_probabilities(cond, scenario.probe, path, scenario.switching,
+    res = transit_probabilities(cond, scenario.probe, engine_path(scenario),
+                                scenario.switching,
                                 rtol=scenario.transit_rtol, spectrum=spectrum,
                                 workers=workers,
                                 method=getattr(scenario, "transit_method", "auto"))
+    add_scenario_warnings(scenario, res)
+    return res
+
+
+def engine_path(scenario):
+    """The scenario's path as the transit engine takes it (components
+    beyond the gas's dimension dropped)."""
+    return _project(scenario.trajectory, scenario.condensate.dimension)
+
+
+def add_scenario_warnings(scenario, res, probe=None):
+    """Add to a transit result of the scenario (its probe, or ``probe`` in
+    its place) the warnings of the switching's span and of the regime of
+    validity of the gas and the path."""
+    from probe.engines.regime import regime_warnings
+
+    probe = scenario.probe if probe is None else probe
     stand_in = types.SimpleNamespace(speed=path_summary(scenario)["max_speed"],
                                      gap=None, up_rate=None, down_rate=None)
-    for w in _span_warnings(scenario) + regime_warnings(cond, scenario.probe, stand_in):
+    for w in _span_warnings(scenario) + regime_warnings(scenario.condensate, probe, stand_in):
         if w not in res.warnings:
             res.warnings.append(w)
-    return res
 
 
 def _span_warnings(scenario):

@@ -91,11 +91,12 @@ def _checked_inputs(switching, rtol, method):
 
 
 def _one_pass(problem, routes, res, pool):
-    """A pass at resolution ``res`` on the cheapest of ``routes``."""
+    """A pass at resolution ``res`` on the cheapest of ``routes``: its
+    estimate, the route and the sampled path."""
     sample = problem.sample(res)
     route, plan, _ = cheapest(problem, sample, res, routes)
     sums = route.integrals(problem, sample, plan, pool)
-    return estimate(problem, route, plan, sums, sample.geom)
+    return estimate(problem, route, plan, sums, sample.geom), route, sample
 
 
 def _converge(problem, routes, max_refinements, label=None):
@@ -117,9 +118,21 @@ def _converge(problem, routes, max_refinements, label=None):
     try:
         with single_threaded_blas():
             for attempt in range(max_refinements + 1):
-                out = _one_pass(problem, routes, res, pool)
+                out, route, sample = _one_pass(problem, routes, res, pool)
                 tol, errs = out.tolerances, out.errors
                 bad = {k: any(errs[k][ch] > _SHARE * tol[ch] for ch in tol) for k in errs}
+                if (route.angular_floor and bad["angular"] and len(routes) > 1
+                        and attempt < max_refinements):
+                    # its angular accuracy cannot be refined: the same pass
+                    # on the other routes
+                    routes = [r for r in routes if r is not route]
+                    continue
+                if route.time_ladder and bad["time"]:
+                    # a time step tried below the sampling bound: the other
+                    # estimates carry its aliasing, refine the step alone
+                    bad = {k: k == "time" for k in bad}
+                    if attempt < max_refinements and route.climb(problem, sample, res):
+                        continue
                 if not any(bad.values()):
                     break
                 if attempt == max_refinements:

@@ -124,6 +124,9 @@ class TransitProblem:
         self._path_scales()
         self.q_max = self._wavenumber_cutoff()
         self.edges = self._spectrum_edges()
+        #: what a route keeps from one pass to the next (the pair route's
+        #: lag moments of a coarser time grid serve as the next one's sub-rule)
+        self.route_cache = {}
 
     def _detunings(self, channel):
         self.channel = channel
@@ -216,12 +219,19 @@ class TransitProblem:
         A = (self.channel.coupling / HBAR) ** 2 * self.condensate.density
         return A * self.xi ** (-self.d) * self.tu ** 2
 
+    def highest_frequency(self, q_max, switching=True):
+        """The highest frequency of the amplitudes' integrands up to q_max:
+        gap, phonon frequency, Doppler shift, the chirp's margin and (with
+        ``switching``) the switching's bandwidth."""
+        F = (abs(self.Om) + float(self.disp.omega(q_max)) + q_max * self.vmax
+             + self.chirp * math.sqrt(q_max * self.amax))
+        return max(F + (self.bw if switching else 0.0), 1e-12)
+
     def sample(self, res):
         """The path on the time grid of a pass at resolution ``res``: 2 dt
         clears the highest frequency plus the switching bandwidth."""
         q_max = res.q_max
-        F = max(abs(self.Om) + float(self.disp.omega(q_max)) + q_max * self.vmax + self.bw
-                + self.chirp * math.sqrt(q_max * self.amax), 1e-12)
+        F = self.highest_frequency(q_max)
         dt_target = math.pi / F / res.time
         nt = max(8, int(math.ceil(min((self.t_hi - self.t_lo) / dt_target, 1e300))))
         nt += nt % 2
@@ -235,6 +245,14 @@ class TransitProblem:
         X = np.ascontiguousarray(X - centre)
         return PathSample(grid, X, centre, geom, grid.columns(self.Ds),
                           RuleBook(geom, self.edges))
+
+    def on_steps(self, sample, nt):
+        """The same pass on a time grid of exactly ``nt`` steps over the
+        support: the even nodes of 2 nt steps are the nodes of nt."""
+        grid = TimeGrid(self.t_lo, self.t_hi, nt, self.switching, self.tu)
+        X, _ = path_samples(self.trajectory, grid.t * self.tu, self.d, self.xi, self.c)
+        X = np.ascontiguousarray(X - sample.centre)
+        return PathSample(grid, X, sample.centre, sample.geom, None, sample.rules)
 
     def resample(self, sample, dt):
         """The same pass on a time grid of step ``dt`` from t_lo (covering

@@ -16,10 +16,17 @@ class Route:
     driver asks every candidate route for a :meth:`plan` (its radial grid
     and rules) and its :meth:`cost`, and runs :meth:`integrals` of the
     cheapest; :meth:`grid_report` adds the route's own entries to the
-    result's ``grid``."""
+    result's ``grid``; ``time_ladder`` says that its time steps start
+    coarser than the pass's grid."""
 
     name = ""
     refusal = ""
+    #: the route tries time steps coarser than the pass's grid and climbs
+    #: (a miss of the time estimate then refines the time step alone)
+    time_ladder = False
+    #: the angular error is a floor that refinement cannot lower (a miss
+    #: of it sends "auto" to the other routes)
+    angular_floor = False
 
     def applies(self, problem):
         """Whether the route can compute this transit."""
@@ -43,6 +50,11 @@ class Route:
     def grid_report(self, problem, plan):
         """Entries of the result's ``grid`` particular to the route."""
         return {}
+
+    def climb(self, problem, sample, res):
+        """A ``time_ladder`` route's next, finer time step of its own after
+        a miss of the time estimate (True), or False: refine the pass's."""
+        return False
 
 
 class AngularSums:

@@ -9,10 +9,11 @@ from __future__ import annotations
 
 from probe.engines.transit.fft import FFTRoute
 from probe.engines.transit.lag import LagRoute
+from probe.engines.transit.pairs import PairRoute
 from probe.engines.transit.phasor import PhasorRoute
 from probe.errors import InputError
 
-ROUTES = (PhasorRoute(), FFTRoute(), LagRoute())
+ROUTES = (PhasorRoute(), FFTRoute(), LagRoute(), PairRoute())
 METHODS = ("auto",) + tuple(route.name for route in ROUTES)
 
 
