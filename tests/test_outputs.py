@@ -367,3 +367,35 @@ def test_zero_target_below_the_threshold_points_to_threshold(box):
     vth_over_c = table["configured"]["threshold_speed"] / c
     top = float(line.split(" c_s)")[-2].split("(")[-1])
     assert top < vth_over_c
+
+
+def test_a_sweep_on_a_real_terminal_shows_its_bar_on_stderr_only(box, tmp_path):
+    """stderr on a pseudo-terminal (pty), stdout on a pipe: the bar goes to
+    the terminal, the summary to the pipe; with stderr on a pipe, no bar."""
+    import pty
+    import subprocess
+    import sys
+
+    command = [sys.executable, "-c", "import sys; from probe.cli import main; sys.exit(main())",
+               "sweep", str(box), "--vary", SPEEDS, "--out", str(tmp_path / "o.csv")]
+    master, slave = pty.openpty()
+    try:
+        proc = subprocess.run(command, stdout=subprocess.PIPE, stderr=slave, timeout=300,
+                              cwd=tmp_path)
+        os.close(slave)
+        screen = b""
+        while True:
+            try:
+                chunk = os.read(master, 4096)
+            except OSError:                      # the terminal's other end is closed
+                break
+            if not chunk:
+                break
+            screen += chunk
+    finally:
+        os.close(master)
+    assert proc.returncode == 0
+    assert b"sweep" in screen and b"4/4" in screen
+    assert proc.stdout.decode().startswith("wrote ")
+    piped = subprocess.run(command, capture_output=True, timeout=300, cwd=tmp_path)
+    assert piped.returncode == 0 and piped.stderr == b""
