@@ -371,12 +371,12 @@ def _flat_zero_target(sol):
 def solve(config, key, target, bounds, out, as_json, overrides, removals):
     """Find the value of KEY at which a result reaches a target (scan for a
     bracket, then Brent's method)."""
-    from probe.design.solver import SCAN_POINTS, solve as run
+    from probe.design.solver import solve as run
 
     try:
         with Outputs(_config_inputs(config, overrides, removals)) as outputs:
             outputs.check(out, "--out")
-            with Progress(SCAN_POINTS, "solve", delay=True) as bar:
+            with Progress(0, "solve", delay=True) as bar:
                 sol = run(config, key, target, bounds=bounds, overrides=overrides,
                           removals=removals, progress=bar)
             _flat_zero_target(sol)

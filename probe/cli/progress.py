@@ -86,6 +86,7 @@ class Progress:
         self.total = int(total)
         if self.bar is not None:
             self.bar.length = self.total
+            self.bar.finished = self.bar.pos >= self.total
 
     def grow(self, n):
         """``n`` more steps than announced."""

@@ -33,10 +33,12 @@ def _sentence(text):
 
 
 def _help_hint(exc, command=None):
+    """Where to read more: ``probe [COMMAND] --help`` (named ``probe``
+    whatever name the group was run under)."""
     ctx = getattr(exc, "ctx", None)
-    path = ctx.command_path if ctx is not None else \
-        "probe" + (f" {command}" if command else "")
-    return f"see '{path} --help'"
+    words = ctx.command_path.split()[1:] if ctx is not None else \
+        ([command] if command else [])
+    return f"see '{' '.join(['probe', *words])} --help'"
 
 
 def usage_line(exc, command=None):

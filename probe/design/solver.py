@@ -472,7 +472,7 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
     configuration first (as ``--unset`` and ``--set``).  ``progress`` is
     called with the number of evaluations just finished (scan points, then
     each step of the refinement); its ``grow(n)``, when it has one, is told
-    of the expected refinement steps."""
+    of the expected number of evaluations."""
     from probe.scenarios.config import scenario_from_dict
 
     raw, source = raw_config(config, overrides, removals=removals)
@@ -486,13 +486,17 @@ def solve(config, key, target, bounds=None, overrides=(), scan_points=SCAN_POINT
         raise InputError("--range", f"LO and HI must differ, got {bounds!r}")
     if a > b:
         lo, hi, a, b = hi, lo, b, a
+    grow = getattr(progress, "grow", None)
+    if grow is not None:                  # the scan, Brent on one bracket (about 12
+        grow(int(scan_points) + 13)       # steps) and the final evaluation
     search = _Search(raw, source, key, (lo, hi), (a, b), target, scan_points, ax,
                      progress)
     roots = _brackets(search.f)
     if not roots:
         raise search.not_reached(a, b)
-    if hasattr(progress, "grow"):         # Brent's method: about 12 steps a bracket
-        progress.grow(12 * sum(kind == "bracket" for kind, _ in roots) + 1)
+    brackets = sum(kind == "bracket" for kind, _ in roots)
+    if grow is not None and brackets > 1:
+        grow(12 * (brackets - 1))
     values = search.refine(roots)
     cols, row, warns = search.point(values[0])
     c = float(row[cols.index("sound_speed")])
