@@ -64,18 +64,49 @@ def chebyshev_terms(z_max, angular=1.0):
     return int(kx // 2 + 2)
 
 
+def _bessel_ld(x, n):
+    """J_0(x) .. J_{n-1}(x) in long double, (n,) + x.shape, x >= 0: the
+    downward ratio recurrence J_k/J_{k-1} = x/(2k - x J_{k+1}/J_k) from well
+    past n and the normalisation J_0 + 2 sum J_2k = 1."""
+    x = np.asarray(x, np.longdouble)
+    top = n + int(math.ceil(float(x.max()) if x.size else 0.0)) + 40
+    ratio = np.zeros((top + 1,) + x.shape, np.longdouble)
+    r = np.zeros_like(x)
+    for k in range(top, 0, -1):
+        r = x / (2 * k - x * r)
+        ratio[k] = r
+    J = np.cumprod(ratio[1:], axis=0)               # J_k/J_0, k = 1 .. top
+    J0 = 1.0 / (1.0 + 2.0 * J[1::2].sum(axis=0))
+    out = np.empty((n,) + x.shape, np.longdouble)
+    out[0] = J0
+    out[1:] = J[:n - 1] * J0
+    return out
+
+
 def chebyshev_coefficients(q, r_max, d, K):
     """a_k(q), (K, nq): j_d(q r) = sum_k a_k T_k(2 (r/r_max)^2 - 1) on
-    r <= r_max, by interpolation at K + 8 Chebyshev points; and per node
-    twice the sum of |a_k| of the 8 terms past K (the dropped tail, whose
-    terms fall faster than geometrically there)."""
+    r <= r_max, computed in long double (so that their rounding stays far
+    below that of the pair sums); and per node twice the sum of |a_k| of
+    the 8 terms past K (the dropped tail, whose terms fall faster than
+    geometrically there).  2D: a_k = e_k (-1)^k J_k(q r_max/2)^2 (e_0 = 1,
+    else 2); 1D and 3D: interpolation at K + 8 Chebyshev points."""
     n = K + 8
-    y = np.cos(np.pi * (np.arange(n) + 0.5) / n)
-    r = r_max * np.sqrt(0.5 * (1.0 + y))
-    f = _isotropic_average(np.outer(r, q), d)                 # (n, nq)
-    a = sfft.dct(f, type=2, axis=0) / n
-    a[0] *= 0.5
-    return np.ascontiguousarray(a[:K]), 2.0 * np.abs(a[K:]).sum(axis=0)
+    if d == 2:
+        sign = np.where(np.arange(n) % 2 == 0, 1.0, -1.0) * np.where(np.arange(n) > 0, 2, 1)
+        a = sign[:, None] * _bessel_ld(0.5 * r_max * np.asarray(q, np.longdouble), n) ** 2
+    else:
+        y = np.cos(np.pi * (np.arange(n, dtype=np.longdouble) + 0.5) / n)
+        z = np.outer(r_max * np.sqrt(0.5 * (1.0 + y)), np.asarray(q, np.longdouble))
+        if d == 3:
+            f = np.ones_like(z)
+            nz = z != 0
+            f[nz] = np.sin(z[nz]) / z[nz]
+        else:
+            f = np.cos(z)
+        a = sfft.dct(f, type=2, axis=0) / n
+        a[0] *= 0.5
+    a64 = np.ascontiguousarray(np.asarray(a[:K], float))
+    return a64, 2.0 * np.asarray(np.abs(a[K:]).sum(axis=0), float)
 
 
 def _block_moments(Xpad, bpad, N, inv, K, l0, l1, out):
