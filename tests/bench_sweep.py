@@ -7,9 +7,10 @@ A N x N (default 200 x 200) map of the circular engine over speed (0.2 to
 examples/ring2d_circular.toml (healing length 1.14 um), written to a CSV
 exactly as `probe sweep ... --out` does, once with one worker and once with
 `--workers 2`.  Prints both wall times, the time per point, the ratio, how
-busy the machine's cores were meanwhile (one worker alone keeps one core
-busy, two keep two: more than that is other programs), and checks that the
-two files are byte-identical.  Single-threaded numerics:
+busy the machine's cores were meanwhile (/proc/stat) and how much of that
+was this sweep (its processes' CPU time, /proc/PID/stat) and how much other
+programs, with the load average before and after, and checks that the two
+files are byte-identical.  Single-threaded numerics:
 OMP_NUM_THREADS etc. are set to 1 before numpy loads.
 """
 import os
@@ -40,21 +41,68 @@ def _busy():
     return (sum(fields[:8]) - idle) / os.sysconf("SC_CLK_TCK")
 
 
+def _tree():
+    """{pid: CPU seconds} of this process and every process below it (the
+    fork server and the workers), from /proc; {} elsewhere."""
+    tick = os.sysconf("SC_CLK_TCK")
+    parents, cpu = {}, {}
+    try:
+        names = [e for e in os.listdir("/proc") if e.isdigit()]
+    except OSError:
+        return {}
+    for e in names:
+        try:
+            with open(f"/proc/{e}/stat") as fh:
+                stat = fh.read()
+        except OSError:
+            continue
+        f = stat[stat.rindex(")") + 2:].split()
+        parents[int(e)] = int(f[1])
+        cpu[int(e)] = (int(f[11]) + int(f[12])) / tick
+    mine, frontier = {os.getpid()}, {os.getpid()}
+    while frontier:
+        frontier = {p for p, pp in parents.items() if pp in frontier} - mine
+        mine |= frontier
+    return {p: cpu[p] for p in mine if p in cpu}
+
+
+class _Own:
+    """The CPU seconds of this sweep's processes: sampled as its rows come
+    in (a worker's last sample is taken after its last task)."""
+
+    def __init__(self):
+        self.start = _tree()
+        self.last = dict(self.start)
+
+    def __call__(self, n):
+        self.last.update(_tree())
+
+    def seconds(self):
+        self.last.update(_tree())
+        return sum(v - self.start.get(p, 0.0) for p, v in self.last.items())
+
+
 def run(n, workers, out):
     vary = [("trajectory.speed", "0.2 c_s", "2 c_s", n),
             ("trajectory.radius", "2 um", "50 um", n)]
+    own = _Own()
     b0, t0 = _busy(), time.perf_counter()
-    res = sweep(RING, vary, log=("trajectory.radius",), out=out, workers=workers)
+    res = sweep(RING, vary, log=("trajectory.radius",), out=out, workers=workers,
+                progress=own)
     wall = time.perf_counter() - t0
     busy = None if b0 is None else _busy() - b0
-    return wall, busy, res
+    return wall, busy, own.seconds(), res
 
 
-def _line(label, wall, busy, n):
+def _line(label, wall, busy, own, n):
+    cores = os.cpu_count() or 1
     text = f"  {label}: {wall:7.2f} s wall  ({wall / n**2 * 1e3:.3f} ms per point)"
     if busy is not None:
-        text += f"; the machine's cores were busy {busy:.1f} s of {2 * wall:.1f} s"
-    return text
+        others = max(0.0, busy - own)
+        text += (f"; cores busy {100 * busy / (cores * wall):.0f} % of {cores}: this sweep "
+                 f"{own:.1f} s of CPU, other programs {others:.1f} s "
+                 f"({others / wall:.2f} cores on average)")
+    return text, (None if busy is None else max(0.0, busy - own) / wall)
 
 
 def main():
@@ -64,18 +112,27 @@ def main():
     print(f"{n} x {n} = {n * n} points, circular engine, 2D gas "
           f"(ring2d_circular.toml), speed 0.2..2 c_s, radius 2..50 um (log); "
           f"{os.cpu_count()} CPUs")
-    # imports and first calls outside the timings
+    # imports and first calls outside the timings (the worker processes are
+    # started inside the timing, as in every `probe sweep --workers 2`)
     sweep(RING, [("trajectory.speed", "0.5 c_s", "1 c_s", 2)])
     with tempfile.TemporaryDirectory() as tmp:
-        one, busy1, res1 = run(n, 1, Path(tmp) / "one.csv")
-        print(_line("1 worker ", one, busy1, n), flush=True)
-        two, busy2, res2 = run(n, 2, Path(tmp) / "two.csv")
-        print(_line("2 workers", two, busy2, n), flush=True)
+        one, busy1, own1, res1 = run(n, 1, Path(tmp) / "one.csv")
+        text, others1 = _line("1 worker ", one, busy1, own1, n)
+        print(text, flush=True)
+        two, busy2, own2, res2 = run(n, 2, Path(tmp) / "two.csv")
+        text, others2 = _line("2 workers", two, busy2, own2, n)
+        print(text, flush=True)
         same = (Path(tmp) / "one.csv").read_bytes() == (Path(tmp) / "two.csv").read_bytes()
     print(f"  load average after: {os.getloadavg()[0]:.2f}")
     harm = res1.column("harmonics")
-    print(f"  speed-up {one / two:.2f}x; files identical: {same}; harmonics per point "
-          f"{harm.mean():.0f} mean, {harm.max():.0f} max")
+    print(f"  speed-up {one / two:.2f}x with 2 workers; files identical: {same}; harmonics "
+          f"per point {harm.mean():.0f} mean, {harm.max():.0f} max")
+    if others1 is not None:
+        quiet = max(others1, others2) < 0.1
+        print(f"  other programs kept {others1:.2f} and {others2:.2f} cores busy during "
+              f"the two runs: " + ("a quiet machine" if quiet else
+                                   "a shared machine; the ratio of a quiet one needs "
+                                   "both near 0"))
     if not same:
         raise SystemExit("the two runs differ")
 

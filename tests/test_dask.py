@@ -75,39 +75,7 @@ import test_sweep_safety as safety  # noqa: E402
 VARY_MAP = ["trajectory.speed=0.3c_s:1.6c_s:40", "trajectory.radius=2um:8um:30"]
 
 
-class RemoteCluster:
-    """A Dask scheduler and one single-threaded worker (no nanny), each a
-    process of its own on 127.0.0.1; the worker runs in ``worker_cwd``."""
-
-    def __init__(self, folder, worker_cwd=None):
-        folder.mkdir(parents=True, exist_ok=True)
-        info = folder / f"scheduler-{time.monotonic_ns()}.json"
-        quiet = dict(stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-        self.scheduler = subprocess.Popen(
-            [sys.executable, "-m", "distributed.cli.dask_scheduler", "--host", "127.0.0.1",
-             "--port", "0", "--no-dashboard", "--scheduler-file", str(info)], **quiet)
-        safety.wait_for(info.exists, timeout=60, what="the scheduler's address")
-        time.sleep(0.2)
-        import json
-        self.address = json.loads(info.read_text())["address"]
-        worker_cwd = worker_cwd or folder
-        self.worker = subprocess.Popen(
-            [sys.executable, "-m", "distributed.cli.dask_worker", self.address,
-             "--nthreads", "1", "--no-nanny", "--no-dashboard", "--host", "127.0.0.1",
-             "--local-directory", str(folder / "scratch")], cwd=worker_cwd, **quiet)
-        with distributed.Client(self.address, timeout="60s") as client:
-            client.wait_for_workers(1, timeout=120)
-
-    def close(self):
-        for proc in (self.worker, self.scheduler):
-            if proc.poll() is None:
-                proc.terminate()
-        for proc in (self.worker, self.scheduler):
-            try:
-                proc.wait(timeout=20)
-            except subprocess.TimeoutExpired:
-                proc.kill()
-                proc.wait()
+RemoteCluster = safety.RemoteCluster
 
 
 @pytest.fixture(scope="module")

@@ -8,6 +8,7 @@ The process helpers here (CLI runs, the processes below one, waiting for
 rows) serve tests/test_dask.py and tests/test_campaign.py too."""
 import csv
 import io
+import json
 import os
 import signal
 import subprocess
@@ -137,6 +138,45 @@ def wait_gone(pids, timeout=10.0):
     while alive(pids) and time.monotonic() < deadline:
         time.sleep(0.05)
     return alive(pids)
+
+
+class RemoteCluster:
+    """A Dask scheduler and one single-threaded worker (no nanny), each a
+    process of its own on 127.0.0.1; the worker runs in ``worker_cwd``."""
+
+    def __init__(self, folder, worker_cwd=None):
+        folder.mkdir(parents=True, exist_ok=True)
+        info = folder / f"scheduler-{time.monotonic_ns()}.json"
+        quiet = dict(stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        self.scheduler = subprocess.Popen(
+            [sys.executable, "-m", "distributed.cli.dask_scheduler", "--host", "127.0.0.1",
+             "--port", "0", "--no-dashboard", "--scheduler-file", str(info)], **quiet)
+        wait_for(info.exists, timeout=60, what="the scheduler's address")
+        time.sleep(0.2)
+        self.address = json.loads(info.read_text())["address"]
+        worker_cwd = worker_cwd or folder
+        self.worker = subprocess.Popen(
+            [sys.executable, "-m", "distributed.cli.dask_worker", self.address,
+             "--nthreads", "1", "--no-nanny", "--no-dashboard", "--host", "127.0.0.1",
+             "--local-directory", str(folder / "scratch")], cwd=worker_cwd, **quiet)
+        import distributed
+
+        with distributed.Client(self.address, timeout="60s") as client:
+            client.wait_for_workers(1, timeout=120)
+
+    def processes(self):
+        return {self.scheduler.pid, self.worker.pid}
+
+    def close(self):
+        for proc in (self.worker, self.scheduler):
+            if proc.poll() is None:
+                proc.terminate()
+        for proc in (self.worker, self.scheduler):
+            try:
+                proc.wait(timeout=20)
+            except subprocess.TimeoutExpired:
+                proc.kill()
+                proc.wait()
 
 
 def check_table(path, size):

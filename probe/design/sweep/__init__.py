@@ -116,6 +116,9 @@ class _Collector:
     def __call__(self, results):
         count = 0
         for index, rows, wlist in results:
+            new = ~self.done[index]              # a piece may repeat kept points
+            index, rows = index[new], rows[new]
+            wlist = [w for w, keep in zip(wlist, new) if keep]
             self.data[index] = rows
             for i, w in zip(index, wlist):
                 self.warnings[int(i)] = w
@@ -141,15 +144,18 @@ def _checked_workers(workers, scheduler):
 TASKS_PER_WORKER = 16
 
 
-def _chunk_size(plan, chunk_size, workers, todo):
+def _chunk_size(plan, chunk_size, workers):
     """Points per task: the evaluator's choice for the scenario (an
-    engine's chunk, one transit), fewer when local workers would otherwise
-    wait for the last tasks."""
+    engine's chunk, one transit); fewer when local workers would otherwise
+    wait for the last tasks, where the points are computed one by one (an
+    engine that evaluates an array at once keeps its chunks, so that the
+    numbers do not depend on the workers or on what a resumed run had)."""
+    ev = evaluator_for(plan.scenario)
     if chunk_size is None:
-        chunk_size = evaluator_for(plan.scenario).chunk(plan.scenario)
-        if workers > 1 and todo:
+        chunk_size = ev.chunk(plan.scenario)
+        if workers > 1 and ev.pointwise(plan.scenario):
             chunk_size = max(1, min(chunk_size,
-                                    math.ceil(todo / (TASKS_PER_WORKER * workers))))
+                                    math.ceil(plan.size / (TASKS_PER_WORKER * workers))))
     return max(1, int(chunk_size))
 
 
@@ -221,7 +227,7 @@ def _evaluate(plan, partial, progress, chunk_size, workers, scheduler, command):
     partial file; the complete table put in place."""
     collect = _Collector(plan, partial, progress)
     todo = np.nonzero(~collect.done)[0]
-    tasks = make_tasks(plan, todo, _chunk_size(plan, chunk_size, workers, todo.size))
+    tasks = make_tasks(plan, todo, _chunk_size(plan, chunk_size, workers))
     if progress is not None and collect.done.any():
         progress(int(collect.done.sum()))
     t0 = time.perf_counter()

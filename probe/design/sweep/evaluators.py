@@ -110,6 +110,11 @@ class RatesEvaluator:
         """Points per task."""
         return self.engine(scenario).chunk
 
+    def pointwise(self, scenario):
+        """True when a point's numbers do not depend on the other points of
+        its task (an engine that evaluates point by point)."""
+        return not self.engine(scenario).vectorised
+
     def _inputs(self, scenario, arrays, n):
         """Engine arguments and model arguments as arrays of ``n`` points:
         the varied ones from ``arrays``, the others as configured."""
@@ -203,6 +208,11 @@ class TransitEvaluator:
         """One point per task: a transit takes seconds."""
         return 1
 
+    @staticmethod
+    def pointwise(scenario):
+        """Every point is computed on its own."""
+        return True
+
     def evaluate(self, scenario, arrays, n):
         cond, probe = scenario.condensate, scenario.probe
         cols = [c for c, _ in self.columns(scenario)]
@@ -256,6 +266,11 @@ class PassageEvaluator:
     def chunk(scenario):
         """One point per task: a passage takes about a second."""
         return 1
+
+    @staticmethod
+    def pointwise(scenario):
+        """Every point is computed on its own."""
+        return True
 
     def evaluate(self, scenario, arrays, n):
         cond = scenario.condensate

@@ -110,6 +110,11 @@ class PlanningEvaluator:
         """One point per task: a point is a Monte Carlo."""
         return 1
 
+    @staticmethod
+    def pointwise(scenario):
+        """Every point is computed on its own."""
+        return True
+
     def _plan(self, scenario, spec, nominal, warns):
         """The point's Planning (or None where it has no nominal result);
         without readout values where the signal equals its reference."""

@@ -119,23 +119,14 @@ def _groups(plan, indices):
     return sub, group_axes, gkey, order
 
 
-def make_tasks(plan, indices, chunk):
-    """Split the points ``indices`` (sorted flat indices) into tasks of
-    about ``chunk`` points."""
-    raw_json = json.dumps(plan.raw, sort_keys=True)
-    files = tuple(sorted(plan.files.items(), key=lambda kv: repr(kv[0])))
-    width = len(plan.columns) - 1                 # without the warnings
-    axes = plan.axes
-    sub, group_axes, gkey, order = _groups(plan, indices)
-    tasks, current, filled = [], [], 0
-
-    def flush():
-        nonlocal current, filled
-        if current:
-            tasks.append((raw_json, plan.source, files, width, tuple(current)))
-        current, filled = [], 0
-
-    start = 0
+def _pieces(plan, chunk):
+    """The pieces of the whole grid: (group, part) with ``part`` the flat
+    indices of at most ``chunk`` points of one group, the same whatever
+    is left to compute (an engine that evaluates an array of points at once
+    may give digits that depend on the array's other points)."""
+    everything = np.arange(plan.size)
+    sub, group_axes, gkey, order = _groups(plan, everything)
+    axes, start = plan.axes, 0
     while start < len(order):
         g = tuple(gkey[order[start]])
         stop = start
@@ -145,15 +136,38 @@ def make_tasks(plan, indices, chunk):
         group = tuple((axes[k].key, axes[k].text(i)) for k, i in zip(group_axes, g))
         for s in range(0, sel.size, chunk):
             part = sel[s:s + chunk]
-            if filled and filled + part.size > chunk:
-                flush()
-            ax = tuple((a.key, plan.vector.get(a.key), a.relative,
-                        a.values[sub[k][part]]) for k, a in enumerate(axes))
-            current.append((group, ax, indices[part]))
-            filled += part.size
-            if filled >= chunk:
-                flush()
+            yield group, tuple((a.key, plan.vector.get(a.key), a.relative,
+                                a.values[sub[k][part]]) for k, a in enumerate(axes)), \
+                everything[part]
         start = stop
+
+
+def make_tasks(plan, indices, chunk):
+    """Tasks of about ``chunk`` points that compute the points ``indices``:
+    every piece of the grid (:func:`_pieces`) holding one of them, whole
+    (its other points are computed again and given to the caller too)."""
+    raw_json = json.dumps(plan.raw, sort_keys=True)
+    files = tuple(sorted(plan.files.items(), key=lambda kv: repr(kv[0])))
+    width = len(plan.columns) - 1                 # without the warnings
+    wanted = np.zeros(plan.size, bool)
+    wanted[np.asarray(indices, int)] = True
+    tasks, current, filled = [], [], 0
+
+    def flush():
+        nonlocal current, filled
+        if current:
+            tasks.append((raw_json, plan.source, files, width, tuple(current)))
+        current, filled = [], 0
+
+    for group, ax, part in _pieces(plan, chunk):
+        if not wanted[part].any():
+            continue
+        if filled and filled + part.size > chunk:
+            flush()
+        current.append((group, ax, part))
+        filled += part.size
+        if filled >= chunk:
+            flush()
     flush()
     return tasks
 
