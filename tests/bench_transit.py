@@ -1,6 +1,8 @@
-"""Benchmark: a 3D spline transit of 2,000 waypoints at 1e-3 accuracy.
+"""Benchmark: a 3D spline transit of 2,000 waypoints at 1e-3 accuracy, and
+solve / compare over the gap of a transit.
 
-Run:  python tests/bench_transit.py [--quick] [--duration=XI_OVER_C] [--confirm]
+Run:  python tests/bench_transit.py [--durations=60,120,300,600,1200] [--confirm]
+                                    [--part=routes|gaps] [--old-commit=SHA]
 
 Times ``probe.transit.transit_probabilities`` on 2 threads (its default
 ``method="auto"`` picks the amplitude route by its cost model), measures its
@@ -18,12 +20,20 @@ phasor sums on q-uniform nodes at rtol = 1e-5); the direct route is timed on
 the cheapest grid of its refinement ladder that lands within 1e-3 of it, the
 engine on its own rtol = 1e-3 run (error checks included).
 
-The default transit lasts 600 xi/c (about 90 ms for xi = 0.3 um, c = 2 mm/s).
-The engine's cost grows about as the duration (FFT route) and the direct
-route's as its cube, so the ratio depends on the duration: ``--quick`` runs
-120 xi/c, where the two are comparable (see the README's table).
-``--confirm`` also runs the next rung of the direct ladder, the first grid a
-user without the reference could trust (it agrees with its predecessor).
+Part ``routes``: the transit at the durations 60, 120, 300, 600 and 1200
+xi/c (600 xi/c is about 90 ms for xi = 0.3 um, c = 2 mm/s), one row each:
+the route ``auto`` takes, its time, the direct route's, their ratio.  The
+direct ladder of a duration starts one rung below the grid that served the
+previous one (its grid barely depends on the duration).  ``--confirm`` also
+runs the next rung of the direct ladder, the first grid a user without the
+reference could trust (it agrees with its predecessor).
+
+Part ``gaps``: ``solve`` over the gap of examples/transits/stir2d_spline.toml
+and ``compare`` over its gap, with this tree's code and with the code of
+the commit before the pair route and the gap scan (``--old-commit``, checked
+out in a temporary git worktree under /tmp and imported first on sys.path),
+each in its own process, one after the other.
+
 Not collected by pytest (no ``test_`` prefix).
 """
 from __future__ import annotations
@@ -140,55 +150,23 @@ def _deviation(run, ref):
     return max(abs(run[0] / ref[0] - 1), abs(run[1] / ref[1] - 1))
 
 
-def main(argv):
-    quick = "--quick" in argv
-    confirm = "--confirm" in argv
-    duration = 120.0 if quick else 600.0
-    for arg in argv:
-        if arg.startswith("--duration="):
-            duration = float(arg.split("=", 1)[1])
-    cond, probe, path, sw = scenario(duration)
-    print(f"scenario: 3D Bogoliubov gas, two-level probe (gap 0.5 c/xi, width 0.7 xi), "
-          f"spline of {path.times.size} waypoints over {duration:g} xi/c, "
-          f"PathSpan switching (5 % ramps), T = 0")
-
-    # --- the transit engine --------------------------------------------------
-    transit_probabilities(cond, probe, path, sw, rtol=1e-3, workers=2)      # warm-up
+def _engine(cond, probe, path, sw):
+    """(seconds, result) of the engine at rtol 1e-3 (after a warm-up)."""
+    transit_probabilities(cond, probe, path, sw, rtol=1e-3, workers=2)
     t0 = time.perf_counter()
     res = transit_probabilities(cond, probe, path, sw, rtol=1e-3, workers=2)
-    t_engine = time.perf_counter() - t0
+    elapsed = time.perf_counter() - t0
     tracemalloc.start()
     transit_probabilities(cond, probe, path, sw, rtol=1e-3, workers=2)
-    _, peak = tracemalloc.get_traced_memory()
+    res.peak_memory = tracemalloc.get_traced_memory()[1]
     tracemalloc.stop()
-    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    g = res.grid
-    print(f"transit engine (rtol 1e-3): {t_engine:.2f} s on 2 threads; peak traced memory "
-          f"{peak / 1e6:.0f} MB (process max RSS {rss:.0f} MB)")
-    print(f"  P_up = {res.up_probability:.6e}  P_down = {res.down_probability:.6e}  "
-          f"estimated rel. error {res.achieved_rtol:.1e}")
-    extra = (f", FFT length {g['fft_length']}" if g.get("method") == "fft" else
-             f", {g['n_bands']} bands")
-    print(f"  route {g.get('method')}: {g['n_times']} times, {g['n_wavenumbers']} wavenumbers"
-          f"{extra}, up to {g['max_directions']} directions")
-    # converged reference from the other amplitude route (both are checked
-    # against closed forms in tests/test_transit.py)
-    other = "phasor" if g.get("method") == "fft" else "fft"
-    t0 = time.perf_counter()
-    tight = transit_probabilities(cond, probe, path, sw, rtol=1e-5, workers=2, method=other)
-    t_tight = time.perf_counter() - t0
-    ref = (tight.up_probability, tight.down_probability)
-    dev_engine = _deviation((res.up_probability, res.down_probability), ref)
-    print(f"reference ({other} route, rtol 1e-5, {t_tight:.1f} s): P_up = {ref[0]:.6e}  "
-          f"P_down = {ref[1]:.6e}  estimated rel. error {tight.achieved_rtol:.1e}")
-    print(f"  engine at 1e-3 vs reference: {dev_engine:.1e} (reported {res.achieved_rtol:.1e})")
+    return elapsed, res
 
-    # --- the direct double time integral -------------------------------------
-    # time step and q rule refined together along a ladder (factor 1.25 per
-    # step) from a coarse start; the first run within 1e-3 of the reference
-    # is then trimmed (each resolution coarsened by one more step while the
-    # run stays within 1e-3), so the direct route is timed on the cheapest
-    # grid of the ladder that reaches the accuracy -- known only in hindsight
+
+def _direct_ladder(cond, probe, path, sw, g, ref, duration, start, confirm):
+    """(seconds, deviation, rung) of the direct route on the cheapest grid of
+    its ladder within 1e-3 of the reference; the search starts at rung
+    ``start``."""
     xi, w0 = cond.healing_length, cond.frequency_unit
     dt0 = 5 * g["time_step"] * w0
     q_max = g["k_max"] * xi
@@ -205,23 +183,18 @@ def main(argv):
             up, down, N = direct_probability(cond, probe, path, sw, dt, q_max, panels)
             el = time.perf_counter() - t0
             dev = _deviation((up, down), ref)
-            print(f"direct: step {dt:.3f} xi/c ({N} times), {panels * 16} q nodes: "
-                  f"{el:.2f} s  P_up = {up:.6e}  P_down = {down:.6e}  vs reference {dev:.1e}")
+            print(f"    direct: step {dt:.3f} xi/c ({N} times), {panels * 16} q nodes: "
+                  f"{el:.2f} s, vs reference {dev:.1e}", flush=True)
             cache[key] = (el, dev, (up, down))
         return cache[key]
 
-    k = 0
-    prev = None
-    t_confirmed = None
+    k = start
     while True:
         el, dev, vals = run(k, k)
-        if t_confirmed is None and prev is not None and _deviation(vals, prev) < 1e-3:
-            t_confirmed = el
         if dev < 1e-3:
             break
-        prev = vals
         k += 1
-        if k > 12:
+        if k > 14:
             raise RuntimeError("direct route not converging")
     best = (k, k)
     for step in ((-1, 0), (0, -1)):
@@ -230,21 +203,134 @@ def main(argv):
             if min(cand) < 0 or run(*cand)[1] >= 1e-3:
                 break
             best = cand
-    if t_confirmed is None and confirm:
-        el, dev, vals = run(k + 1, k + 1)
-        t_confirmed = el if _deviation(vals, cache[(k, k)][2]) < 1e-3 else None
+    if confirm:
+        run(k + 1, k + 1)
     t_direct, dev_direct, _ = cache[best]
-    print(f"direct route at 1e-3 (cheapest ladder grid within 1e-3 of the reference, "
-          f"deviation {dev_direct:.1e}): {t_direct:.2f} s")
-    if t_confirmed is not None:
-        print(f"  (first run agreeing with its predecessor to 1e-3: {t_confirmed:.2f} s)")
-    ratio = t_direct / t_engine
-    print(f"time at 1e-3: engine {t_engine:.2f} s, direct {t_direct:.2f} s, "
-          f"ratio {ratio:.1f}x")
-    print(f"targets: engine < 10 s: {'yes' if t_engine < 10 else 'NO'}; "
-          f">= 20x faster than direct: {'yes' if ratio >= 20 else 'NO'}; "
-          f"peak < 1 GB: {'yes' if peak < 1e9 else 'NO'}; "
-          f"engine within 1e-3: {'yes' if dev_engine < 1e-3 else 'NO'}")
+    return t_direct, dev_direct, max(0, min(best) - 1)
+
+
+def routes_part(durations, confirm):
+    print("transit: 3D Bogoliubov gas, two-level probe (gap 0.5 c/xi, width 0.7 xi), spline "
+          "of 2,000 waypoints on a wobbling loop, PathSpan switching (5 % ramps), T = 0; "
+          "rtol 1e-3; 2 threads")
+    rows, start = [], 0
+    for duration in durations:
+        cond, probe, path, sw = scenario(duration)
+        print(f"  duration {duration:g} xi/c", flush=True)
+        t_engine, res = _engine(cond, probe, path, sw)
+        g = res.grid
+        other = "fft" if g.get("method") != "fft" else "phasor"
+        tight = transit_probabilities(cond, probe, path, sw, rtol=1e-5, workers=2,
+                                      method=other)
+        ref = (tight.up_probability, tight.down_probability)
+        dev_engine = _deviation((res.up_probability, res.down_probability), ref)
+        print(f"    auto ({g.get('method')}, {g['n_times']} times): {t_engine:.3f} s, vs "
+              f"reference ({other}, rtol 1e-5) {dev_engine:.1e}, reported "
+              f"{res.achieved_rtol:.1e}; peak traced memory {res.peak_memory / 1e6:.0f} MB",
+              flush=True)
+        t_direct, dev_direct, start = _direct_ladder(cond, probe, path, sw, g, ref, duration,
+                                                     start, confirm)
+        rows.append((duration, g.get("method"), t_engine, t_direct, t_direct / t_engine,
+                     dev_engine, dev_direct))
+    print("\n  duration [xi/c]  auto route  auto [s]  direct [s]  direct/auto  "
+          "auto dev.  direct dev.")
+    for d, m, te, td, ratio, de, dd in rows:
+        print(f"  {d:15g}  {m:>10}  {te:8.3f}  {td:10.2f}  {ratio:10.1f}x  {de:9.1e}  "
+              f"{dd:11.1e}")
+    never_slower = all(r[4] >= 1 for r in rows)
+    at600 = [r[4] for r in rows if r[0] == 600]
+    print(f"  auto never slower than the direct double integral: "
+          f"{'yes' if never_slower else 'NO'}"
+          + (f"; at 600 xi/c {at600[0]:.0f}x (target >= 50x)" if at600 else ""))
+    return rows
+
+
+# --- solve and compare over the gap of a transit ----------------------------
+ROOT = Path(__file__).resolve().parents[1]
+#: the commit before the pair route and the gap scan
+OLD_COMMIT = "49102d0"
+EXAMPLE = "examples/transits/stir2d_spline.toml"
+SOLVE = ("probe.gap", "up_probability=0.005")
+COMPARE_VARY = [("probe.gap", "100 Hz", "1 kHz", 11)]
+
+_JOB = r"""
+import json, sys, time
+sys.path.insert(0, {root!r})
+import probe
+from probe.design.solver import solve
+from probe.design.compare import compare
+t0 = time.perf_counter()
+sol = solve({example!r}, {key!r}, {target!r})
+t1 = time.perf_counter()
+cmp = compare({example!r}, {vary!r})
+t2 = time.perf_counter()
+cols = {{v.name: {{c: v.result.column(c).tolist() for c in ("up_probability",
+         "down_probability")}} for v in cmp.variants}}
+print(json.dumps({{"module": probe.__file__, "solve_s": t1 - t0, "compare_s": t2 - t1,
+                  "value": sol.value, "achieved": sol.achieved, "columns": cols}}))
+"""
+
+
+def _job(root):
+    import json
+    import subprocess
+
+    code = _JOB.format(root=str(root), example=str(ROOT / EXAMPLE), key=SOLVE[0],
+                       target=SOLVE[1], vary=COMPARE_VARY)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True, cwd=str(ROOT))
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def gaps_part(old_commit):
+    import shutil
+    import subprocess
+    import tempfile
+
+    where = Path(tempfile.mkdtemp(prefix="bench_transit_old_", dir="/tmp"))
+    tree = where / "tree"
+    subprocess.run(["git", "-C", str(ROOT), "worktree", "add", "--detach", str(tree),
+                    old_commit], check=True, capture_output=True)
+    try:
+        print(f"\nsolve {EXAMPLE} --for {SOLVE[0]} --target {SOLVE[1]!r} (101 scan points, "
+              f"Brent's method) and compare --vary {COMPARE_VARY[0][0]}="
+              f"{COMPARE_VARY[0][1]}:{COMPARE_VARY[0][2]}:{COMPARE_VARY[0][3]}", flush=True)
+        new = _job(ROOT)
+        print(f"  this tree ({new['module']}): solve {new['solve_s']:.1f} s, compare "
+              f"{new['compare_s']:.1f} s", flush=True)
+        old = _job(tree)
+        print(f"  commit {old_commit} ({old['module']}): solve {old['solve_s']:.1f} s, "
+              f"compare {old['compare_s']:.1f} s", flush=True)
+    finally:
+        subprocess.run(["git", "-C", str(ROOT), "worktree", "remove", "--force", str(tree)],
+                       capture_output=True)
+        shutil.rmtree(where, ignore_errors=True)
+    dv = abs(new["value"] / old["value"] - 1)
+    devs = [abs(a / b - 1) for name in old["columns"] for c in old["columns"][name]
+            for a, b in zip(new["columns"][name][c], old["columns"][name][c]) if b]
+    print(f"  solve: gap {new['value']:.9g} rad/s (old {old['value']:.9g}, relative "
+          f"difference {dv:.1e}); {old['solve_s'] / new['solve_s']:.1f}x faster")
+    print(f"  compare: largest relative difference of the probabilities {max(devs):.1e}; "
+          f"{old['compare_s'] / new['compare_s']:.1f}x faster")
+
+
+def main(argv):
+    durations = [60.0, 120.0, 300.0, 600.0, 1200.0]
+    parts = ("routes", "gaps")
+    old_commit = OLD_COMMIT
+    for arg in argv:
+        if arg.startswith("--durations="):
+            durations = [float(x) for x in arg.split("=", 1)[1].split(",")]
+        elif arg.startswith("--part="):
+            parts = (arg.split("=", 1)[1],)
+        elif arg.startswith("--old-commit="):
+            old_commit = arg.split("=", 1)[1]
+    if "routes" in parts:
+        routes_part(durations, "--confirm" in argv)
+    if "gaps" in parts:
+        gaps_part(old_commit)
+    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"process max RSS {rss:.0f} MB")
 
 
 if __name__ == "__main__":
