@@ -228,7 +228,7 @@ _add("up_threshold_speed", "speed", "up threshold speed", r"threshold speed $v_\
      needs="has_threshold")
 _add("effective_temperature", "temperature", "effective temperature",
      r"effective temperature $T_\mathrm{eff}$", target=True)
-_add("excited_population", "dimensionless", "excited population",
+_add("excited_population", "dimensionless", "steady-state excited population",
      "steady-state excited population", target=True)
 _add("emission_rate", "rate", "emission rate", "phonon emission rate", True, True,
      "emission_rate_error", headline=2, plotted_with=("absorption_rate",))
@@ -259,11 +259,14 @@ _add("down_probability", "dimensionless", "down probability",
 _add("down_probability_error", "dimensionless", "error of the down probability")
 _add("emitted_phonons", "dimensionless", "emitted phonons", "emitted phonons", target=True,
      error="emitted_phonons_error", headline=2, mean_rate="mean_emission_rate",
-     note="(starting in the ground state)", note_with="emitted_phonons_excited")
+     note="(starting in the ground state: up transitions that emit a phonon)",
+     note_with="emitted_phonons_excited")
 _add("emitted_phonons_error", "dimensionless", "error of the emitted phonons")
 _add("emitted_phonons_excited", "dimensionless", "emitted phonons, excited",
      note="(starting excited)")
-_add("absorbed_phonons", "dimensionless", "absorbed phonons")
+_add("absorbed_phonons", "dimensionless", "absorbed phonons",
+     note="(starting in the ground state: up transitions that absorb a thermal phonon, "
+          "0 at T = 0; up probability = emitted + absorbed)", note_with="up_probability")
 _add("emitted_energy", "energy", "emitted energy", note="(ground-state start)",
      note_with="emitted_phonons_excited")
 _add("contrast", "dimensionless", "contrast", r"contrast $e^{-\Lambda}$", target=True,

@@ -236,3 +236,38 @@ def test_rate_times_time_is_called_unfair_where_it_is_and_says_what_to_do():
     text = next(w for w in rates["warnings"] if "no fair estimate" in w)
     assert 'switching = "crossing"' in text and "probe transit" in text
     assert "Omega t = 1.9" in text
+
+
+# ---------------------------------------------------------------------------
+# 11. labels and notes of the tables
+# ---------------------------------------------------------------------------
+def test_error_estimates_are_footnoted_and_the_population_named():
+    r = run(["rates", EXAMPLES / "box3d_supersonic.toml"])
+    assert r.exit_code == 0
+    results = r.output.split("Results")[1].split("Warnings")[0]
+    assert "(+/- " in results
+    assert "+/- is the numerical error of the integration only" in results
+    assert re.search(r"^  steady-state excited population\s+0\.37", r.output, re.M)
+
+
+def test_absorbed_phonons_at_zero_and_finite_temperature():
+    """absorbed_phonons is a number: 0 at T = 0; at T > 0 the up
+    transitions that absorb a thermal phonon, so that up probability =
+    emitted + absorbed (ground-state start).  Independent route: for a gap
+    far below the inverse crossing time (Omega t ~ 2e-4) the two-level
+    probe's absorption term n E- tends to the density probe's absorption
+    integral n E0, computed by the transit engine on its own channel."""
+    cold = json.loads(run(["transit", CROSSING, "--json"]).output)
+    assert cold["absorbed_phonons"] == 0.0
+    sets = ["--set", "condensate.temperature=30 nK", "--set", "probe.gap=1e-3 Hz"]
+    warm = json.loads(run(["transit", CROSSING, "--json", *sets]).output)
+    assert warm["absorbed_phonons"] > 0
+    assert warm["emitted_phonons"] + warm["absorbed_phonons"] == pytest.approx(
+        warm["up_probability"], rel=1e-12)
+    density = json.loads(run(["transit", CROSSING, "--json", "--set",
+                              "condensate.temperature=30 nK", "--unset", "probe.gap",
+                              "--set", "probe.model=density"]).output)
+    assert warm["absorbed_phonons"] == pytest.approx(density["absorbed_phonons"], rel=1e-5)
+    table = run(["transit", CROSSING, *sets]).output
+    assert re.search(r"^  absorbed phonons\s+0\.0084", table, re.M)
+    assert "up probability = emitted + absorbed" in table

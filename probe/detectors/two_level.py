@@ -30,7 +30,7 @@ class TwoLevelProbe(ProbeModel):
     # that of up_probability: not an output of its own
     transit_outputs = ("up_probability", "up_probability_error", "down_probability",
                        "down_probability_error", "emitted_phonons",
-                       "emitted_phonons_excited", "emitted_energy")
+                       "emitted_phonons_excited", "absorbed_phonons", "emitted_energy")
     array_keys = {"probe.gap": "gap"}
     config_keys = (
         Key("probe", "gap", '"200 Hz"', "the gap: in Hz (kHz ...) an ordinary frequency, "
@@ -76,6 +76,10 @@ class TwoLevelProbe(ProbeModel):
                   "up_probability_error": up_err, "down_probability_error": dn_err,
                   "emitted_phonons": ch["up_emission"], "emitted_phonons_error": up_err,
                   "emitted_phonons_excited": ch["down_emission"],
+                  # up transitions that absorb a thermal phonon: the term
+                  # n E- of the up integrand, whose other term (1 + n) E+ is
+                  # the emission (summed on the same nodes); 0 at T = 0
+                  "absorbed_phonons": np.maximum(up - ch["up_emission"], 0.0),
                   "emitted_energy": ch["energy"]}
         return values, {"up": up, "down": dn}
 
