@@ -95,8 +95,40 @@ speed = "0.9 c_s"
 
 BASES = {"3D": GAS3, "2D": GAS2, "1D": GAS1, "3D trap": GAS3T}
 
+# sweeps that meet the files of another run: a setup runs in the folder first
+# (its docstring says how the case is given; it returns what undoes it, or None)
+def _another_run_writes(folder):
+    """while another `probe sweep` writes grid.csv (holds grid.csv.lock)"""
+    from probe.design.sweep.files import SweepLock
+    lock = SweepLock(Path(folder) / "grid.csv")
+    lock.acquire()
+    return lock.release
+
+
+#: a 1D spline path through waypoints in path.csv (a short transit)
+SPLINE_1D = ('[trajectory]\nkind = "linear"\nspeed = "1.5 c_s"\n',
+             '[trajectory]\nkind = "spline"\nfile = "path.csv"\n\n'
+             '[numerics]\ntransit_rtol = 1e-2\n')
+VARY_DENSITY = "condensate.density=4e7 m^-1:6e7 m^-1:3"
+
+
+def _waypoints_changed(folder):
+    """after the same sweep was interrupted, path.csv changed"""
+    from probe.design.sweep import sweep
+
+    def stop(n):
+        raise KeyboardInterrupt
+
+    (Path(folder) / "path.csv").write_text("t [ms], x [um]\n0, 0\n0.2, 0.5\n0.4, 1.5\n0.6, 2\n")
+    try:
+        sweep("scenario.toml", [VARY_DENSITY], out="grid.csv", chunk_size=1, progress=stop)
+    except KeyboardInterrupt:
+        pass
+    (Path(folder) / "path.csv").write_text("t [ms], x [um]\n0, 0\n0.2, 1.0\n0.4, 1.2\n0.6, 3\n")
+
+
 # (what is wrong, base, file text change or None, --set arguments, extra CLI args
-#  such as --unset[, the command when not `probe rates`])
+#  such as --unset[, the command when not `probe rates`[, a setup]])
 CASES = [
     # --- files ---------------------------------------------------------------------------
     ("file does not exist", "3D", "MISSING", [], []),
@@ -255,6 +287,11 @@ CASES = [
     ("option without its value", "3D", None, [], ["--unset"]),
     ("solve for a zero rate that vanishes below a threshold", "3D", None, [],
      ["--for", "trajectory.speed", "--target", "up_rate=0 1/s"], "solve"),
+    ("sweep output being written by another run", "3D", None, [],
+     ["--vary", "trajectory.speed=1c_s:2c_s:2", "--out", "grid.csv", "--resume"], "sweep",
+     _another_run_writes),
+    ("resume after the waypoint file changed", "1D", SPLINE_1D, [],
+     ["--vary", VARY_DENSITY, "--out", "grid.csv", "--resume"], "sweep", _waypoints_changed),
 ]
 
 
@@ -305,9 +342,12 @@ def run_case(case, folder):
         args += ["--set", s]
     old = os.getcwd()
     os.chdir(folder)
+    undo = case[6](folder) if len(case) > 6 else None
     try:
         result = CliRunner().invoke(cli, args + extra)
     finally:
+        if undo is not None:
+            undo()
         os.chdir(old)
     return result
 
@@ -332,6 +372,8 @@ def _how(case):
         parts.append(f"`--set '{shown}'`")
     if extra:
         parts.append("`" + " ".join(extra) + "`")
+    if len(case) > 6:
+        parts.append(case[6].__doc__.strip())
     return ", ".join(parts)
 
 
@@ -406,7 +448,9 @@ def test_messages_name_value_and_what_is_allowed(tmp_path):
 LIBRARY_TEXT = re.compile(r"(TOML syntax error: |cannot read file: |not a UTF-8 text file |"
                           r"as a quantity \(|mixes incompatible units \(|"
                           # the memory and worker threads of the machine
-                          r"time grid needs )")
+                          r"time grid needs |"
+                          # the number of the process that holds a lock
+                          r"another sweep \(process )")
 
 
 def _stable(text):
