@@ -399,3 +399,43 @@ def test_a_sweep_on_a_real_terminal_shows_its_bar_on_stderr_only(box, tmp_path):
     assert proc.stdout.decode().startswith("wrote ")
     piped = subprocess.run(command, capture_output=True, timeout=300, cwd=tmp_path)
     assert piped.returncode == 0 and piped.stderr == b""
+
+
+#: a short 1D transit (a fraction of a second) with ten Monte Carlo samples
+SAMPLED = """[condensate]
+dimension = 1
+species = "87Rb"
+density = "5e7 m^-1"
+scattering_length = "5.3 nm"
+transverse_frequency = "2 kHz"
+
+[probe]
+gap = "100 Hz"
+coupling_length = "1 nm"
+
+[trajectory]
+kind = "spline"
+waypoints = { units = { t = "ms", x = "um" }, t = [0, 0.2, 0.4, 0.6], x = [0, 0.5, 1.5, 2] }
+
+[numerics]
+transit_rtol = 1e-2
+
+[uncertainty]
+"condensate.density" = "10 %"
+samples = 10
+"""
+
+
+def test_a_transit_counts_its_monte_carlo_samples(tmp_path, monkeypatch):
+    """One transit and its 10 draws and 2 elasticity points: 13 steps."""
+    from probe.cli import progress
+
+    scenario = tmp_path / "s.toml"
+    scenario.write_text(SAMPLED)
+    screen = Terminal()
+    monkeypatch.setattr(progress, "terminal_stream", lambda: screen)
+    monkeypatch.setattr(progress, "PROGRESS_DELAY", 0.0)
+    r = run("transit", scenario, "--json")
+    assert r.exit_code == 0, r.output
+    assert "uncertainty" in json.loads(r.stdout)
+    assert "transit" in screen.getvalue() and "13/13" in screen.getvalue()

@@ -29,6 +29,7 @@ from probe.cli.cloud import cloud_json
 from probe.cli.common import (fail, input_errors, json_option, json_value, num,
                               out_option, q, quantity_text, report)
 from probe.cli.outputs import Outputs, scenario_inputs
+from probe.cli.progress import Progress
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
 from probe.cli.rates import rows_derived, rows_inputs
 from probe.quantities import kind_of, quantity, si_unit
@@ -209,7 +210,7 @@ def passage(config, as_json, out, plot, overrides, removals):
     """The passage through a cloud (a harmonic trap, or the box of
     condensate.size): local-density rates along the path and the rate
     equation of the populations."""
-    from probe.design.planning import plan_passage, planning_spec
+    from probe.design.planning import plan_passage, planning_spec, sample_count
     from probe.scenarios.config import load_config
     from probe.scenarios.passage import passage_outputs
 
@@ -223,12 +224,16 @@ def passage(config, as_json, out, plot, overrides, removals):
             outputs.check(out, "--out")
             outputs.check(plot, "--plot")
             spec = planning_spec(scenario, passage_outputs(scenario.probe), rest=False)
-            with warnings.catch_warnings():
+            steps = 1 + (0 if spec is None else sample_count(spec))
+            with warnings.catch_warnings(), \
+                    Progress(steps, "passage", delay=True) as bar:
                 # overflow and division warnings of numpy at the cloud's edge (where
                 # the density and the sound speed vanish) are not for the reader
                 warnings.simplefilter("ignore", RuntimeWarning)
                 result = scenario.passage()
-                plan = None if spec is None else plan_passage(scenario, result, spec)
+                bar(1)
+                plan = None if spec is None else plan_passage(scenario, result, spec,
+                                                              progress=bar)
             if plan is not None:
                 attach(result, plan)
             files = _write(outputs, scenario, result, out, plot)

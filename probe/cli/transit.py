@@ -299,15 +299,17 @@ def _check_files(outputs, scenarios, out, spectrum, plot):
 
 def _run(outputs, scenarios, spectrum, plot):
     """The transits, their planning, and the files of the spectrum and figure."""
-    from probe.design.planning import plan_transit, planning_spec
+    from probe.design.planning import plan_transit, planning_spec, sample_count
 
     done = []
     specs = [planning_spec(s) for s in scenarios]
-    with Progress(len(scenarios), "transit", delay=True) as bar:
+    steps = sum(1 + (0 if spec is None else sample_count(spec)) for spec in specs)
+    with Progress(steps, "transit", delay=True) as bar:
         for scenario, spec in zip(scenarios, specs):
             result = scenario.transit(spectrum=spectrum is not None or plot is not None)
             info = describe(scenario)
-            plan = None if spec is None else plan_transit(scenario, result, spec)
+            plan = None if spec is None else plan_transit(scenario, result, spec,
+                                                          progress=bar)
             if plan is not None:
                 attach(result, plan)
             files = ()

@@ -427,16 +427,26 @@ def plan_rates(scenario, result, spec):
     return plan
 
 
-def plan_transit(scenario, result, spec):
+def sample_count(spec):
+    """The scenarios a planning evaluates one by one: the draws and two
+    points per uncertain input for the elasticities (0 without inputs)."""
+    return spec.samples + 2 * len(spec.inputs) if spec.inputs else 0
+
+
+def plan_transit(scenario, result, spec, progress=None):
     """The :class:`Planning` of a finite transit (``probe transit``): bands
     and elasticities of the model's transit outputs, one transit per sample
-    (and one with the probe at rest for the reference of a readout)."""
+    (and one with the probe at rest for the reference of a readout).
+    ``progress`` is called with 1 after each sample (:func:`sample_count`
+    of them)."""
     names = list(scenario.probe.transit_outputs)
     signal = readout_signal(scenario, band_names(names)) if spec.readout else None
     reference = []
 
     def one(sc):
         r = sc.transit()
+        if progress is not None:
+            progress(1)
         return {m: getattr(r, m, None) for m in names}
 
     def rest(sc):
@@ -451,16 +461,19 @@ def plan_transit(scenario, result, spec):
     return plan
 
 
-def plan_passage(scenario, result, spec):
+def plan_passage(scenario, result, spec, progress=None):
     """The :class:`Planning` of a passage through a cloud (``probe
     passage``): bands and elasticities of its totals, one passage per
-    sample; a readout compares with a true probability of zero."""
+    sample; a readout compares with a true probability of zero.
+    ``progress`` is called with 1 after each sample."""
     from probe.scenarios.passage import passage_outputs
 
     names = passage_outputs(scenario.probe)
 
     def one(sc):
         r = sc.passage()
+        if progress is not None:
+            progress(1)
         return {m: getattr(r, m, None) for m in names}
     return run_planning(scenario, spec, names, {m: getattr(result, m, None) for m in names},
                         one)
