@@ -383,3 +383,44 @@ def test_a_killed_worker_keeps_the_rows(tmp_path, workers_reference):
                           capture_output=True, text=True, timeout=300)
     assert done.returncode == 0, done.stderr
     assert out.read_bytes() == workers_reference
+
+
+# ---------------------------------------------------------------------------
+# the same digits however the grid is split
+# ---------------------------------------------------------------------------
+STRAIGHT_2D = """[condensate]
+dimension = 2
+species = "23Na"
+density = "3e13 m^-2"
+scattering_length = "2.75 nm"
+transverse_frequency = "1.5 kHz"
+
+[probe]
+gap = "100 Hz"
+coupling_length = "2 nm"
+width = "0.3 um"
+
+[trajectory]
+kind = "linear"
+speed = "1.5 c_s"
+"""
+
+
+def test_straight_motion_is_the_same_with_two_workers_and_after_resume(tmp_path):
+    """The straight-motion engine evaluates an array of points at once (its
+    error estimates may depend on the array's other points in the last
+    digits): pieces of the grid are fixed, so two workers and a resumed run
+    write the bytes of one uninterrupted run."""
+    config = tmp_path / "s.toml"
+    config.write_text(STRAIGHT_2D)
+    vary = ["probe.gap=40Hz:300Hz:30", "trajectory.speed=0.3c_s:2.5c_s:20"]
+    sweep(str(config), vary, out=tmp_path / "ref.csv")
+    ref = (tmp_path / "ref.csv").read_bytes()
+    sweep(str(config), vary, out=tmp_path / "two.csv", workers=2)
+    assert (tmp_path / "two.csv").read_bytes() == ref
+    out = tmp_path / "run.csv"
+    with pytest.raises(KeyboardInterrupt):
+        sweep(str(config), vary, out=out, progress=Stop(1))
+    assert 0 < rows_in(str(out) + ".partial") < 600
+    sweep(str(config), vary, out=out, resume=True, workers=2)
+    assert out.read_bytes() == ref

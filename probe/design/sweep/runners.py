@@ -266,23 +266,32 @@ class LocalPool:
         self._life_r.close()
 
 
+@contextlib.contextmanager
+def _pool_errors():
+    """A pool whose worker died, or whose worker computes other columns,
+    ends the sweep with :class:`SweepStopped`."""
+    from concurrent.futures.process import BrokenProcessPool
+
+    try:
+        yield
+    except BrokenProcessPool:
+        raise SweepStopped("--workers", "a worker process ended before its task "
+                                        "was done (killed?)") from None
+    except OtherColumns as exc:
+        raise SweepStopped("--workers", str(exc)) from None
+
+
 def _take(pending, handle, block):
     """Hand the finished tasks' results to ``handle`` (waiting for one when
     ``block``)."""
     from concurrent.futures import FIRST_COMPLETED, wait
-    from concurrent.futures.process import BrokenProcessPool
 
     done = wait(pending, return_when=FIRST_COMPLETED)[0] if block else \
         [f for f in pending if f.done()]
     for fut in done:
         pending.discard(fut)
-        try:
+        with _pool_errors():
             result = fut.result()
-        except BrokenProcessPool:
-            raise SweepStopped("--workers", "a worker process ended before its task "
-                                            "was done (killed?)") from None
-        except OtherColumns as exc:
-            raise SweepStopped("--workers", str(exc)) from None
         handle(result)
 
 
@@ -301,8 +310,9 @@ def run_local(tasks, workers, handle):
         queue, pending = collections.deque(tasks), set()
         while queue or pending:
             if pool.executor is not None:
-                while queue and len(pending) < 2 * pool.size:
-                    pending.add(pool.executor.submit(run_task, queue.popleft()))
+                with _pool_errors():
+                    while queue and len(pending) < 2 * pool.size:
+                        pending.add(pool.executor.submit(run_task, queue.popleft()))
             _take(pending, handle, block=not queue)
             if queue:
                 handle(run_task(queue.pop()))
