@@ -123,7 +123,8 @@ def integrate_smooth(f, a, b, rtol=1e-10, atol=0.0, orders=FIXED_ORDERS, chunk=2
         sl = todo[s:s + step]
         value[sl], error[sl] = fixed_pair(f, a[sl], b[sl], sl, orders)
     with np.errstate(invalid="ignore"):
-        bad = todo[~(error[todo] <= np.maximum(rtol * np.abs(value[todo]), atol[todo]))]
+        bad = todo[~(np.isfinite(value[todo])
+                     & (error[todo] <= np.maximum(rtol * np.abs(value[todo]), atol[todo])))]
     if bad.size:
         def g(x, i):
             return f(x, bad[i])

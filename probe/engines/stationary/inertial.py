@@ -17,7 +17,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from probe.engines.quadrature import Primitive, gauss_legendre, integrate, integrate_smooth
+from probe.engines.quadrature import (FIXED_ORDERS, Primitive, gauss_legendre, integrate,
+                                      integrate_smooth)
 from probe.engines.stationary.limits import (CUT, EPS, NEAR_SOUND, ROUNDING, STATIC_SPEED,
                                              STATIC_SPEED_3D)
 from probe.engines.stationary.threshold import refine_up_window
@@ -92,7 +93,9 @@ def _cut_window(gas, v, W, s, a, b, present):
     # every window, bounded or not, ends where the form factor has decayed:
     # a fast probe's window [a, ~2v] is far wider than the part where the
     # integrand lives, which the quadrature's nodes would miss
-    bb = np.minimum(b, gas.qcut(s))
+    # (measured from the window's start: |F|^2 falls by exp(-CUT) from there)
+    with np.errstate(invalid="ignore"):
+        bb = np.minimum(b, np.hypot(np.where(np.isfinite(a), a, 0.0), gas.qcut(s)))
     if np.any(present & np.isinf(bb)):
         raise ModelError(
             "condensate.dispersion",
@@ -185,6 +188,9 @@ def _window_3d(gas, win, kind, tags, rtol, out):
 #: fewest points of one probe width for which the 3D windows are integrated
 #: from one tabulated primitive (its table costs ~ PANEL_COUNT * 21 nodes)
 _TABLE_POINTS = 16
+#: orders of the pair of rules on the windows a table leaves (narrow ones,
+#: where G(b) - G(a) cancels)
+_NARROW_ORDERS = (24, 16)
 #: width of the primitive's panels in u = asinh(q / sigma)
 _PANEL_WIDTH = 0.25
 
@@ -200,6 +206,7 @@ def _integrals_3d(gas, win, t, f, top, tol):
     sigma = _scale(gas, t)
     val, err = np.zeros(n), np.full(n, np.inf)
     hi = float(np.max(top, initial=0.0))
+    orders = FIXED_ORDERS
     if n >= _TABLE_POINTS and np.all(win.s == win.s[0]) and math.isfinite(hi) and hi > 0:
         def g(u):
             q = sigma * np.sinh(u)
@@ -210,13 +217,15 @@ def _integrals_3d(gas, win, t, f, top, tol):
             ua = np.arcsinh(win.a / sigma)
             ub = np.maximum(np.arcsinh(top / sigma), ua)
         val, err = table.integral(ua, ub)
+        orders = _NARROW_ORDERS
         val, err = val / (2 * math.pi * win.v), err / (2 * math.pi * win.v)
     with np.errstate(invalid="ignore"):
-        redo = np.nonzero(~(err <= tol * np.abs(val)) & (top > win.a))[0]
+        redo = np.nonzero(~(np.isfinite(val) & (err <= tol * np.abs(val))) & (top > win.a))[0]
     if redo.size:
         def fr(x, i):
             return f(x, redo[i])
-        v_, e_, _ = _integrate_sinh(fr, win.a[redo], top[redo], sigma, tol)
+        # after a table, narrow windows: a short pair of rules, adaptive beyond it
+        v_, e_, _ = _integrate_sinh(fr, win.a[redo], top[redo], sigma, tol, orders)
         val[redo], err[redo] = v_, e_
     return val, np.where(top > win.a, err, 0.0)
 
@@ -231,7 +240,7 @@ def _scale(gas, t):
     return 1.0
 
 
-def _integrate_sinh(f, a, b, sigma, rtol):
+def _integrate_sinh(f, a, b, sigma, rtol, orders=FIXED_ORDERS):
     """int_a^b f(q) dq in the variable u of q = sigma sinh(u): graded
     towards q = 0, near which the singularities at distance ~sigma lie, so
     that a window far longer than sigma needs no more nodes than a short
@@ -240,18 +249,21 @@ def _integrate_sinh(f, a, b, sigma, rtol):
         return f(sigma * np.sinh(u), i) * (sigma * np.cosh(u))
     with np.errstate(invalid="ignore"):
         lo, hi = np.arcsinh(a / sigma), np.arcsinh(b / sigma)
-    return integrate_smooth(g, lo, np.where(b > a, hi, lo), rtol=rtol)
+    return integrate_smooth(g, lo, np.where(b > a, hi, lo), rtol=rtol, orders=orders)
 
 
 def _tag_top(gas, win, t):
     """Upper limit of the integral of weight ``t``: the window's end cut by
     the form factor (``bq``) and, for the Bose occupation n_k, at
-    w_k = CUT T, beyond which n_k < exp(-CUT).  The quadrature's nodes
+    w_k = w(a) + CUT T, beyond which n_k < exp(-CUT) n(a).  The quadrature's nodes
     spread over [a, top]: a window far wider than the part where the
     integrand lives (a fast probe's reaches q ~ 2 v) would put no node
     there and return 0 with an error estimate of 0."""
     if t == "thermal" and gas.T > 0:
-        return np.minimum(win.bq, gas.disp.inverse(CUT * gas.T))
+        # n_k falls by exp(-CUT) from the window's start (a window of a large
+        # gap starts where n_k is already tiny: a cut at w = CUT T would
+        # leave a tail of the order of the whole integral)
+        return np.minimum(win.bq, gas.disp.inverse(gas.disp.omega(win.a) + CUT * gas.T))
     return win.bq
 
 
@@ -456,7 +468,8 @@ def _window_2d(gas, win, kind, tags, rtol, out):
                 lean[t][0][todo], lean[t][1][todo] = got[t][0][todo], got[t][1][todo]
                 th_used[t][todo] = th_got[t][todo]
         with np.errstate(invalid="ignore"):
-            todo = np.any([~(lean[t][1] <= tol * np.abs(lean[t][0])) for t in tags], axis=0)
+            todo = np.any([~(np.isfinite(lean[t][0]) & (lean[t][1] <= tol * np.abs(lean[t][0])))
+                           for t in tags], axis=0)
         if not np.any(todo):
             break
     for t in tags:
@@ -470,7 +483,7 @@ def _window_2d(gas, win, kind, tags, rtol, out):
         cut = (th_hi < math.pi) & fin | (~fin & (top < win.b))
         f = _integrand_2d(gas, win, kind, t)
         with np.errstate(invalid="ignore"):
-            redo = np.nonzero(~(err <= tol * np.abs(val)) & (th_hi > 0))[0]
+            redo = np.nonzero(~(np.isfinite(val) & (err <= tol * np.abs(val))) & (th_hi > 0))[0]
         if redo.size:
             def fr(x, i, f=f):
                 return f(x, redo[i])
@@ -531,12 +544,14 @@ def _slow_static_error(gas, v, W, s):
 def _static_points(gas, v, W, s):
     """Where very slow motion is treated as static (see STATIC_SPEED)."""
     slow = v < STATIC_SPEED
-    if gas.d == 3:
+    i = np.nonzero(v < STATIC_SPEED_3D)[0] if gas.d == 3 else np.zeros(0, dtype=int)
+    if i.size:
         disp = gas.disp
+        si = s[i] if np.ndim(s) else s
         with np.errstate(divide="ignore", invalid="ignore"):
-            vg0 = disp.group_velocity(disp.inverse(W))
-            window_err = 4.0 * EPS * vg0 / v          # 4 eps (a + b)/(b - a)
-        slow = slow | ((v < STATIC_SPEED_3D) & (_slow_static_error(gas, v, W, s) < window_err))
+            vg0 = disp.group_velocity(disp.inverse(W[i]))
+            window_err = 4.0 * EPS * vg0 / v[i]          # 4 eps (a + b)/(b - a)
+        slow[i] |= _slow_static_error(gas, v[i], W[i], si) < window_err
     return slow
 
 
@@ -579,7 +594,9 @@ def _up_down(gas, v, W, s, I1, I2, static, tags):
     fl = ROUNDING
     down = np.where(static, sp + stt, p1 + t1 + t2)
     up = np.where(static, stt, p2 + t2 + t1)
-    slow = _slow_static_error(gas, v, W, s) * static
+    slow = np.zeros(n)
+    if np.any(static):
+        slow[i] = _slow_static_error(gas, v[i], W[i], si)
     return {"down": (down, np.where(static, 0.0, e1 + f1 + f2) + (fl + slow) * down),
             "up": (up, np.where(static, 0.0, e2 + f2 + f1) + (fl + slow) * up)}
 

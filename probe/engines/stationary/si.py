@@ -23,10 +23,15 @@ from probe.engines.stationary.checks import (broadcast_shape, check_array, check
 from probe.engines.stationary.circular import circular_kernel
 from probe.engines.stationary.gas import kernel_gas
 from probe.engines.stationary.inertial import inertial_kernel
-from probe.engines.stationary.limits import BESSEL_ACCURACY, MAX_BESSEL_EVALUATIONS, TINY
+from probe.engines.stationary.limits import (BESSEL_ACCURACY, MAX_BESSEL_EVALUATIONS,
+                                             ROUNDING, TINY)
 from probe.errors import InputError, ModelError
 
 HBAR = sc.hbar
+
+#: smallest rtol straight-motion rates can meet: twice the rounding floor
+#: ROUNDING that every estimate carries
+RTOL_FLOOR = 2 * ROUNDING
 
 #: processes of a channel with a detuning (up, down) and without (emission,
 #: absorption, and the energy moment that gives the power)
@@ -119,12 +124,19 @@ def inertial_rates(condensate, probe, speed, gap=None, rtol=1e-8):
     """Golden-rule rates for uniform straight motion at ``speed`` (m/s).
 
     ``speed`` and ``gap`` (rad/s; default the probe's) broadcast together;
-    ``rtol`` (the requested relative accuracy) lies in RTOL_RANGE.  Bad
+    ``rtol`` (the requested relative accuracy) lies in RTOL_RANGE and is at
+    least RTOL_FLOOR (below it the rounding floor of the estimates,
+    ROUNDING, leaves it unmet at every point: refused).  Bad
     arguments raise InputError under their scenario keys
     (``trajectory.speed``, ``probe.gap``, ``numerics.rtol``).
     Returns a :class:`RateResult` with arrays of the broadcast shape.
     """
     rtol = check_rtol(rtol)
+    if rtol < RTOL_FLOOR:
+        raise InputError("numerics.rtol",
+                         f"= {rtol:g} cannot be met by straight-motion rates: every error "
+                         f"estimate carries the rounding of the window edges and sums, "
+                         f"{ROUNDING:g} of the rate; give rtol >= {RTOL_FLOOR:g}")
     speed = check_array("trajectory.speed", speed)
     c, w0 = condensate.sound_speed, condensate.frequency_unit
     gas = kernel_gas(condensate, probe)
