@@ -1,58 +1,78 @@
-"""Fast J_m(x) for many (order, argument) pairs at once.
+"""Fast J_m(x) for many (order, argument) pairs at once, with an error bound.
 
 The circular engine needs J_m(k_m R) for thousands of harmonics, each at its
 own argument.  Away from the turning point x ~ m, Debye's asymptotic
-expansions (Abramowitz and Stegun 9.3.7 and 9.3.15, with the polynomials
-u_k of 9.3.9-9.3.10) cost a few arithmetic operations per value.  With
+expansions (Abramowitz and Stegun 9.3.7 and 9.3.15) cost a few arithmetic
+operations per value.  Their polynomials u_k follow from u_0 = 1 and
+``u_{k+1}(t) = t^2 (1 - t^2) u_k'(t) / 2 + (1/8) int_0^t (1 - 5 s^2) u_k(s) ds``
+(A&S 9.3.9-9.3.10), generated here in exact rational arithmetic.  With
 ``r = sqrt(|x^2 - m^2|)`` and ``t = m/r`` the k-th correction is
 ``u_k(t)/m^k = sum_p c_p t^(p-k) / r^k``, which stays finite at m = 0 (where
 the oscillatory form becomes Hankel's large-argument expansion).  Terms up to
-k = 5 are kept; where the k = 5 term exceeds 1e-9 (near the turning point, or
-for small r) the value comes from scipy's ``jv`` instead.  The error is then
-~1e-10 relative to the local envelope or below (checked against mpmath in the
-tests).
+k = 10 are kept; where the last kept term exceeds 1e-16 (near the turning
+point, or for small r) the value comes from scipy's ``jv`` instead.
+
+``jv_error`` bounds the absolute error of either route: a few units of
+rounding in the phase (or exponent), whose size grows with the argument,
+relative to the local envelope of J above the turning point and to the value
+below it (checked against mpmath in tests/test_bessel.py).
 """
 from __future__ import annotations
+
+from fractions import Fraction
 
 import numpy as np
 from scipy.special import jv
 
-# u_k(t) = sum_p c_p t^p / den  (A&S 9.3.9, 9.3.10)
-_U = [
-    None,
-    ({1: 3.0, 3: -5.0}, 24.0),
-    ({2: 81.0, 4: -462.0, 6: 385.0}, 1152.0),
-    ({3: 30375.0, 5: -369603.0, 7: 765765.0, 9: -425425.0}, 414720.0),
-    ({4: 4465125.0, 6: -94121676.0, 8: 349922430.0, 10: -446185740.0,
-      12: 185910725.0}, 39813120.0),
-    ({5: 1519035525.0, 7: -49286948607.0, 9: 284499769554.0,
-      11: -614135872350.0, 13: 566098157625.0, 15: -188699385875.0},
-     6688604160.0),
-]
-
+#: number of Debye corrections kept
+_ORDERS = 10
 #: accept the expansion where its last kept term is below this
-_LAST_TERM = 1e-9
+_LAST_TERM = 1e-16
+_EPS = float(np.finfo(float).eps)
+#: relative floor of the Bessel values (both routes, against mpmath)
+BESSEL_FLOOR = 2e-15
+#: rounding of the phase or exponent per unit of the size of its parts
+BESSEL_PHASE = 4 * _EPS
+
+
+def _debye_polynomials(K):
+    """Coefficients {power: Fraction} of u_0 ... u_K (A&S 9.3.9-9.3.10)."""
+    us = [{0: Fraction(1)}]
+    for _ in range(K):
+        out = {}
+        for p, c in us[-1].items():
+            if p:
+                out[p + 1] = out.get(p + 1, 0) + c * p / 2
+                out[p + 3] = out.get(p + 3, 0) - c * p / 2
+            out[p + 1] = out.get(p + 1, 0) + c / 8 / (p + 1)
+            out[p + 3] = out.get(p + 3, 0) - 5 * c / 8 / (p + 3)
+        us.append({p: c for p, c in out.items() if c})
+    return us
+
+
+# u_k(t) = sum_p c_p t^p, as floats, highest power first: (k, [(p, c), ...])
+_U = [(k, sorted(((p, float(c)) for p, c in u.items()), reverse=True))
+      for k, u in enumerate(_debye_polynomials(_ORDERS)) if k]
 
 
 def _corrections(t, r, oscillatory):
-    """Even and odd sums of u_k/m^k (k = 1..5) and the size of the k = 5 term.
-
-    Oscillatory region: u_k is evaluated at i t; the even terms are real and
-    the odd ones imaginary, returned as their real coefficients."""
+    """Even and odd sums of u_k/m^k (k = 1.._ORDERS) and the size of the last
+    term.  Oscillatory region: u_k is evaluated at i t; the even terms are
+    real and the odd ones imaginary, returned as their real coefficients."""
     t2 = t * t
     even = np.zeros_like(t)
     odd = np.zeros_like(t)
     last = None
     rinv = 1.0 / r
-    for k in range(1, 6):
-        coeffs, den = _U[k]
+    rk = np.ones_like(r)
+    for k, coeffs in _U:
+        rk = rk * rinv
         acc = np.zeros_like(t)
-        for p in sorted(coeffs, reverse=True):
-            c = coeffs[p]
+        for p, c in coeffs:
             if oscillatory:               # (i t)^p = i^p t^p, i^p = (-1)^(p//2) (x i if odd)
                 c = c * (-1.0) ** (p // 2)
             acc = acc * t2 + c            # sum_p c_p t^(p-k), p - k even
-        term = acc / den * rinv**k
+        term = acc * rk
         if k % 2:
             odd = odd + term
         else:
@@ -61,18 +81,10 @@ def _corrections(t, r, oscillatory):
     return even, odd, np.abs(last)
 
 
-def jv_int(m, x):
-    """J_m(x) for integer orders m (any sign) and x >= 0, elementwise."""
-    m, x = np.broadcast_arrays(np.asarray(m, float), np.asarray(x, float))
-    shape = m.shape
-    m, x = m.ravel(), x.ravel()
-    nu = np.abs(m)
-    sign = np.where((m < 0) & (np.mod(nu, 2) == 1), -1.0, 1.0)
-    out = np.empty(nu.shape)
-    r = np.sqrt(np.abs((x - nu) * (x + nu)))
-    # a cheap pre-screen: the expansion parameter is about t^3/m ~ m^2/r^3
-    cand = (r > 8.0) & (nu * nu < 1e-3 * r**3 * 1e3)
-    use = np.zeros(nu.shape, dtype=bool)
+def _debye(nu, x, r, out, use):
+    """Debye's expansions where they converge to 1e-16; fills ``out`` and
+    marks ``use``."""
+    cand = (r > 8.0) & (nu * nu < r**3)
     for osc in (True, False):
         sel = cand & ((x > nu) if osc else (x < nu))
         if not np.any(sel):
@@ -91,7 +103,49 @@ def jv_int(m, x):
         idx = np.nonzero(sel)[0][good]
         out[idx] = val[good]
         use[idx] = True
+
+
+def jv_int(m, x):
+    """J_m(x) for integer orders m (any sign) and x >= 0, elementwise."""
+    m, x = np.broadcast_arrays(np.asarray(m, float), np.asarray(x, float))
+    shape = m.shape
+    m, x = m.ravel(), x.ravel()
+    nu = np.abs(m)
+    sign = np.where((m < 0) & (np.mod(nu, 2) == 1), -1.0, 1.0)
+    out = np.empty(nu.shape)
+    r = np.sqrt(np.abs((x - nu) * (x + nu)))
+    use = np.zeros(nu.shape, dtype=bool)
+    _debye(nu, x, r, out, use)
     rest = ~use
     if np.any(rest):
         out[rest] = jv(nu[rest], x[rest])
     return (sign * out).reshape(shape)
+
+
+def envelope(m, x):
+    """The local envelope of |J_m(x)| above the turning point: sqrt(2/(pi r))
+    capped by Airy's maximum 0.68 (2/m)^(1/3) and by 1; 0 below it."""
+    nu = np.abs(np.asarray(m, float))
+    x = np.asarray(x, float)
+    r = np.sqrt(np.abs((x - nu) * (x + nu)))
+    with np.errstate(divide="ignore"):
+        env = np.minimum(np.sqrt(2 / (np.pi * np.maximum(r, 1e-300))),
+                         np.minimum(1.0, 0.68 * np.cbrt(2 / np.maximum(nu, 1e-300))))
+    return np.where(x > nu, env, 0.0)
+
+
+def jv_error(m, x, value):
+    """Bound on the absolute error of ``jv_int(m, x)`` (``value``): a floor
+    and the rounding of the phase (above the turning point,
+    r - m arctan(r/m)) or of the exponent (below it, r - m arccosh(m/x)),
+    four units per unit of the parts' sizes, relative to the envelope above
+    the turning point and to the value itself everywhere."""
+    nu = np.abs(np.asarray(m, float))
+    x = np.asarray(x, float)
+    r = np.sqrt(np.abs((x - nu) * (x + nu)))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        angle = np.where(x > nu, np.arctan2(r, nu),
+                         np.log((nu + r) / np.maximum(x, 1e-300)))
+    rel = BESSEL_FLOOR + BESSEL_PHASE * (r + nu * angle)
+    absval = np.abs(value)
+    return np.where(absval > 0, rel * absval, 0.0) + rel * envelope(nu, x)

@@ -14,9 +14,9 @@ import math
 
 import numpy as np
 
-from probe.engines.bessel import jv_int as jv
+from probe.engines.bessel import envelope, jv_error, jv_int
 from probe.engines.stationary.harmonics import kapteyn, w3, w3_terms
-from probe.engines.stationary.limits import BESSEL_ACCURACY, CUT, MAX_HARMONICS
+from probe.engines.stationary.limits import CUT, EPS, MAX_HARMONICS
 from probe.errors import ModelError
 
 TOO_MANY_HARMONICS = (
@@ -26,6 +26,11 @@ TOO_MANY_HARMONICS = (
     "static one")
 
 _KEYS = ("plain", "thermal", "energy")
+#: relative rounding of the harmonic's weights (root q, structure factor,
+#: group velocity, form factor, occupation) and of the summation
+_SUMMING = 64 * EPS
+#: relative rounding of a harmonic's argument x = q R (q a root of w_q = w)
+_ARGUMENT = 8 * EPS
 
 
 def first_harmonic(W, wc, sign):
@@ -132,34 +137,54 @@ class _HarmonicSum:
         self.wc = v / R
         self.qcut = math.sqrt(CUT) / s if s > 0 else math.inf
         self.work = 0.0          # Bessel functions evaluated so far
+        #: bounds of the Bessel functions' errors, per family and sum
+        self.bessel = {sign: dict.fromkeys(_KEYS, 0.0) for sign in (+1, -1)}
+
+    def weights(self, m, x):
+        """J_m(x)^2 (2D) or W_m(x) (3D) and bounds on their errors: those of
+        the Bessel functions and the effect of the argument's rounding
+        (x = q R to _ARGUMENT relative: dJ/dx ~ (r + m^(1/3)) (envelope + |J|)/x
+        with r = sqrt|x^2 - m^2|; dW/dx = (J_2m(2x) - W)/x)."""
+        n = np.abs(m)
+        if self.d == 2:
+            J = jv_int(m, x)
+            e = jv_error(m, x, J)
+            r = np.sqrt(np.abs((x - n) * (x + n)))
+            e = e + _ARGUMENT * (r + np.cbrt(n) + 1) * (envelope(m, x) + np.abs(J))
+            self.work += m.size
+            return J * J, e * (2 * np.abs(J) + e)
+        self.work += float(np.sum(w3_terms(m, x)))
+        Wm, e = w3(m, x, with_error=True)
+        r = np.sqrt(np.abs((2 * x - 2 * n) * (2 * x + 2 * n)))
+        return Wm, e + _ARGUMENT * (envelope(2 * n, 2 * x) + Wm * (2 * n + r + 3))
 
     def terms(self, m, sign):
-        """Sums over the harmonics ``m`` of one family, and the last terms'
-        q, P0 (the harmonic's weight without J^2), w and n_th."""
+        """Sums over the harmonics ``m`` of one family (with the bounds of
+        their Bessel functions' errors added into ``self.bessel``), and the
+        last terms' q, P0 (the harmonic's weight without J^2), w and n_th."""
         gas, disp = self.gas, self.disp
         w = sign * self.W + m * self.wc
         q = disp.inverse(w)
         vg = disp.group_velocity(q)
         Sq = disp.structure_factor(q)
-        x = q * self.R
-        if self.d == 2:
-            B = jv(m, x) ** 2
-            P0 = q * Sq / vg
-            self.work += m.size
-        else:
-            B = w3(m, x)
-            P0 = q * q * Sq / (math.pi * vg)
-            self.work += float(np.sum(w3_terms(m, x)))
+        B, eB = self.weights(m, q * self.R)
+        P0 = q * Sq / vg if self.d == 2 else q * q * Sq / (math.pi * vg)
         if self.work > self.max_evaluations:
             raise ModelError(
                 "trajectory.radius",
                 f"the circular sum (radius {self.R:.4g} xi, speed {self.v:.4g} c) stopped "
                 f"after {self.work:.3g} Bessel-function evaluations, the limit; "
                 + TOO_MANY_HARMONICS)
-        base = P0 * gas.form(q, self.s) * B
+        pf = P0 * gas.form(q, self.s)
+        base = pf * B
         n_th = gas.occupation(q) if gas.T > 0 else np.zeros_like(q)
         sums = {"plain": base.sum(), "thermal": (base * n_th).sum(),
                 "energy": (base * w).sum() if self.energy else 0.0}
+        ebase = pf * eB
+        errs = self.bessel[sign]
+        errs["plain"] += ebase.sum()
+        errs["thermal"] += (ebase * n_th).sum()
+        errs["energy"] += (ebase * w).sum() if self.energy else 0.0
         return sums, q, P0, w, n_th
 
     def _block(self, m0, direction, m_stop, m_edge, first):
@@ -287,17 +312,22 @@ def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=MAX_
             "supersonic circular rate diverges: every harmonic radiates; give "
             "the probe a width or use 'bogoliubov'")
     hs = _HarmonicSum(gas, R, v, W, s, rtol, energy, max_harmonics, max_evaluations)
-    bessel = BESSEL_ACCURACY
     t1, e1, n1 = hs.family(+1)
+    b1 = hs.bessel[+1]
     if W > 0:
         t2, e2, n2 = hs.family(-1)
+        b2 = hs.bessel[-1]
         down = t1["plain"] + t1["thermal"] + t2["thermal"]
         up = t2["plain"] + t2["thermal"] + t1["thermal"]
-        return {"down": (down, e1["plain"] + e1["thermal"] + e2["thermal"] + bessel * down),
-                "up": (up, e2["plain"] + e2["thermal"] + e1["thermal"] + bessel * up),
+        return {"down": (down, e1["plain"] + e1["thermal"] + e2["thermal"]
+                         + b1["plain"] + b1["thermal"] + b2["thermal"] + _SUMMING * down),
+                "up": (up, e2["plain"] + e2["thermal"] + e1["thermal"]
+                       + b2["plain"] + b2["thermal"] + b1["thermal"] + _SUMMING * up),
                 "harmonics": n1 + n2}
     em = t1["plain"] + t1["thermal"]
-    return {"emission": (em, e1["plain"] + e1["thermal"] + bessel * em),
-            "absorption": (t1["thermal"], e1["thermal"] + bessel * t1["thermal"]),
-            "energy": (t1["energy"], e1["energy"] + bessel * t1["energy"]),
+    return {"emission": (em, e1["plain"] + e1["thermal"] + b1["plain"] + b1["thermal"]
+                         + _SUMMING * em),
+            "absorption": (t1["thermal"], e1["thermal"] + b1["thermal"]
+                           + _SUMMING * t1["thermal"]),
+            "energy": (t1["energy"], e1["energy"] + b1["energy"] + _SUMMING * t1["energy"]),
             "harmonics": n1}

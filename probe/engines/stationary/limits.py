@@ -49,7 +49,8 @@ MAX_BESSEL_EVALUATIONS = 7.5e7
 #: seconds per Bessel-function evaluation in a large 3D sum (measured on the
 #: development machine; only used to put a time on the refusal message)
 SECONDS_PER_BESSEL = 4e-7
-#: relative accuracy of the Bessel functions of the circular sums (bessel.py)
-BESSEL_ACCURACY = 1e-10
+#: the smallest rtol of the circular sums (their Bessel functions, bessel.py, and
+#: spherical averages, harmonics.py, are accurate to ~1e-14 for arguments below 1e3)
+BESSEL_ACCURACY = 1e-12
 #: the circular kernel sums at most this many harmonics per point
 MAX_HARMONICS = 2_000_000
