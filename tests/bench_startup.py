@@ -17,7 +17,9 @@ start-up work), checked out by ``git worktree`` into a temporary folder
 and the tree as working directory), alternating the two trees run by run so
 that a change of the machine's load falls on both.  The installed ``probe``
 script of this tree is timed beside them, and the rates themselves
-(``rates_from_config`` of the example in a warm process).
+(``rates_from_config`` of the example in a warm process).  Beside the wall
+time each row gives the CPU time (user + system) of the process, which a
+busy machine inflates less.
 """
 from __future__ import annotations
 
@@ -56,27 +58,32 @@ def checkout(rev):
 
 
 def run(argv, tree):
-    """Wall time in seconds of one process running ``argv`` in ``tree``."""
+    """(wall seconds, CPU seconds: user + system) of one process running
+    ``argv`` in ``tree``."""
     env = dict(os.environ, PYTHONPATH=str(tree))
     start = time.perf_counter()
-    done = subprocess.run(argv, cwd=tree, env=env, stdout=subprocess.DEVNULL,
-                          stderr=subprocess.PIPE)
+    child = subprocess.Popen(argv, cwd=tree, env=env, stdout=subprocess.DEVNULL,
+                             stderr=subprocess.PIPE)
+    err = child.stderr.read()
+    _, status, usage = os.wait4(child.pid, 0)
+    child.returncode = os.waitstatus_to_exitcode(status)
     elapsed = time.perf_counter() - start
-    if done.returncode != 0:
-        raise SystemExit(f"{' '.join(argv)} in {tree} failed:\n{done.stderr.decode()}")
-    return elapsed
+    if child.returncode != 0:
+        raise SystemExit(f"{' '.join(argv)} in {tree} failed:\n{err.decode()}")
+    return elapsed, usage.ru_utime + usage.ru_stime
 
 
 def median_times(argv_of, trees, repeats):
-    """{tree name: median seconds}: one untimed run each, then ``repeats``
-    rounds, each running every tree once."""
+    """{tree name: (median wall seconds, median CPU seconds)}: one untimed
+    run each, then ``repeats`` rounds, each running every tree once."""
     for name, tree in trees.items():
         run(argv_of(name), tree)
     times = {name: [] for name in trees}
     for _ in range(repeats):
         for name, tree in trees.items():
             times[name].append(run(argv_of(name), tree))
-    return {name: statistics.median(values) for name, values in times.items()}
+    return {name: tuple(statistics.median(v) for v in zip(*values))
+            for name, values in times.items()}
 
 
 RATES_ALONE = """
@@ -111,16 +118,19 @@ def main():
     script = Path(sys.executable).with_name("probe")
     print(f"{os.cpu_count()} cores; median of {args.repeats} runs each; previous release: "
           f"{sha[:12]} ({previous})")
-    print(f"{'command':<52} {'now':>9} {'previous':>9} {'ratio':>7}")
+    print(f"{'command':<50} {'now':>8} {'previous':>9} {'ratio':>6}   "
+          f"{'CPU now':>8} {'previous':>9} {'ratio':>6}")
     for label, tail in COMMANDS.items():
         medians = median_times(lambda _name, tail=tail: [sys.executable, *tail],
                                trees, args.repeats)
-        ratio = medians["previous"] / medians["now"]
-        print(f"{label:<52} {medians['now']:8.3f}s {medians['previous']:8.3f}s {ratio:6.1f}x")
+        (wall, cpu), (wall0, cpu0) = medians["now"], medians["previous"]
+        print(f"{label:<50} {wall:7.3f}s {wall0:8.3f}s {wall0 / wall:5.1f}x   "
+              f"{cpu:7.3f}s {cpu0:8.3f}s {cpu0 / cpu:5.1f}x")
     if script.exists():
-        installed = median_times(lambda _name: [str(script), "rates", EXAMPLE, "--json"],
+        wall, cpu = median_times(lambda _name: [str(script), "rates", EXAMPLE, "--json"],
                                  {"now": ROOT}, args.repeats)["now"]
-        print(f"{'installed script: probe rates ... --json':<52} {installed:8.3f}s")
+        print(f"{'installed script: probe rates ... --json':<50} {wall:7.3f}s {'':>16}"
+              f"{cpu:7.3f}s")
     print(f"{'the rates alone (rates_from_config, warm process)':<52} "
           f"{rates_alone() * 1e3:7.1f}ms")
 
