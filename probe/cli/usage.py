@@ -41,6 +41,18 @@ def _help_hint(exc, command=None):
     return f"see '{' '.join(['probe', *words])} --help'"
 
 
+def _nearest_command(exc):
+    """'; did you mean ...?' for a mistyped command, from every command of
+    the group (imported or not)."""
+    from difflib import get_close_matches
+
+    ctx, name = getattr(exc, "ctx", None), getattr(exc, "command_name", None)
+    if ctx is None or not name:
+        return ""
+    near = get_close_matches(name, ctx.command.list_commands(ctx))
+    return f"; did you mean {', '.join(repr(n) for n in near)}?" if near else ""
+
+
 def usage_line(exc, command=None):
     """``(key, message)`` of a click usage error (``command``: the
     subcommand being parsed, when the error does not say)."""
@@ -61,7 +73,8 @@ def usage_line(exc, command=None):
     if isinstance(exc, cx.BadParameter) and exc.param is not None:
         return _param_key(exc.param), f"{_sentence(exc.message)} ({hint})"
     if isinstance(exc, _NO_SUCH_COMMAND) or "No such command" in exc.message:
-        return "COMMAND", f"{_sentence(exc.format_message())} (see 'probe --help')"
+        return "COMMAND", f"{_sentence(exc.message)}{_nearest_command(exc)} " \
+                          "(see 'probe --help')"
     return "arguments", f"{_sentence(exc.format_message())} ({hint})"
 
 
