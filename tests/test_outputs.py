@@ -218,7 +218,7 @@ def test_quantity_checked_without_plot(box, tmp_path, no_computing):
     (["rates", BOX, "--set"], "--set", "requires an argument"),
     (["solve", BOX, "--for", "trajectory.speed"], "--target", "missing"),
     (["threshold", BOX, BOX], "arguments", "unexpected extra argument"),
-    (["ratez", BOX], "COMMAND", "no such command 'ratez'"),
+    (["ratez", BOX], "COMMAND", "no such command 'ratez'; did you mean 'rates'?"),
 ])
 def test_usage_errors_are_one_line(args, key, text, tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
