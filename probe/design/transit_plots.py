@@ -202,14 +202,17 @@ def pattern_panel(ax, result, speed=None):
     series, scale, unit, angles, values, axis_text = _polar_series(
         sp, result.dimension, main, second)
     ax.set_theta_zero_location("E")
-    k = 0
+    k, top = 0, 0.0
     for key, lab in series:
         if lab is None or key not in sp:
             continue
         r = np.asarray(sp[key], float) * scale
         ax.plot(angles, values(r), label=lab, markevery=max(1, angles.size // 24),
                 **_style(k))
+        top = max(top, float(np.nanmax(r)))
         k += 1
+    if top > 0:
+        ax.set_rlim(0, 1.1 * top)          # the largest lobe clear of the frame
     if speed is not None and speed > result.sound_speed:
         _mach_cone(ax, result.sound_speed, speed)
     ax.set_rlabel_position(157.5)
