@@ -5,7 +5,8 @@ starting excited.
 
     python examples/tour/emission_spectrum.py [OUTDIR]
 
-The same numbers: probe transit examples/cross3d_gaussian.toml --spectrum ...
+The same numbers: probe transit examples/cross3d_gaussian.toml --spectrum ...;
+the spectrum beside the directions: probe transit examples/cross3d_gaussian.toml --plot FILE.png
 """
 from _where import output, scenario
 
