@@ -309,8 +309,18 @@ class Dispersion:
 
     def threshold(self, W):
         """Up-transition threshold speed min_q (omega(q) + W)/q and the q at
-        which it is reached (W > 0 arrays)."""
+        which it is reached (W > 0 arrays).  The last answer is kept: the
+        engine's checks and the probe model ask for the same gaps."""
         W = np.asarray(W, float).ravel()
+        key = W.tobytes()
+        last = getattr(self, "_last_threshold", None)
+        if last is not None and last[0] == key:
+            return last[1].copy(), last[2].copy()
+        vt, q = self._threshold(W)
+        self._last_threshold = (key, vt, q)
+        return vt.copy(), q.copy()
+
+    def _threshold(self, W):
         # h(q) = q v_g - omega - W, increasing, h(0) = -W
         hi = np.maximum(np.minimum(np.cbrt(8 * W), np.sqrt(4 * W)), 1e-300)
         for _ in range(200):
@@ -359,7 +369,7 @@ class Bogoliubov(Dispersion):
     def curvature(self, q):
         q = np.asarray(q, float)
         s = 1 + 0.25 * q * q
-        return q * (0.75 + 0.125 * q * q) / s**1.5
+        return q * (0.75 + 0.125 * q * q) / (s * np.sqrt(s))
 
     def inverse(self, w):
         w = np.asarray(w, float)
