@@ -352,7 +352,7 @@ _PAIRS_2D = ((48, 36), (72, 56))
 #: the theta at which q - a reaches the healing scale q ~ 1 of a wide window
 _GRADE = 0.3
 #: rows per block of the 2D fixed rules (bounds the memory of the node arrays)
-_BLOCK = 2048
+_BLOCK = 512
 
 
 def _theta_top(win, top):
@@ -400,15 +400,16 @@ def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
         p1, p2 = vq + om - W, vq - om + W
     else:
         p1, p2 = vq - om - W, vq + om + W
+    den = p1 * p2
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         base = (q * disp.structure_factor(q) * np.exp(-(q * s) ** 2)
-                * np.sqrt(da * db / (p1 * p2)) * jac / math.pi)
+                * np.sqrt(da * db / den) * jac / math.pi)
         # rounding of the factor: each of p1, p2 is off by ~2 eps (v q + w + W)
-        # (its terms and the edge it vanishes at), halved by the square root
-        a1, a2 = np.abs(p1[:, :n.size]), np.abs(p2[:, :n.size])
-        # and b - q = (b - a) - (q - a) is off by eps (b - a)
-        rnd = (2 * EPS * (vq + om + W)[:, :n.size] * (a1 + a2) / (a1 * a2)
-               + EPS * L / db[:, :n.size] + 16 * EPS)
+        # (its terms and the edge it vanishes at), halved by the square root;
+        # p1 + p2 = 2 v q.  And b - q = (b - a) - (q - a) is off by eps (b - a)
+        k = slice(0, n.size)
+        rnd = (4 * EPS * vq[:, k] * (vq + om + W)[:, k] / np.abs(den[:, k])
+               + EPS * L / db[:, k] + 16 * EPS)
     out = {}
     for t in tags:
         if t == "thermal":
