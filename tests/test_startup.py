@@ -80,8 +80,11 @@ def test_help_imports_no_heavy_library(tmp_path):
 def test_rates_of_a_straight_path_import_no_plotting_solver_or_scheduler(tmp_path):
     modules, registry, out = _modules_after("rates", EXAMPLE, "--json", cache=tmp_path)
     assert json.loads(out)["up_rate"] > 0          # the command ran
-    assert registry
+    assert registry                                # a cold cache: pint read the strings
     assert not _imported(modules, RATES_FORBIDDEN)
+    warm, registry, again = _modules_after("rates", EXAMPLE, "--json", cache=tmp_path)
+    assert again == out
+    assert not registry and not _imported(warm, ("pint",) + RATES_FORBIDDEN)
 
 
 def test_import_probe_is_light():
@@ -267,3 +270,63 @@ def test_unwritable_cache_folder_still_builds(tmp_path, monkeypatch):
     blocker.write_text("not a folder")
     monkeypatch.setenv(units.CACHE_ENV, str(blocker / "cache"))
     assert units.build_registry().Quantity(1, "um").to("m").magnitude == 1e-6
+
+
+# -- strings read by earlier runs ---------------------------------------------
+
+STRINGS = [("1.2e20 m^-3", "density", 3), ("5e7 1/m", "density", 1), ("5 um", "length", None),
+           ("3 a0", "length", None), ("86.909 u", "mass", None), ("50 nK", "temperature", None),
+           ("2 ms", "time", None), ("200 Hz", "frequency", None), ("1257 rad/s", "frequency", None),
+           ("1e-30 J", "frequency", None), ("160 Hz", "angular_frequency", None),
+           ("1000 1/s", "angular_frequency", None), ("1e-50 J m^3", "coupling", 3),
+           ("2 mm/s", "speed", None), ("1e-8", "dimensionless", None), ("10**3 um", "length", None)]
+
+_READ = """
+import json, sys
+from probe.scenarios.units import parse_quantity
+out = [parse_quantity(t, "k", kind, dimension=d) for t, kind, d in json.loads(sys.argv[1])]
+out.append(parse_quantity("1.5 c_s", "k", "speed", sound_speed=float(sys.argv[2])))
+print(json.dumps({"values": [v.hex() for v in out], "pint": "pint" in sys.modules}))
+"""
+
+
+def _read_strings(cache, sound_speed):
+    env = dict(os.environ, PYTHONPATH=str(ROOT), **{units.CACHE_ENV: str(cache)})
+    done = subprocess.run([sys.executable, "-c", _READ, json.dumps(STRINGS), str(sound_speed)],
+                          cwd=ROOT, env=env, capture_output=True, text=True, check=True)
+    return json.loads(done.stdout)
+
+
+def test_strings_read_again_give_the_same_bits_without_pint(tmp_path):
+    """A second run reads every string from the file the first wrote, without
+    importing pint, to the same bits as pint reads them with no cache at all
+    (the independent route); a speed in c_s keeps its number of sound speeds."""
+    first = _read_strings(tmp_path, 2e-3)
+    second = _read_strings(tmp_path, 3e-3)
+    plain = _read_strings("", 3e-3)
+    assert first["pint"] and not second["pint"] and plain["pint"]
+    assert second["values"] == plain["values"]
+    assert first["values"][:-1] == plain["values"][:-1]
+    assert float.fromhex(second["values"][-1]) == 1.5 * 3e-3
+
+
+def test_remembered_strings_keep_their_refusals(tmp_path, monkeypatch):
+    """A speed in c_s without a known sound speed, and strings that cannot be
+    read, are refused however often they are read."""
+    from probe.errors import InputError
+    monkeypatch.setattr(units, "_MEMO", {})
+    monkeypatch.setattr(units, "_MEMO_NEW", {})
+    assert units.parse_quantity("2 c_s", "k", "speed", sound_speed=1e-3) == 2e-3
+    for _ in range(2):
+        with pytest.raises(InputError, match="sound speed c_s"):
+            units.parse_quantity("2 c_s", "k", "speed")
+        with pytest.raises(InputError, match="units of"):
+            units.parse_quantity("5 um", "k", "time")
+        with pytest.raises(InputError):
+            units.parse_quantity("5 blorbs/s", "k", "speed")
+    assert list(units._MEMO_NEW) == [("2 c_s", "speed", None)]
+
+
+def test_strings_file_is_named_by_this_code_and_pint():
+    key = units.memo_key()
+    assert key.startswith("strings-") and key == units.memo_key()

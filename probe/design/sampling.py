@@ -40,7 +40,7 @@ from probe.errors import InputError, ModelError
 from probe.gas.condensate import Condensate
 from probe.quantities import si_unit
 from probe.scenarios.schema import KEYS
-from probe.scenarios.units import parse_quantity, ureg
+from probe.scenarios.units import parse_quantity
 
 #: gas keys and the :class:`Condensate` argument each sets
 GAS_ARGUMENTS = {"condensate.mass": "mass", "condensate.density": "density",
@@ -218,6 +218,7 @@ def in_sound_speeds(text):
     (``"1.6 c_s"``)."""
     if not isinstance(text, str):
         return False
+    from probe.scenarios.units import ureg   # here: the registry is built on first use
     try:
         q = ureg.parse_expression(text)
     except Exception:  # parse errors are reported when the value is read

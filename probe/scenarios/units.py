@@ -40,6 +40,7 @@ from __future__ import annotations
 
 import math
 import re
+import atexit
 import hashlib
 import os
 import pickle
@@ -156,21 +157,21 @@ def _parse_definitions(reg):
     return [d for project in parsed for d in parser.iter_parsed_project(project)]
 
 
-def _read_cache(path, key):
-    """The definitions stored under ``key``, or None (missing, unreadable,
-    truncated by a concurrent writer, or from another key)."""
+def _read_cache(path, key, kind=list):
+    """What is stored under ``key`` (a ``kind``), or None (missing,
+    unreadable, truncated by a concurrent writer, or from another key)."""
     try:
         with open(path, "rb") as fh:
-            stored_key, definitions = pickle.load(fh)
+            stored_key, content = pickle.load(fh)
     except Exception:  # noqa: BLE001 - a cache that cannot be read is rebuilt
         return None
-    if stored_key != key or not isinstance(definitions, list):
+    if stored_key != key or not isinstance(content, kind):
         return None
-    return definitions
+    return content
 
 
-def _write_cache(path, key, definitions):
-    """Store the definitions atomically (a temporary file renamed over the
+def _write_cache(path, key, content):
+    """Store ``content`` atomically (a temporary file renamed over the
     cache file, so that a reader sees the old file or the new one, never a
     half-written one); a folder that cannot be written is left alone."""
     tmp = None
@@ -178,7 +179,7 @@ def _write_cache(path, key, definitions):
         path.parent.mkdir(parents=True, exist_ok=True)
         fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=path.name, suffix=".tmp")
         with os.fdopen(fd, "wb") as fh:
-            pickle.dump((key, definitions), fh, protocol=pickle.HIGHEST_PROTOCOL)
+            pickle.dump((key, content), fh, protocol=pickle.HIGHEST_PROTOCOL)
         os.replace(tmp, path)
         tmp = None
     except OSError:
@@ -240,6 +241,76 @@ def unit_registry():
             if _REGISTRY is None:
                 _REGISTRY = build_registry()
     return _REGISTRY
+
+
+class _InSoundSpeeds(float):
+    """A speed read in units of the gas's sound speed ``c_s`` (the number of
+    sound speeds), multiplied by the gas's sound speed when it is known."""
+
+
+#: strings already read: (text, kind, dimension) -> SI float or _InSoundSpeeds;
+#: kept between runs in ``cache_dir()`` beside the definitions (None: not loaded)
+_MEMO = None
+_MEMO_NEW: dict = {}
+#: most strings kept
+MEMO_LIMIT = 20000
+
+
+def memo_key():
+    """Name of the file of strings read: a hash of this module's code, of
+    ``CODATA_DEFINITIONS`` and of pint's definitions file and installed
+    version (found without importing pint), and Python's version."""
+    import importlib.util
+    digest = hashlib.sha256(Path(__file__).read_bytes())
+    for line in CODATA_DEFINITIONS:
+        digest.update(b"\n" + line.encode())
+    spec = importlib.util.find_spec("pint")
+    if spec is not None and spec.origin:
+        folder = Path(spec.origin).parent
+        digest.update((folder / "default_en.txt").read_bytes())
+        for name in ("__init__.py", "facets/plain/registry.py"):
+            stat = (folder / name).stat()
+            digest.update(f"{name} {stat.st_size} {stat.st_mtime_ns}".encode())
+    python = "{}{}".format(*sys.version_info[:2])
+    return f"strings-{_CACHE_FORMAT}-py{python}-{digest.hexdigest()[:20]}"
+
+
+def _memo():
+    """The strings read by earlier runs ({} without a cache)."""
+    global _MEMO
+    if _MEMO is None:
+        memo = {}
+        folder = cache_dir()
+        if folder is not None:
+            key = memo_key()
+            stored = _read_cache(folder / f"{key}.pickle", key, dict)
+            memo = stored if stored is not None else {}
+            atexit.register(_save_memo, folder / f"{key}.pickle", key)
+        _MEMO = memo
+    return _MEMO
+
+
+def _remembered(value, kind, dimension):
+    if not isinstance(value, str):
+        return None
+    found = _MEMO_NEW.get((value, kind, dimension))
+    return found if found is not None else _memo().get((value, kind, dimension))
+
+
+def _remember(value, kind, dimension, result):
+    if isinstance(value, str) and len(_memo()) + len(_MEMO_NEW) < MEMO_LIMIT:
+        _MEMO_NEW[(value, kind, dimension)] = result
+
+
+def _save_memo(path, key):
+    """Add the strings read in this run to the file (merged with what
+    another run may have written meanwhile; atomic replacement)."""
+    if not _MEMO_NEW:
+        return
+    merged = _read_cache(path, key, dict) or {}
+    merged.update(_MEMO_NEW)
+    if len(merged) <= MEMO_LIMIT:
+        _write_cache(path, key, merged)
 
 
 def __getattr__(name):
@@ -337,19 +408,24 @@ def _unit_names(q):
     return names
 
 
+def _plain_number(value, key):
+    """A number given without units (a dimensionless value) as a finite float."""
+    try:
+        number = float(value)
+    except OverflowError:
+        number = math.inf
+    if not math.isfinite(number):
+        raise InputError(key, f"{value!r} is not finite")
+    return number
+
+
 def _parse(value, key, kind, dimension=None):
     """A pint Quantity from the string ``value``; InputError if impossible."""
     if isinstance(value, bool):
         raise InputError(key, f"expected a quantity with units, got {value!r}")
     if isinstance(value, (int, float, np.integer, np.floating)):
         if kind == "dimensionless":
-            try:
-                number = float(value)
-            except OverflowError:
-                number = math.inf
-            if not math.isfinite(number):
-                raise InputError(key, f"{value!r} is not finite")
-            return unit_registry().Quantity(number)
+            return unit_registry().Quantity(_plain_number(value, key))
         raise InputError(
             key, f"{value!r} must carry units, e.g. {example(kind, dimension)} "
             "(write the value as a string with its unit)")
@@ -461,6 +537,24 @@ def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
     if kind in ("density", "coupling") and dimension not in (1, 2, 3):
         raise InputError(key, f"the gas dimension must be 1, 2 or 3 to read a "
                               f"{kind}, got {dimension!r}")
+    if kind == "dimensionless" and isinstance(value, (int, float, np.integer, np.floating)) \
+            and not isinstance(value, bool):
+        return _plain_number(value, key)
+    remembered = _remembered(value, kind, dimension)
+    if remembered is None:
+        remembered = _read(value, key, kind, dimension)
+        _remember(value, kind, dimension, remembered)
+    if isinstance(remembered, _InSoundSpeeds):
+        if sound_speed is None:
+            raise InputError(key, f"{value!r} is given in units of the sound "
+                                  "speed c_s, which is not known here; give m/s")
+        return float(remembered) * float(sound_speed)
+    return remembered
+
+
+def _read(value, key, kind, dimension):
+    """``value`` read by pint as an SI float, or as ``_InSoundSpeeds`` (a
+    multiple of the gas's sound speed)."""
     q = _parse(value, key, kind, dimension)
     dim = q.dimensionality
 
@@ -471,10 +565,7 @@ def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
 
     if kind == "speed":
         if dim == unit_registry().c_s.dimensionality:
-            if sound_speed is None:
-                raise InputError(key, f"{value!r} is given in units of the sound "
-                                      "speed c_s, which is not known here; give m/s")
-            return float(q.to("c_s").magnitude) * float(sound_speed)
+            return _InSoundSpeeds(q.to("c_s").magnitude)
         if not q.check("[length]/[time]"):
             raise _wrong_dimension(key, value, q, kind)
         return float(q.to("m/s").magnitude)
