@@ -34,7 +34,10 @@ The registry (``ureg``, or ``unit_registry()``) is built on first use, not on
 import, from definitions parsed once and kept in the user's cache folder
 (``cache_dir()``; ``PROBE_CACHE_DIR=`` with an empty value turns the cache
 off): parsing pint's definitions file is most of the start-up time of a
-command.
+command.  The strings read are kept there too (``memo_key``: their SI values,
+refusals never), so that a scenario read again needs neither pint nor the
+registry; the file is named by a hash of this module's code, the CODATA
+definitions and pint's files, so that any change of them starts a new one.
 """
 from __future__ import annotations
 
