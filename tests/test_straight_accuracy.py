@@ -178,6 +178,11 @@ def test_a_grid_of_one_width_agrees_with_single_points():
         one = inertial_kernel(gas, v[i:i + 1], W[i:i + 1], 0.3, rtol=1e-10)
         for name in ("down", "up"):
             assert abs(grid[name][0][i] - one[name][0][0]) <= grid[name][1][i] + one[name][1][0]
+    # and the tabulated route against the reference
+    for i, r in zip((27,), (reference(3, v[27], 0.7, 0.3, 0.5),)):
+        for k, name in enumerate(("down", "up")):
+            assert abs(grid[name][0][i] - float(r[k])) <= grid[name][1][i]
+            assert grid[name][1][i] <= 1e-10 * grid[name][0][i]
 
 
 def test_si_rates_near_the_3d_threshold_within_their_estimates():
