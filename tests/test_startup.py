@@ -330,3 +330,16 @@ def test_remembered_strings_keep_their_refusals(tmp_path, monkeypatch):
 def test_strings_file_is_named_by_this_code_and_pint():
     key = units.memo_key()
     assert key.startswith("strings-") and key == units.memo_key()
+
+
+def test_strings_file_keeps_the_newest_strings(tmp_path, monkeypatch):
+    """Beyond the limit the oldest strings leave the file, so that a full
+    file still takes the strings of new scenarios."""
+    path = tmp_path / "strings.pickle"
+    monkeypatch.setattr(units, "MEMO_LIMIT", 3)
+    units._write_cache(path, "k", {("1 m", "length", None): 1.0, ("2 m", "length", None): 2.0,
+                                   ("3 m", "length", None): 3.0})
+    monkeypatch.setattr(units, "_MEMO_NEW", {("4 m", "length", None): 4.0,
+                                             ("1 m", "length", None): 1.0})
+    units._save_memo(path, "k")
+    assert list(units._read_cache(path, "k", dict).values()) == [3.0, 4.0, 1.0]

@@ -301,19 +301,23 @@ def _remembered(value, kind, dimension):
 
 
 def _remember(value, kind, dimension, result):
-    if isinstance(value, str) and len(_memo()) + len(_MEMO_NEW) < MEMO_LIMIT:
+    if isinstance(value, str) and len(_MEMO_NEW) < MEMO_LIMIT:
         _MEMO_NEW[(value, kind, dimension)] = result
 
 
 def _save_memo(path, key):
     """Add the strings read in this run to the file (merged with what
-    another run may have written meanwhile; atomic replacement)."""
+    another run may have written meanwhile; atomic replacement); beyond
+    ``MEMO_LIMIT`` strings the oldest are dropped."""
     if not _MEMO_NEW:
         return
     merged = _read_cache(path, key, dict) or {}
-    merged.update(_MEMO_NEW)
-    if len(merged) <= MEMO_LIMIT:
-        _write_cache(path, key, merged)
+    for item in _MEMO_NEW:
+        merged.pop(item, None)
+    merged.update(_MEMO_NEW)                    # the newest last
+    if len(merged) > MEMO_LIMIT:
+        merged = dict(list(merged.items())[-MEMO_LIMIT:])
+    _write_cache(path, key, merged)
 
 
 def __getattr__(name):
