@@ -10,7 +10,8 @@ operations per value.  Their polynomials u_k follow from u_0 = 1 and
 ``u_k(t)/m^k = sum_p c_p t^(p-k) / r^k``, which stays finite at m = 0 (where
 the oscillatory form becomes Hankel's large-argument expansion).  Terms up to
 k = 10 are kept; where the last kept term exceeds 1e-16 (near the turning
-point, or for small r) the value comes from scipy's ``jv`` instead.
+point, or for small r) the value comes from scipy's ``jv`` instead, and so
+do all values of calls with fewer than 512 (where scipy alone is faster).
 
 ``jv_error`` bounds the absolute error of either route: a few units of
 rounding in the phase (or exponent), whose size grows with the argument,
@@ -29,6 +30,8 @@ _ORDERS = 10
 #: accept the expansion where its last kept term is below this
 _LAST_TERM = 1e-16
 _EPS = float(np.finfo(float).eps)
+#: below this many values scipy's jv alone is faster than the expansions
+_DEBYE_MIN_SIZE = 512
 #: relative floor of the Bessel values (both routes, against mpmath)
 BESSEL_FLOOR = 2e-15
 #: rounding of the phase or exponent per unit of the size of its parts
@@ -58,27 +61,34 @@ _U = [(k, sorted(((p, float(c)) for p, c in u.items()), reverse=True))
 def _corrections(t, r, oscillatory):
     """Even and odd sums of u_k/m^k (k = 1.._ORDERS) and the size of the last
     term.  Oscillatory region: u_k is evaluated at i t; the even terms are
-    real and the odd ones imaginary, returned as their real coefficients."""
-    t2 = t * t
+    real and the odd ones imaginary, returned as their real coefficients.
+    A value whose term falls below 1e-19 stops there (the rest is smaller)."""
     even = np.zeros_like(t)
     odd = np.zeros_like(t)
-    last = None
-    rinv = 1.0 / r
+    last = np.zeros_like(t)
+    act = np.arange(t.size)
+    t2, rinv = t * t, 1.0 / r
     rk = np.ones_like(r)
     for k, coeffs in _U:
         rk = rk * rinv
-        acc = np.zeros_like(t)
+        acc = np.zeros_like(t2)
         for p, c in coeffs:
             if oscillatory:               # (i t)^p = i^p t^p, i^p = (-1)^(p//2) (x i if odd)
                 c = c * (-1.0) ** (p // 2)
             acc = acc * t2 + c            # sum_p c_p t^(p-k), p - k even
         term = acc * rk
         if k % 2:
-            odd = odd + term
+            odd[act] += term
         else:
-            even = even + term
-        last = term
-    return even, odd, np.abs(last)
+            even[act] += term
+        size = np.abs(term)
+        last[act] = size
+        if k >= 3:
+            keep = size >= _LAST_TERM * 1e-3
+            if not keep.any():
+                break
+            act, t2, rinv, rk = act[keep], t2[keep], rinv[keep], rk[keep]
+    return even, odd, last
 
 
 def _debye(nu, x, r, out, use):
@@ -115,7 +125,8 @@ def jv_int(m, x):
     out = np.empty(nu.shape)
     r = np.sqrt(np.abs((x - nu) * (x + nu)))
     use = np.zeros(nu.shape, dtype=bool)
-    _debye(nu, x, r, out, use)
+    if nu.size >= _DEBYE_MIN_SIZE:
+        _debye(nu, x, r, out, use)
     rest = ~use
     if np.any(rest):
         out[rest] = jv(nu[rest], x[rest])

@@ -29,6 +29,9 @@ _KEYS = ("plain", "thermal", "energy")
 #: relative rounding of the harmonic's weights (root q, structure factor,
 #: group velocity, form factor, occupation) and of the summation
 _SUMMING = 64 * EPS
+#: harmonics in the first block beyond the window edge, and the largest block
+_FIRST_BLOCK = 32
+_LARGEST_BLOCK = 8192
 #: relative rounding of a harmonic's argument x = q R (q a root of w_q = w)
 _ARGUMENT = 8 * EPS
 
@@ -187,13 +190,19 @@ class _HarmonicSum:
         errs["energy"] += (ebase * w).sum() if self.energy else 0.0
         return sums, q, P0, w, n_th
 
-    def _block(self, m0, direction, m_stop, m_edge, first):
-        """The next block of harmonics from ``m0`` in ``direction``."""
+    def _block(self, m0, direction, m_stop, m_edge, previous):
+        """The next block of harmonics from ``m0`` in ``direction``: the
+        first reaches past the window edge, the next ones double up to 256
+        or an eighth of the edge's harmonic (small circles need a few dozen
+        harmonics in all)."""
+        reach = (m_edge - m0) if direction > 0 else (m0 - m_edge)
+        if previous == 0:
+            size = max(_FIRST_BLOCK, reach + _FIRST_BLOCK)
+        else:
+            size = min(2 * previous, max(256, abs(m_edge) / 8))
+        size = int(min(_LARGEST_BLOCK, size))
         if direction > 0:
-            size = 256 if not first else int(min(8192, max(256, m_edge - m0 + 64)))
-            size = max(size, int(min(8192, abs(m_edge) / 8)))
             return np.arange(m0, m0 + size, dtype=float)
-        size = int(min(8192, max(256, (m0 - m_edge) + 64 if first else abs(m_edge) / 8 + 256)))
         lo = max(m_stop, m0 - size + 1)
         return np.arange(m0, lo - 1, -1, dtype=float)
 
@@ -225,10 +234,10 @@ class _HarmonicSum:
         bnd = dict.fromkeys(_KEYS, 0.0)
         count = 0
         m0 = m_first
-        first = True
+        size = 0
         while True:
-            m = self._block(m0, direction, m_stop, m_edge, first)
-            first = False
+            m = self._block(m0, direction, m_stop, m_edge, size)
+            size = m.size
             if m.size == 0:
                 break
             sums, q, P0, w, n_th = self.terms(m, sign)

@@ -93,67 +93,76 @@ def _series_polynomials(K):
     return out
 
 
-def _as_floats(poly):
-    return [(i, j, float(c)) for (i, j), c in sorted(poly.items())]
-
-
 _ALL = _series_polynomials(_SERIES)
-#: a and b summed over k < _SERIES (one polynomial each), and the k = _SERIES terms
-_A_SUM = _as_floats(_plus(*(a for a, _ in _ALL[:-1])))
-_B_SUM = _as_floats(_plus(*(b for _, b in _ALL[:-1])))
-_A_LAST, _B_LAST = _as_floats(_ALL[-1][0]), _as_floats(_ALL[-1][1])
-_MAX_I = max(i for poly in (_A_SUM, _B_SUM, _A_LAST, _B_LAST) for i, _, _ in poly)
-_MAX_J = max(j for poly in (_A_SUM, _B_SUM, _A_LAST, _B_LAST) for _, j, _ in poly)
+#: per order k: b_k = p^k B_k(u), a_k = z p^(k+1) A_k(u) (the polynomials are
+#: homogeneous); coefficients of A_k and B_k in u, highest power first
+_ORDERS = [tuple([float(poly.get((i, k + shift), 0)) for i in range(max(i for i, _ in poly), -1, -1)]
+                 for poly, shift in ((a, 1), (b, 0)))
+           for k, (a, b) in enumerate(_ALL)]
 
 
-def _powers(y, top):
-    out = [np.ones_like(y)]
-    for _ in range(top):
-        out.append(out[-1] * y)
-    return out
-
-
-def _poly(terms, up, pp):
-    """sum c u^i p^j and sum |c u^i p^j| from the powers of u and p."""
-    val = np.zeros_like(up[0])
-    mag = np.zeros_like(up[0])
-    for i, j, c in terms:
-        t = c * (up[i] * pp[j])
-        val += t
-        mag += np.abs(t)
+def _horner(coeffs, u, au):
+    """sum c u^i and sum |c| |u|^i (highest power first)."""
+    val = np.full_like(u, coeffs[0])
+    mag = np.full_like(u, abs(coeffs[0]))
+    for c in coeffs[1:]:
+        val = val * u + c
+        mag = mag * au + abs(c)
     return val, mag
 
 
 def _series(n, z):
     """T = a J_n(z) + b J_n'(z) by the series (z and n on either side of the
-    turning point); (T, error bound, first omitted term)."""
+    turning point), order by order until the term of each point falls below
+    _SERIES_TOL (1 above the turning point, |T| below it) and below half the
+    previous one; (T, error bound, converged)."""
     P = z * z + 1 - n * n
     p = 1 / P
     u = z * z * p
     Jn, Jn1 = jv_int(n, z), jv_int(n + 1, z)
     dJ = n / z * Jn - Jn1
     eJn, eJn1 = jv_error(n, z, Jn), jv_error(n + 1, z, Jn1)
-    up, pp = _powers(u, _MAX_I), _powers(p, _MAX_J)
-    av, am = _poly(_A_SUM, up, pp)
-    B, bm = _poly(_B_SUM, up, pp)
-    A = z * av
     envJ = np.abs(Jn) + np.abs(Jn1) + eJn + eJn1
-    last = (z * np.abs(_poly(_A_LAST, up, pp)[0]) + np.abs(_poly(_B_LAST, up, pp)[0])) * envJ
+    A = np.zeros_like(z)
+    B = np.zeros_like(z)
+    mag = np.zeros_like(z)
+    last = np.full_like(z, np.inf)
+    done = np.zeros(z.shape, dtype=bool)
+    act = np.arange(z.size)
+    ua, pa, za, ea, above = u, p, z, envJ, z > n
+    pk, prev = np.ones_like(u), np.full_like(u, np.inf)
+    for ca, cb in _ORDERS:
+        au = np.abs(ua)
+        av, am = _horner(ca, ua, au)
+        bv, bm = _horner(cb, ua, au)
+        ta, tb = za * pk * pa * av, pk * bv
+        A[act] += ta
+        B[act] += tb
+        mag[act] += (za * np.abs(pa) * am + bm) * np.abs(pk)
+        term = (np.abs(ta) + np.abs(tb)) * ea
+        scale = np.where(above, 1.0, np.abs(A[act] * Jn[act] + B[act] * dJ[act]))
+        conv = (term < _SERIES_TOL * scale) & (term < 0.5 * prev)
+        last[act] = term
+        done[act[conv]] = True
+        keep = ~conv
+        if not keep.any():
+            break
+        act, ua, pa, za, ea, above = act[keep], ua[keep], pa[keep], za[keep], ea[keep], above[keep]
+        pk, prev = pk[keep] * pa, term[keep]
     T = A * Jn + B * dJ
     err = (2 * last + np.abs(A) * eJn + np.abs(B) * (n / z * eJn + eJn1)
-           + 4 * _EPS * (z * am + bm) * envJ)
-    return T, err, last
+           + 4 * _EPS * mag * envJ)
+    return T, err, done
 
 
 def _by_series(n, z):
     """I(n, z) where the series converges: 1 - T above the turning point,
     -T below it (there I' = J_n with I -> 0 as z -> 0, and the series for
     -I solves the same equation); (I, error bound, converged)."""
-    T, err, last = _series(n, z)
+    T, err, ok = _series(n, z)
     above = z > n
     I = np.where(above, 1 - T, -T)
     err = err + np.where(above, 4 * _EPS, 0.0)
-    ok = last < _SERIES_TOL * np.where(above, 1.0, np.abs(T))
     return I, err, ok
 
 
