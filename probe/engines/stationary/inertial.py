@@ -347,7 +347,7 @@ def _integrand_2d(gas, win, kind, t):
 
 #: orders of the fixed pairs of rules of the 2D windows: the first for all
 #: windows, the second where the first misses the tolerance
-_PAIRS_2D = ((48, 36), (72, 56))
+_PAIRS_2D = ((44, 34), (72, 56))
 #: grading of the 2D variable: theta = c sinh(w) with c = _GRADE 2 sqrt(1/(b - a)),
 #: the theta at which q - a reaches the healing scale q ~ 1 of a wide window
 _GRADE = 0.3
@@ -457,7 +457,9 @@ def _window_2d(gas, win, kind, tags, rtol, out):
     factor free of cancellation (``_integrand_2d``) elsewhere."""
     fin = ~win.unbounded
     rows = np.arange(win.idx.size)
-    tol = rtol * 0.1
+    # each process's rate is a sum of positive window integrals: each within
+    # tol of itself keeps the sum within tol; half of rtol, less the floors
+    tol = max(0.1 * rtol, 0.5 * rtol - 2 * ROUNDING)
     tops = {t: _tag_top(gas, win, t) for t in tags}
     todo = np.ones(win.idx.size, dtype=bool)
     for orders in _PAIRS_2D:
