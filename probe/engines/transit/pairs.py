@@ -85,10 +85,10 @@ def _bessel_ld(x, n):
 
 def chebyshev_coefficients(q, r_max, d, K):
     """a_k(q), (K, nq): j_d(q r) = sum_k a_k T_k(2 (r/r_max)^2 - 1) on
-    r <= r_max, computed in long double (so that their rounding stays far
-    below that of the pair sums); and per node twice the sum of |a_k| of
-    the 8 terms past K (the dropped tail, whose terms fall faster than
-    geometrically there).  2D: a_k = e_k (-1)^k J_k(q r_max/2)^2 (e_0 = 1,
+    r <= r_max, computed in long double; and per node the error of the
+    K-term series in doubles: twice the sum of |a_k| of the 8 terms past K
+    (the dropped tail, whose terms fall faster than geometrically there)
+    plus the rounding of the coefficients to doubles.  2D: a_k = e_k (-1)^k J_k(q r_max/2)^2 (e_0 = 1,
     else 2); 1D and 3D: interpolation at K + 8 Chebyshev points."""
     n = K + 8
     if d == 2:
@@ -106,7 +106,11 @@ def chebyshev_coefficients(q, r_max, d, K):
         a = sfft.dct(f, type=2, axis=0) / n
         a[0] *= 0.5
     a64 = np.ascontiguousarray(np.asarray(a[:K], float))
-    return a64, 2.0 * np.asarray(np.abs(a[K:]).sum(axis=0), float)
+    # the dropped tail, and the rounding of the coefficients to doubles
+    # (shared by the full rule and the sub-rule, unlike the rounding of the
+    # pair sums, which shows in the time estimate)
+    floor = _EPS * np.asarray(np.abs(a[:K]).sum(axis=0), float)
+    return a64, 2.0 * np.asarray(np.abs(a[K:]).sum(axis=0), float) + floor
 
 
 def _block_moments(Xpad, bpad, N, inv, K, l0, l1, out):
@@ -212,11 +216,9 @@ class LagSpectrum:
             mult = np.full(s.size, 2.0)
             mult[0] = 1.0
             self.parts.append((s, mult, U * np.cos(ph), U * np.sin(ph)))
-        # the dropped tail and the rounding of the K-term series of j_d
-        # shared by the full rule and the sub-rule (the rounding of the pair
-        # sums differs between them and shows in the time estimate), relative
-        # to the largest possible value |S^{d-1}| (sum |b|)^2
-        self.bound = self.measure * b_sum ** 2 * (tail + 4 * math.sqrt(K) * _EPS)
+        # the series' dropped tail and rounded coefficients, relative to the
+        # largest possible value |S^{d-1}| (sum |b|)^2
+        self.bound = self.measure * b_sum ** 2 * tail
 
     def columns(self, Ds):
         """E (nodes, 2 nD): |S^{d-1}| sum_l mult U_l cos((D + w) s_l) for each
