@@ -12,6 +12,7 @@ rate is the sum over its edges, in d = 2 and 3 an integral over the window
 """
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -365,16 +366,42 @@ def _theta_top(win, top):
                         np.sqrt(np.maximum(top - win.a, 0.0)))
 
 
-def _graded_nodes(rows, win, th_hi, orders):
-    """Nodes theta = c sinh(w) of the pair of Gauss-Legendre rules of
-    ``orders`` on w in [0, asinh(th_hi / c)] and dtheta/dw times the half
-    length (the rules' weights then apply directly)."""
+@functools.lru_cache(maxsize=256)
+def _uncut_nodes(level, orders):
+    """sin^2(theta/2), cos^2(theta/2) and dtheta/dw (times the half length)
+    at the nodes theta = c sinh(w) of ``orders`` on [0, pi], c = 2^level."""
     x0 = np.concatenate([gauss_legendre(k)[0] for k in orders])
+    c = 2.0 ** level
+    w_hi = math.asinh(math.pi / c)
+    w = 0.5 * w_hi * (x0 + 1)
+    th = c * np.sinh(w)
+    return np.sin(0.5 * th) ** 2, np.cos(0.5 * th) ** 2, 0.5 * w_hi * c * np.cosh(w)
+
+
+def _graded_nodes(rows, win, th_hi, orders):
+    """sin^2(theta/2), cos^2(theta/2) and dtheta/dw times the half length
+    (the rules' weights then apply directly) at the nodes theta = c sinh(w)
+    of the pair of Gauss-Legendre rules of ``orders`` on w in
+    [0, asinh(th_hi / c)], c ~ _GRADE 2 / sqrt(b - a).  Windows not cut
+    (th_hi = pi) take c rounded to a power of 2 and nodes tabulated once."""
     c = _GRADE * 2 / np.sqrt(win.b[rows] - win.a[rows])
-    w_hi = np.arcsinh(th_hi / c)
-    e = np.exp(0.5 * w_hi[:, None] * (x0[None, :] + 1))
-    inv = 1 / e
-    return (0.5 * c[:, None]) * (e - inv), (0.25 * w_hi * c)[:, None] * (e + inv)
+    level = np.clip(np.round(np.log2(c)), -30, 4).astype(int)
+    uncut = th_hi >= math.pi
+    size = sum(orders)
+    s2, c2, jac = (np.empty((rows.size, size)) for _ in range(3))
+    for lev in np.unique(level[uncut]):
+        k = np.nonzero(uncut & (level == lev))[0]
+        s2[k], c2[k], jac[k] = _uncut_nodes(int(lev), orders)
+    k = np.nonzero(~uncut)[0]
+    if k.size:
+        x0 = np.concatenate([gauss_legendre(n)[0] for n in orders])
+        w_hi = np.arcsinh(th_hi[k] / c[k])
+        e = np.exp(0.5 * w_hi[:, None] * (x0[None, :] + 1))
+        inv = 1 / e
+        th = (0.5 * c[k, None]) * (e - inv)
+        s2[k], c2[k] = np.sin(0.5 * th) ** 2, np.cos(0.5 * th) ** 2
+        jac[k] = (0.25 * w_hi * c[k])[:, None] * (e + inv)
+    return s2, c2, jac
 
 
 def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
@@ -387,12 +414,12 @@ def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
     disp = gas.disp
     n = gauss_legendre(orders[0])[1]
     m = gauss_legendre(orders[1])[1]
-    th, jac = _graded_nodes(rows, win, th_hi, orders)
+    s2, c2, jac = _graded_nodes(rows, win, th_hi, orders)
     col = (lambda x: x[rows, None])
     a, b, v, W, s = (col(x) for x in (win.a, win.b, win.v, win.W, win.s))
     L = b - a
-    da = L * np.sin(0.5 * th) ** 2
-    db = L - da
+    da = L * s2
+    db = L * c2
     q = a + da
     om = disp.omega(q)
     vq = v * q
@@ -406,10 +433,9 @@ def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
                 * np.sqrt(da * db / den) * jac / math.pi)
         # rounding of the factor: each of p1, p2 is off by ~2 eps (v q + w + W)
         # (its terms and the edge it vanishes at), halved by the square root;
-        # p1 + p2 = 2 v q.  And b - q = (b - a) - (q - a) is off by eps (b - a)
+        # p1 + p2 = 2 v q
         k = slice(0, n.size)
-        rnd = (4 * EPS * vq[:, k] * (vq + om + W)[:, k] / np.abs(den[:, k])
-               + EPS * L / db[:, k] + 16 * EPS)
+        rnd = 4 * EPS * vq[:, k] * (vq + om + W)[:, k] / np.abs(den[:, k]) + 16 * EPS
     out = {}
     for t in tags:
         if t == "thermal":
