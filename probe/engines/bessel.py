@@ -133,16 +133,26 @@ def jv_int(m, x):
     return (sign * out).reshape(shape)
 
 
+def _envelope(nu, x, r):
+    with np.errstate(divide="ignore"):
+        env = np.minimum(np.sqrt(2 / (np.pi * np.maximum(r, 1e-300))),
+                         np.minimum(1.0, 0.68 * np.cbrt(2 / np.maximum(nu, 1e-300))))
+    return np.where(x > nu, env, 0.0)
+
+
 def envelope(m, x):
     """The local envelope of |J_m(x)| above the turning point: sqrt(2/(pi r))
     capped by Airy's maximum 0.68 (2/m)^(1/3) and by 1; 0 below it."""
     nu = np.abs(np.asarray(m, float))
     x = np.asarray(x, float)
-    r = np.sqrt(np.abs((x - nu) * (x + nu)))
-    with np.errstate(divide="ignore"):
-        env = np.minimum(np.sqrt(2 / (np.pi * np.maximum(r, 1e-300))),
-                         np.minimum(1.0, 0.68 * np.cbrt(2 / np.maximum(nu, 1e-300))))
-    return np.where(x > nu, env, 0.0)
+    return _envelope(nu, x, np.sqrt(np.abs((x - nu) * (x + nu))))
+
+
+def _relative(nu, x, r):
+    with np.errstate(divide="ignore", invalid="ignore"):
+        angle = np.where(x > nu, np.arctan2(r, nu),
+                         np.log((nu + r) / np.maximum(x, 1e-300)))
+    return BESSEL_FLOOR + BESSEL_PHASE * (r + nu * angle)
 
 
 def jv_error(m, x, value):
@@ -154,9 +164,18 @@ def jv_error(m, x, value):
     nu = np.abs(np.asarray(m, float))
     x = np.asarray(x, float)
     r = np.sqrt(np.abs((x - nu) * (x + nu)))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        angle = np.where(x > nu, np.arctan2(r, nu),
-                         np.log((nu + r) / np.maximum(x, 1e-300)))
-    rel = BESSEL_FLOOR + BESSEL_PHASE * (r + nu * angle)
+    rel = _relative(nu, x, r)
     absval = np.abs(value)
-    return np.where(absval > 0, rel * absval, 0.0) + rel * envelope(nu, x)
+    return np.where(absval > 0, rel * absval, 0.0) + rel * _envelope(nu, x, r)
+
+
+def jv_bounded(m, x):
+    """J_m(x), the bound ``jv_error`` of its error, the envelope and
+    r = sqrt|x^2 - m^2|, from one pass over the arrays."""
+    nu = np.abs(np.asarray(m, float))
+    x = np.asarray(x, float)
+    J = jv_int(m, x)
+    r = np.sqrt(np.abs((x - nu) * (x + nu)))
+    env = _envelope(nu, x, r)
+    absval = np.abs(J)
+    return J, _relative(nu, x, r) * (absval + env), env, r

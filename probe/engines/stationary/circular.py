@@ -14,7 +14,7 @@ import math
 
 import numpy as np
 
-from probe.engines.bessel import envelope, jv_error, jv_int
+from probe.engines.bessel import envelope, jv_bounded
 from probe.engines.stationary.harmonics import kapteyn, w3, w3_terms
 from probe.engines.stationary.limits import CUT, EPS, MAX_HARMONICS
 from probe.errors import ModelError
@@ -150,10 +150,8 @@ class _HarmonicSum:
         with r = sqrt|x^2 - m^2|; dW/dx = (J_2m(2x) - W)/x)."""
         n = np.abs(m)
         if self.d == 2:
-            J = jv_int(m, x)
-            e = jv_error(m, x, J)
-            r = np.sqrt(np.abs((x - n) * (x + n)))
-            e = e + _ARGUMENT * (r + np.cbrt(n) + 1) * (envelope(m, x) + np.abs(J))
+            J, e, env, r = jv_bounded(m, x)
+            e = e + _ARGUMENT * (r + np.cbrt(n) + 1) * (env + np.abs(J))
             self.work += m.size
             return J * J, e * (2 * np.abs(J) + e)
         self.work += float(np.sum(w3_terms(m, x)))
