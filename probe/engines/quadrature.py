@@ -21,6 +21,7 @@ from __future__ import annotations
 import numpy as np
 
 _NODES = {}
+EPS_Q = float(np.finfo(float).eps)
 
 
 def gauss_legendre(n):
@@ -136,15 +137,17 @@ def integrate_smooth(f, a, b, rtol=1e-10, atol=0.0, orders=FIXED_ORDERS, chunk=2
 class Primitive:
     """The primitive G(x) = int_lo^x g(u) du of one smooth function, tabulated
     once for arguments anywhere in [lo, hi]: Chebyshev series of g on equal
-    panels (interpolated at ``degree`` + 1 Chebyshev points each), integrated term by term
-    and summed panel by panel.  Then every integral int_x^y g = G(y) - G(x)
-    over that range costs two series evaluations, whatever its length.
+    panels (interpolated at ``degree`` + 1 Chebyshev points each),
+    integrated term by term and summed panel by panel.  Then every integral
+    int_x^y g = G(y) - G(x) over that range costs two series evaluations,
+    whatever its length.
 
     ``g(u)`` takes an array of points (never the panels' ends).  ``panels``
-    equal panels span [lo, hi].  The error bound of a panel is twice its length times the sum
-    of the last three coefficients of g's series (geometric decay of the
-    coefficients of a function analytic around the panel bounds the rest by
-    them), plus the rounding of the series: its terms' sizes times 4 eps.
+    equal panels span [lo, hi].  The error bound of a panel is twice its
+    length times the sum of the last three coefficients of g's series
+    (geometric decay of the coefficients of a function analytic around the
+    panel bounds the rest by them), plus the rounding of the series: its
+    terms' sizes times 4 eps.
     """
 
     def __init__(self, g, lo, hi, panels, degree=24):
@@ -194,5 +197,3 @@ class Primitive:
                + 4 * EPS_Q * (np.abs(gx) + np.abs(gy)))
         return gy - gx, err
 
-
-EPS_Q = float(np.finfo(float).eps)

@@ -461,7 +461,11 @@ def _lean_2d(gas, win, kind, tags, tops, orders, todo):
     res = {t: (np.zeros(n), np.full(n, np.inf)) for t in tags}
     ths = {t: _theta_top(win, tops[t]) for t in tags}
     th_max = np.max([ths[t] for t in tags], axis=0)
-    ok = ~win.unbounded & todo
+    # a gapless probe just above the sound speed: k v - X = q (v - w/q)
+    # cancels to ~(v - 1) at every node; the factor of ``_integrand_2d``
+    # (phase velocity's divided difference) keeps its digits there
+    near_sound = (win.W == 0) & (win.v - 1 < NEAR_SOUND)
+    ok = ~win.unbounded & todo & ~near_sound
     close = np.all([ths[t] >= 0.6 * th_max for t in tags], axis=0)
     jobs = [(tags, ok & close & (th_max > 0), th_max)] + [
         ([t], ok & ~close & (ths[t] > 0), ths[t]) for t in tags]
