@@ -166,26 +166,47 @@ class SweepInterrupted(KeyboardInterrupt):
     signum = 15
 
 
-@contextlib.contextmanager
-def _terminate_as_interrupt():
-    """SIGTERM raises :class:`SweepInterrupted` while the sweep runs (in the
-    main thread, where no other handler was installed), so that the workers
-    are stopped and the partial file closed whole."""
-    installed = False
-    try:
-        installed = (threading.current_thread() is threading.main_thread()
-                     and signal.getsignal(signal.SIGTERM) == signal.SIG_DFL)
-    except (AttributeError, ValueError):
-        pass
-    if installed:
-        def stop(signum, frame):
+class _Signals:
+    """While the sweep runs, SIGTERM raises :class:`SweepInterrupted` (in
+    the main thread, where no other handler was installed), so that the
+    workers are stopped and the partial file closed whole; in
+    :meth:`finishing` SIGTERM and Ctrl-C wait until the table is in place
+    (the work is done: the sweep then ends normally)."""
+
+    def __init__(self):
+        self.main = threading.current_thread() is threading.main_thread()
+        self.installed = False
+        self.deferring = False
+
+    def _stop(self, signum, frame):
+        if not self.deferring:
             raise SweepInterrupted()
-        signal.signal(signal.SIGTERM, stop)
-    try:
-        yield
-    finally:
-        if installed:
+
+    def __enter__(self):
+        try:
+            if self.main and signal.getsignal(signal.SIGTERM) == signal.SIG_DFL:
+                signal.signal(signal.SIGTERM, self._stop)
+                self.installed = True
+        except (AttributeError, ValueError):
+            pass
+        return self
+
+    def __exit__(self, *exc):
+        if self.installed:
             signal.signal(signal.SIGTERM, signal.SIG_DFL)
+
+    @contextlib.contextmanager
+    def finishing(self):
+        old = signal.getsignal(signal.SIGINT) if self.main else None
+        if old is not None:
+            signal.signal(signal.SIGINT, lambda signum, frame: None)
+        self.deferring = True
+        try:
+            yield
+        finally:
+            self.deferring = False
+            if old is not None:
+                signal.signal(signal.SIGINT, old)
 
 
 def _stopped(exc, partial):
@@ -222,7 +243,7 @@ def _run(tasks, workers, scheduler, collect):
         raise
 
 
-def _evaluate(plan, partial, progress, chunk_size, workers, scheduler, command):
+def _evaluate(plan, partial, progress, chunk_size, workers, scheduler, command, signals):
     """(collected rows, sidecar record) of the points not yet in the
     partial file; the complete table put in place."""
     collect = _Collector(plan, partial, progress)
@@ -236,7 +257,8 @@ def _evaluate(plan, partial, progress, chunk_size, workers, scheduler, command):
                       elapsed=time.perf_counter() - t0,
                       resumed=int(plan.size - todo.size), command=command)
     if partial is not None:
-        partial.finish(collect.data, collect.warnings, meta)
+        with signals.finishing():
+            partial.finish(collect.data, collect.warnings, meta)
     return collect, meta
 
 
@@ -275,9 +297,9 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
     workers = _checked_workers(workers, scheduler)
     partial = PartialFile(out, plan, resume) if out is not None else None
     try:
-        with _terminate_as_interrupt():
+        with _Signals() as signals:
             collect, meta = _evaluate(plan, partial, progress, chunk_size, workers,
-                                      scheduler, command)
+                                      scheduler, command, signals)
     finally:
         if partial is not None:
             partial.release()

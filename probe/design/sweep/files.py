@@ -5,6 +5,7 @@ a second run from writing the same partial file while the first runs."""
 from __future__ import annotations
 
 import csv
+import glob
 import io
 import json
 import math
@@ -489,18 +490,33 @@ class PartialFile:
         self.lock.release()
 
     def finish(self, data, warnings, meta):
-        """Put the complete table in place and remove the partial files."""
+        """Put the complete table in place and remove the partial files:
+        the sidecar first, then the table by one rename (until then the
+        partial file is there to resume from), then what is left of this
+        run and of runs killed while they wrote (their temporary files)."""
         self.close()
         n = data.shape[0]
+        write_json(sidecar_path(self.out), meta)
         if self.ordered and self.count == n and not self.resumed:
             os.replace(self.path, self.out)
         else:
             write_csv(self.out, self.plan.header(), rows_text(self.plan.columns, data, warnings))
             self.path.unlink(missing_ok=True)
-        write_json(sidecar_path(self.out), meta)
         self.plan_path.unlink(missing_ok=True)
+        self._remove_temporaries()
+
+    def _remove_temporaries(self):
+        """Temporary files beside ``OUT`` left by a run killed while it wrote
+        the table or its sidecar (this run holds the lock: none is in use)."""
+        for target in (self.out, sidecar_path(self.out)):
+            for tmp in target.parent.glob(f".{glob.escape(target.name)}.*.tmp"):
+                try:
+                    tmp.unlink()
+                except OSError:
+                    pass
 
     def discard(self):
         self.close()
         self.path.unlink(missing_ok=True)
         self.plan_path.unlink(missing_ok=True)
+        self._remove_temporaries()
