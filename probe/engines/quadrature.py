@@ -100,8 +100,10 @@ def fixed_pair(f, a, b, idx, orders=FIXED_ORDERS):
     half = 0.5 * (b - a)
     x = 0.5 * (a + b)[:, None] + half[:, None] * x0[None, :]
     fx = f(x, idx)
-    hi = half * (fx[:, :xn.size] @ wn)
-    lo = half * (fx[:, xn.size:] @ wm)
+    # row by row sums (not a matrix product, whose summation order depends
+    # on the number of rows): a point's value is the same alone or in a grid
+    hi = half * (fx[:, :xn.size] * wn).sum(axis=1)
+    lo = half * (fx[:, xn.size:] * wm).sum(axis=1)
     return hi, np.abs(hi - lo)
 
 

@@ -186,9 +186,6 @@ def _window_3d(gas, win, kind, tags, rtol, out):
         refine_up_window(gas, win, tags, rtol, out, make)
 
 
-#: fewest points of one probe width for which the 3D windows are integrated
-#: from one tabulated primitive (its table costs ~ PANEL_COUNT * 21 nodes)
-_TABLE_POINTS = 16
 #: orders of the pair of rules on the windows a table leaves (narrow ones,
 #: where G(b) - G(a) cancels)
 _NARROW_ORDERS = (24, 16)
@@ -206,20 +203,21 @@ def _integrals_3d(gas, win, t, f, top, tol):
     n = win.idx.size
     sigma = _scale(gas, t)
     val, err = np.zeros(n), np.full(n, np.inf)
-    hi = float(np.max(top, initial=0.0))
     orders = FIXED_ORDERS
-    if n >= _TABLE_POINTS and np.all(win.s == win.s[0]) and math.isfinite(hi) and hi > 0:
+    reach = _table_reach(gas, win.s[0], t)
+    if np.all(win.s == win.s[0]) and math.isfinite(reach):
         def g(u):
             q = sigma * np.sinh(u)
             return _weighted(gas, q, win.s[0], t) * (sigma * np.cosh(u))
-        u_hi = math.asinh(hi / sigma)
-        table = Primitive(g, 0.0, u_hi, max(4, math.ceil(u_hi / _PANEL_WIDTH)))
+        table = _primitive(g, (gas.disp.name, gas.d, float(win.s[0]), gas.T, t), sigma, reach)
+        inside = top <= reach
         with np.errstate(invalid="ignore"):
             ua = np.arcsinh(win.a / sigma)
-            ub = np.maximum(np.arcsinh(top / sigma), ua)
+            ub = np.maximum(np.arcsinh(np.minimum(top, reach) / sigma), ua)
         val, err = table.integral(ua, ub)
+        val, err = val / (2 * math.pi * win.v), np.where(inside, err / (2 * math.pi * win.v),
+                                                          np.inf)
         orders = _NARROW_ORDERS
-        val, err = val / (2 * math.pi * win.v), err / (2 * math.pi * win.v)
     with np.errstate(invalid="ignore"):
         redo = np.nonzero(~(np.isfinite(val) & (err <= tol * np.abs(val))) & (top > win.a))[0]
     if redo.size:
@@ -229,6 +227,35 @@ def _integrals_3d(gas, win, t, f, top, tol):
         v_, e_, _ = _integrate_sinh(fr, win.a[redo], top[redo], sigma, tol, orders)
         val[redo], err[redo] = v_, e_
     return val, np.where(top > win.a, err, 0.0)
+
+
+def _table_reach(gas, s, t):
+    """The q up to which the primitive of weight ``t`` is tabulated for width
+    ``s``: where |F|^2 and, for the occupation, n_k have decayed by exp(-CUT)
+    from q = 0.  Fixed by the gas and width alone, so that a point gets the
+    same table alone or in any grid (rows beyond it are integrated directly)."""
+    reach = float(gas.qcut(np.asarray(s, float)))
+    if t == "thermal" and gas.T > 0:
+        reach = min(reach, float(gas.disp.inverse(CUT * gas.T)))
+    return reach
+
+
+def _primitive(g, key, sigma, reach):
+    """The tabulated primitive of ``g`` on u in [0, asinh(reach / sigma)]
+    (panels of _PANEL_WIDTH), kept for the last few gases and widths."""
+    key = key + (sigma, reach)
+    table = _TABLES.get(key)
+    if table is None:
+        u_hi = math.asinh(reach / sigma)
+        table = Primitive(g, 0.0, u_hi, max(4, math.ceil(u_hi / _PANEL_WIDTH)))
+        if len(_TABLES) >= 16:
+            _TABLES.clear()
+        _TABLES[key] = table
+    return table
+
+
+#: tabulated primitives by (dispersion, d, width, T, weight, sigma, reach)
+_TABLES = {}
 
 
 def _scale(gas, t):
@@ -443,9 +470,11 @@ def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
                 vals = base / np.expm1(om / gas.T)
         else:
             vals = base * om if t == "energy" else base
-        hi = vals[:, :n.size] @ n
+        # row by row sums: a point's value is the same alone or in a grid
+        hi = (vals[:, :n.size] * n).sum(axis=1)
         with np.errstate(invalid="ignore"):
-            bound = np.abs(hi - vals[:, n.size:] @ m) + (np.abs(vals[:, :n.size]) * rnd) @ n
+            bound = (np.abs(hi - (vals[:, n.size:] * m).sum(axis=1))
+                     + (np.abs(vals[:, :n.size]) * rnd * n).sum(axis=1))
         out[t] = (hi, np.where(np.isfinite(bound), bound, np.inf))
     return out
 
