@@ -81,7 +81,7 @@ def run(script, *args):
 def plain_sum_2d(gas, R, v, W):
     """(down, up) of a 2D point probe at T = 0 by a plain vectorised scipy
     sum over harmonics, in blocks doubling until the last term is below
-    1e-17 of the sum: k S J_m(k R)^2 / v_g at w_k = +-W + m v/R."""
+    1e-17 of the sum and k R < m: k S J_m(k R)^2 / v_g at w_k = +-W + m v/R."""
     import numpy as np
     from scipy.special import jv
     disp, wc, out = gas.disp, v / R, []
@@ -93,8 +93,9 @@ def plain_sum_2d(gas, R, v, W):
             q = disp.inverse(sign * W + m * wc)
             terms = q * disp.structure_factor(q) / disp.group_velocity(q) * jv(m, q * R) ** 2
             total = terms.sum()
-            if q[-1] * R < m[-1] and terms[-1] < 1e-17 * total:
-                break
+            past = q[-1] * R < m[-1] and terms[-1] <= 1e-17 * total
+            if past and (total > 0 or size > max(4096, 8 * R * (v + 3))):
+                break                   # (a family that underflows throughout gives 0)
             size *= 2
         out.append(total)
     return out
