@@ -167,7 +167,7 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
     A point whose harmonic sum is predicted (``circular_work``) to need more
     than ``max_bessel_evaluations`` Bessel functions (about 0.4 us each) is
     refused with a ModelError before any work; raise the limit to wait.
-    ``rtol`` is at least BESSEL_ACCURACY (1e-10), the accuracy of the sums'
+    ``rtol`` is at least BESSEL_ACCURACY (1e-12), the accuracy of the sums'
     Bessel functions (a smaller one is refused: it cannot be met)."""
     if condensate.dimension == 1:
         raise InputError("trajectory.kind",
