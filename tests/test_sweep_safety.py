@@ -173,7 +173,7 @@ class RemoteCluster:
                 proc.terminate()
         for proc in (self.worker, self.scheduler):
             try:
-                proc.wait(timeout=20)
+                proc.wait(timeout=5)
             except subprocess.TimeoutExpired:
                 proc.kill()
                 proc.wait()
