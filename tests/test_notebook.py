@@ -80,3 +80,43 @@ def test_without_xarray_the_refusal_names_the_package(grid, monkeypatch):
     monkeypatch.setitem(sys.modules, "xarray", None)
     with pytest.raises(InputError, match="xarray"):
         grid.to_xarray()
+
+
+def _probe(args, cwd, env_extra=None):
+    import os
+    import subprocess
+    env = dict(os.environ, **(env_extra or {}))
+    return subprocess.run([sys.executable, "-m", "probe", *args], cwd=cwd, env=env,
+                          capture_output=True, text=True)
+
+
+def test_sweep_out_nc_writes_netcdf(tmp_path):
+    xr = pytest.importorskip("xarray")
+    import pathlib
+    root = pathlib.Path(__file__).resolve().parents[1]
+    out = tmp_path / "speeds.nc"
+    r = _probe(["sweep", str(root / "examples/box3d_supersonic.toml"),
+                "--vary", "trajectory.speed=0.5c_s:3c_s:6", "--out", str(out)], root)
+    assert r.returncode == 0, r.stderr
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["speeds.json", "speeds.nc"]
+    with xr.open_dataset(out, engine="scipy") as ds:
+        assert ds["up_rate"].dims == ("trajectory.speed",)
+        assert ds["up_rate"].attrs["units"] == "1/s"
+        # below the threshold speed (about 1.43 c_s here) no up transition
+        assert float(ds["up_rate"].values[0]) == 0.0 and float(ds["up_rate"].values[-1]) > 0
+
+
+def test_sweep_out_nc_without_xarray_is_refused_before_computing(tmp_path):
+    import pathlib
+    root = pathlib.Path(__file__).resolve().parents[1]
+    block = tmp_path / "block"
+    block.mkdir()
+    (block / "xarray.py").write_text("raise ImportError('blocked for the test')\n")
+    out = tmp_path / "speeds.nc"
+    r = _probe(["sweep", str(root / "examples/box3d_supersonic.toml"),
+                "--vary", "trajectory.speed=0.5c_s:3c_s:6", "--out", str(out)], root,
+               {"PYTHONPATH": f"{block}:{root}"})
+    assert r.returncode == 2
+    assert r.stderr.strip().startswith("error: --out:") and "xarray" in r.stderr
+    assert len(r.stderr.strip().splitlines()) == 1
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["block"]

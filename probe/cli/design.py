@@ -91,10 +91,24 @@ def _check_sweep_files(outputs, out, plot, resume):
                                      "--out FILE.csv")
     if out is not None:
         outputs.check(out, "--out")
+        _check_netcdf(out)
         outputs.check(sidecar_path(out), "--out", what="the JSON sidecar")
         outputs.check(f"{out}.partial", "--out", what="the partial file")
         outputs.check(f"{out}.partial.json", "--out", what="the partial file's plan")
     _check_plot(outputs, plot)
+
+
+def _check_netcdf(out):
+    """A ``.nc`` output needs xarray: refuse before computing."""
+    from probe.design.sweep.files import is_netcdf
+
+    if is_netcdf(out):
+        try:
+            import xarray  # noqa: F401
+        except ImportError:
+            raise InputError("--out", f"{out} asks for NetCDF, which needs the optional "
+                             "package xarray: pip install \"condensate-probe[notebook]\" "
+                             "(or give a .csv name)") from None
 
 
 def sweep_json(result, out=None, plot=None):
@@ -136,8 +150,9 @@ def _sweep_summary(result, out, plot):
               metavar="KEY=START:STOP:NUM", help=_VARY_HELP)
 @click.option("--log", "log", multiple=True, metavar="KEY",
               help="Space the points of KEY geometrically (repeatable).")
-@out_option("FILE.csv", "CSV to write; a JSON sidecar FILE.json records config and "
-                        "versions (needed unless --json).")
+@out_option("FILE.csv", "CSV to write (NetCDF for a .nc name, needs xarray); a JSON "
+                        "sidecar FILE.json records config and versions (needed unless "
+                        "--json).")
 @json_option("Print the grid as JSON on stdout (columns with units, rows, warnings).")
 @click.option("--set", "overrides", multiple=True, metavar="KEY=VALUE", help=_SET_HELP)
 @click.option("--unset", "removals", multiple=True, metavar="KEY", help=_UNSET_HELP)

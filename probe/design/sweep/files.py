@@ -182,6 +182,12 @@ def write_json(path, obj):
     _write_whole(path, write)
 
 
+def is_netcdf(out):
+    """True when a sweep's output name asks for NetCDF (``.nc``: the grid as
+    an xarray Dataset, ``probe.notebook``) instead of CSV."""
+    return Path(out).suffix.lower() == ".nc"
+
+
 def sidecar_path(out):
     """The JSON sidecar of a CSV: same name with suffix ``.json``."""
     out = Path(out)
@@ -497,7 +503,13 @@ class PartialFile:
         self.close()
         n = data.shape[0]
         write_json(sidecar_path(self.out), meta)
-        if self.ordered and self.count == n and not self.resumed:
+        if is_netcdf(self.out):
+            SweepResult(columns=list(self.plan.columns), units=list(self.plan.units),
+                        data=data, warnings=warnings, shape=self.plan.shape,
+                        axes=self.plan.axes, config=self.plan.raw,
+                        meta=meta).to_netcdf(self.out)
+            self.path.unlink(missing_ok=True)
+        elif self.ordered and self.count == n and not self.resumed:
             os.replace(self.path, self.out)
         else:
             write_csv(self.out, self.plan.header(), rows_text(self.plan.columns, data, warnings))
