@@ -29,6 +29,15 @@ _UNSET_HELP = ("Remove a configuration entry, e.g. --unset probe.gap (before any
                "Repeatable.")
 
 
+def _target_names():
+    from probe.quantities import QUANTITIES
+    return ", ".join(q.name for q in QUANTITIES.values() if q.target)
+
+
+#: the quantities ``probe solve --target`` may aim at (the registry's targets)
+_TARGETS = _target_names()
+
+
 def _command_line():
     return " ".join(shlex.quote(a) for a in ["probe", *sys.argv[1:]])
 
@@ -375,7 +384,8 @@ def _flat_zero_target(sol):
 @click.option("--for", "key", required=True, metavar="KEY",
               help="Numeric key to solve for, e.g. trajectory.speed.")
 @click.option("--target", required=True, metavar="QUANTITY=VALUE",
-              help="Target, e.g. up_rate=50 (1/s) or \"up_rate=50 1/s\".")
+              help="Target, e.g. up_rate=50 (1/s) or \"up_rate=50 1/s\". QUANTITY is "
+                   "one of the configured model's outputs among: " + _TARGETS + ".")
 @click.option("--range", "bounds", default=None, metavar="LO:HI",
               help="Allowed values of KEY with units, e.g. 0.5c_s:3c_s.")
 @out_option("FILE", "Write the solution to FILE instead of the terminal (JSON when "
