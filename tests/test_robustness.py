@@ -364,10 +364,13 @@ def test_3d_circles_up_to_1e3(R):
 
 
 def test_3d_circle_too_costly_is_refused_before_any_sum():
+    # R = 1e4 xi at 1.5 c needs ~5e5 Bessel-function units of work (about
+    # 0.3 s); under a limit of 1e5 it is refused before any sum
     cond = gas(3)
     c, xi = cond.sound_speed, cond.healing_length
     with pytest.raises(ModelError) as err:
-        circular_rates(cond, two_level(cond, 0.5), 1e4 * xi, 1.5 * c)
+        circular_rates(cond, two_level(cond, 0.5), 1e4 * xi, 1.5 * c,
+                       max_bessel_evaluations=1e5)
     msg = err.value.message
     assert err.value.key == "trajectory.radius"
     assert "Bessel-function evaluations" in msg and "kind = \"linear\"" in msg
