@@ -537,3 +537,17 @@ def test_transit_bad_unset_exits_2(tmp_path, args, expected):
     lines = r.stderr.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith(expected), lines
     assert list(tmp_path.iterdir()) == []
+
+
+def test_spectrum_of_a_model_without_emitted_phonons_is_refused(tmp_path):
+    """A Ramsey sequence reads a phase, not emitted phonons: --spectrum is
+    refused in one line before computing, and no file is written."""
+    from click.testing import CliRunner
+    from probe.cli import cli
+    target = tmp_path / "spectrum.csv"
+    r = CliRunner().invoke(cli, ["transit", "examples/transits/ramsey3d_moving.toml",
+                                 "--spectrum", str(target)])
+    assert r.exit_code == 2
+    assert "error: --spectrum: the ramsey model has no emitted-phonon spectrum to write" \
+        in r.output
+    assert list(tmp_path.iterdir()) == []

@@ -289,6 +289,8 @@ def _check_files(outputs, scenarios, out, spectrum, plot):
         if len(scenarios) != 1:
             raise InputError("--spectrum", f"writes the files of one scenario; give "
                                            f"one CONFIG (got {len(scenarios)})")
+        from probe.design.transit_plots import check_transit_plot
+        check_transit_plot(scenarios[0], "--spectrum")
         outputs.check(spectrum, "--spectrum")
         outputs.check(directions_path(spectrum), "--spectrum", what="the directions file")
     if plot is not None:

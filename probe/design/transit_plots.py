@@ -39,14 +39,16 @@ SPECTRUM_FLOOR = 1e-8
 # ---------------------------------------------------------------------------
 # what can be drawn
 # ---------------------------------------------------------------------------
-def check_transit_plot(scenario):
-    """InputError (key ``--plot``) unless the transit of ``scenario`` has an
-    emitted-phonon spectrum: its model must output ``emitted_phonons`` and
-    a route named by ``numerics.transit_method`` must give directions."""
+def check_transit_plot(scenario, option="--plot"):
+    """InputError (key ``option``: ``--plot``, or ``--spectrum`` for the
+    spectrum files) unless the transit of ``scenario`` has an emitted-phonon
+    spectrum: its model must output ``emitted_phonons`` and a route named by
+    ``numerics.transit_method`` must give directions."""
     probe = scenario.probe
     if SPECTRUM_OUTPUT not in probe.transit_outputs:
-        raise InputError("--plot", f"the {probe.name} model has no emitted-phonon spectrum "
-                                   f"to draw (its transit outputs: "
+        verb = "draw" if option == "--plot" else "write"
+        raise InputError(option, f"the {probe.name} model has no emitted-phonon spectrum "
+                                 f"to {verb} (its transit outputs: "
                                    f"{', '.join(probe.transit_outputs)}); use --json or "
                                    f"the table")
     method = getattr(scenario, "transit_method", "auto")
@@ -61,7 +63,7 @@ def check_transit_plot(scenario):
     except AttributeError:          # a route that asks more of the problem: let it say
         gives = True
     if not gives:
-        raise InputError("--plot", f"numerics.transit_method = {method!r} gives no "
+        raise InputError(option, f"numerics.transit_method = {method!r} gives no "
                                    f"emitted-phonon spectrum ({route.refusal})")
 
 
