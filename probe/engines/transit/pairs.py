@@ -168,6 +168,11 @@ def lag_moments(X, b, r_max, K, pool=None):
     return H
 
 
+#: the smallest r_max (healing lengths) of the series: a path at rest has
+#: every separation 0, which any positive r_max covers with a few terms
+MIN_REACH = 1e-3
+
+
 def path_reach(X):
     """An upper bound of every distance between two points of the path: the
     diagonal of its bounding box."""
@@ -292,7 +297,8 @@ class PairRoute(Route):
             share = min(1.0, core / problem.highest_frequency(res.q_max))
             cache["base"] = max(8, 2 * int(math.ceil(0.5 * n1 * share)))
             cache["rung"] = 1
-            cache["reach"] = 1.02 * path_reach(sample.X)
+            # a probe at rest has reach 0: any r_max > 0 holds every separation
+            cache["reach"] = max(1.02 * path_reach(sample.X), MIN_REACH)
         nt = int(round(cache["base"] * cache["rung"] * res.time))
         return nt, cache["reach"]
 
