@@ -20,9 +20,20 @@ lengths of about 100 a_0 for 87Rb and 52 a_0 for 23Na.
 """
 from __future__ import annotations
 
+import atexit
 import copy
 import inspect
 import math
+import os
+import shutil
+import tempfile
+
+# the suite keeps the unit registry's cache and the file of strings read in a
+# folder of its own (removed at the end), never in the user's home
+if "PROBE_CACHE_DIR" not in os.environ:
+    _CACHE = tempfile.mkdtemp(prefix="probe-test-cache-")
+    os.environ["PROBE_CACHE_DIR"] = _CACHE
+    atexit.register(shutil.rmtree, _CACHE, True)
 
 import numpy as np
 import periodictable
