@@ -1,6 +1,7 @@
 import math
 
 import numpy as np
+import pytest
 from scipy import constants as sc
 from scipy.special import zeta
 
@@ -166,3 +167,20 @@ def test_very_fast_probe():
     hit = matching(warnings_for(cond, two_level(), speed=12 * c), "sound speed")
     assert len(hit) == 1 and "12 times" in hit[0]
     assert matching(warnings_for(cond, two_level(), speed=8 * c), "sound speed") == []
+
+
+def test_effective_temperature_of_a_subnormal_up_rate_is_finite():
+    """Detailed balance T_eff = hbar Omega / (k_B ln(down/up)) (Birrell and
+    Davies 1982, ch. 3) with up = 1e-310 s^-1: down/up overflows a double but
+    ln(down/up) = ln(down) - ln(up) = 715.1 is finite, so T_eff is too."""
+    import warnings
+    from scipy import constants as sc
+    from probe.detectors.two_level import effective_temperature
+    gap = 2 * np.pi * 150
+    up, down = np.array([1e-310]), np.array([10.0])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        teff, pop = effective_temperature(gap, up, down, up * 1e-12, down * 1e-12,
+                                          up_positive=True)
+    want = sc.hbar * gap / (sc.k * (np.log(10.0) - np.log(1e-310)))
+    assert teff[0] == pytest.approx(want, rel=1e-12)

@@ -317,7 +317,9 @@ def test_a_second_resume_while_the_first_runs_is_refused(tmp_path):
 # ---------------------------------------------------------------------------
 # local worker processes end with the sweep
 # ---------------------------------------------------------------------------
-VARY_WORKERS = ["trajectory.speed=0.3c_s:1.6c_s:40", "trajectory.radius=2um:8um:30"]
+#: a grid of a few seconds (large radii: many harmonics), so that the pool of
+#: workers starts before the sweep is over even on a quiet machine
+VARY_WORKERS = ["trajectory.speed=0.3c_s:1.6c_s:40", "trajectory.radius=20um:200um:30"]
 
 
 @pytest.fixture(scope="module")

@@ -159,7 +159,7 @@ class TwoLevelProbe(ProbeModel):
             f"{lead(mask)}the effective temperature is undetermined (reported as NaN, "
             f"null in JSON): the up and down rates agree to within "
             f"{TEFF_ERROR_FACTOR:g} times their error estimates "
-            f"(|ln(down/up)| = {fmt(abs(math.log(dn.flat[i] / up.flat[i])))} <= "
+            f"(|ln(down/up)| = {fmt(abs(math.log(dn.flat[i]) - math.log(up.flat[i])))} <= "
             f"{fmt(unc.flat[i])}), so only |T_eff| > {temperature_text(bound.flat[i])} is "
             "known (equal rates mean an infinite effective temperature)"]
 
@@ -192,8 +192,9 @@ def effective_temperature(gap, up, down, up_err=None, down_err=None, up_positive
     motion): there an up rate of 0 has underflowed, and the effective
     temperature is NaN too, not 0."""
     with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = down / up
-        log = np.log(ratio)
+        # ln(down/up) as a difference: the quotient overflows for a
+        # subnormal up rate where the logarithm is still finite
+        log = np.log(down) - np.log(up)
         teff = HBAR * gap / (KB * log)
         if up_err is not None:
             unc = 4.0 * (up_err / up + down_err / down)
