@@ -43,6 +43,17 @@ def _composite(f, a, b, idx, level, n):
     return 0.5 * h * (fx.reshape(len(a), panels, n) * w0).sum(axis=(1, 2))
 
 
+def _start(a, b, atol):
+    """Flat interval ends and tolerances, zero results, and the indices of
+    the intervals with b > a (the others integrate to 0, converged)."""
+    a = np.asarray(a, float).ravel()
+    b = np.asarray(b, float).ravel()
+    atol = np.broadcast_to(np.asarray(atol, float), a.shape)
+    converged = np.ones(a.shape, dtype=bool)
+    return (a, b, atol, np.zeros(a.shape), np.zeros(a.shape), converged,
+            np.nonzero(b > a)[0])
+
+
 def integrate(f, a, b, rtol=1e-10, atol=0.0, n=20, max_level=12,
               chunk=2_000_000):
     """Integrate ``f`` over ``[a_i, b_i]`` for each i.
@@ -53,13 +64,7 @@ def integrate(f, a, b, rtol=1e-10, atol=0.0, n=20, max_level=12,
 
     Returns ``(value, error_estimate, converged)`` arrays.
     """
-    a = np.asarray(a, float).ravel()
-    b = np.asarray(b, float).ravel()
-    atol = np.broadcast_to(np.asarray(atol, float), a.shape)
-    value = np.zeros(a.shape)
-    error = np.zeros(a.shape)
-    converged = np.ones(a.shape, dtype=bool)
-    todo = np.nonzero(b > a)[0]
+    a, b, atol, value, error, converged, todo = _start(a, b, atol)
     if todo.size == 0:
         return value, error, converged
     prev = None
@@ -114,13 +119,7 @@ def integrate_smooth(f, a, b, rtol=1e-10, atol=0.0, orders=FIXED_ORDERS, chunk=2
     adaptive rule of ``integrate`` only where the pair misses
     ``max(rtol |value|, atol)``.  Same arguments and returns as
     ``integrate`` (its keyword arguments in ``adaptive``)."""
-    a = np.asarray(a, float).ravel()
-    b = np.asarray(b, float).ravel()
-    atol = np.broadcast_to(np.asarray(atol, float), a.shape)
-    value = np.zeros(a.shape)
-    error = np.zeros(a.shape)
-    converged = np.ones(a.shape, dtype=bool)
-    todo = np.nonzero(b > a)[0]
+    a, b, atol, value, error, converged, todo = _start(a, b, atol)
     step = max(1, chunk // sum(orders))
     for s in range(0, todo.size, step):
         sl = todo[s:s + step]
