@@ -406,10 +406,12 @@ class PartialFile:
                 self._load()
                 self.fh = open(self.path, "a", newline="")
             else:
+                # the plan first: a run killed between the two leaves a plan
+                # without rows (started afresh), never rows without a plan
+                write_json(self.plan_path, _stored_plan(self.plan))
                 self.fh = open(self.path, "w", newline="")
                 self.fh.write(self.header_line)
                 self.fh.flush()
-                write_json(self.plan_path, _stored_plan(self.plan))
         except OSError as exc:
             raise _cannot_write(self.path, exc) from None
 
