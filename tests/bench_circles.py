@@ -11,8 +11,9 @@ of each process, so that other work on the machine weighs less):
      call) against a plain scipy harmonic sum of the same rates, and at
      R = 1e4 xi (v = 0.5, 0.9, 1.5, 2.5 c).
 
-Run: python tests/bench_circles.py [--previous=COMMIT] (default: the commit
-before the O(1) spherical average, 49102d0).
+Run: python tests/bench_circles.py [--previous=COMMIT] [--part=N] (default: the
+commit before the O(1) spherical average, 49102d0; --part=3 runs part 3 alone,
+--repeat=K repeats part 3 K times and prints each run and the medians).
 """
 from __future__ import annotations
 
@@ -133,9 +134,13 @@ def two_d_rows():
     return rows
 
 
-def main():
-    commit = next((a.split("=", 1)[1] for a in sys.argv[1:] if a.startswith("--previous=")),
-                  PREVIOUS)
+def option(name, default):
+    return next((a.split("=", 1)[1] for a in sys.argv[1:] if a.startswith(f"--{name}=")),
+                default)
+
+
+def part_3d():
+    commit = option("previous", PREVIOUS)
     old_tree = worktree(commit)
     print(f"previous release: {commit} (worktree {old_tree}); CPU seconds per process")
     new = run(KERNEL_3D, ROOT, 1e4, 1.5, 0.3)
@@ -151,11 +156,35 @@ def main():
     print("2. 3D circle, R = 1e5 xi, v = 1.5 c through circular_rates (not refused): "
           f"{big['seconds']:.2f} s, {big['harmonics']} harmonics, peak resident memory "
           f"{big['rss_mb']:.0f} MB, relative error bound {big['relative_error']:.1e}")
+
+
+def part_2d():
     print("3. 2D circle, gap 0.3 c/xi, per point (engine: circular_rates on all speeds at once; "
           "plain: vectorised scipy sum per point)")
-    for R, engine, plain, diff in two_d_rows():
-        print(f"   R = {R:g} xi: engine {engine * 1e3:.2f} ms, plain scipy sum {plain * 1e3:.2f} ms "
-              f"(ratio plain/engine {plain / engine:.2f}); largest relative difference {diff:.1e}")
+    runs = []
+    for _ in range(int(option("repeat", "1"))):
+        runs.append(two_d_rows())
+        for R, engine, plain, diff in runs[-1]:
+            print(f"   R = {R:g} xi: engine {engine * 1e3:.2f} ms, plain scipy sum "
+                  f"{plain * 1e3:.2f} ms (ratio plain/engine {plain / engine:.2f}); "
+                  f"largest relative difference {diff:.1e}")
+    if len(runs) > 1:
+        import numpy as np
+        print(f"   medians of {len(runs)} runs:")
+        for i, row in enumerate(runs[0]):
+            engine = float(np.median([run[i][1] for run in runs]))
+            plain = float(np.median([run[i][2] for run in runs]))
+            print(f"   R = {row[0]:g} xi: engine {engine * 1e3:.2f} ms, plain scipy sum "
+                  f"{plain * 1e3:.2f} ms (ratio plain/engine {plain / engine:.2f})")
+    print(f"   load average {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
+
+
+def main():
+    part = option("part", "all")
+    if part in ("all", "1", "2"):
+        part_3d()
+    if part in ("all", "3"):
+        part_2d()
 
 
 if __name__ == "__main__":
