@@ -34,6 +34,8 @@ _FIRST_BLOCK = 32
 _LARGEST_BLOCK = 8192
 #: relative rounding of a harmonic's argument x = q R (q a root of w_q = w)
 _ARGUMENT = 8 * EPS
+#: harmonics evaluated together, at most (the blocks of many points at once)
+_GROUP = 1 << 16
 
 
 def first_harmonic(W, wc, sign):
@@ -127,10 +129,35 @@ def circular_work(gas, R, v, W, s, rtol=1e-8):
     return harmonics, evals
 
 
-class _HarmonicSum:
-    """The harmonic sums of one point (scalars R, v, W, s): blocks of
-    harmonics summed outward until Kapteyn's bound on the remainder is below
-    0.1 rtol of every sum, with a running count of Bessel functions."""
+def _group_ends(sizes, limit):
+    """Split consecutive blocks of ``sizes`` into groups of at most ``limit``
+    harmonics (each group at least one block): the group boundaries."""
+    ends = np.cumsum(sizes)
+    cuts, base = [0], 0
+    for i in range(sizes.size):
+        if ends[i] - base > limit and i > cuts[-1]:
+            cuts.append(i)
+            base = ends[i - 1]
+    cuts.append(sizes.size)
+    return cuts
+
+
+def _flat_blocks(m0, sizes, direction):
+    """Harmonics of consecutive blocks (block i: m0[i], m0[i] + direction,
+    ... sizes[i] terms) as one flat array, and each block's first index."""
+    starts = np.zeros(sizes.size, dtype=np.intp)
+    np.cumsum(sizes[:-1], out=starts[1:])
+    offset = np.arange(int(starts[-1] + sizes[-1]), dtype=float) - np.repeat(starts, sizes)
+    return np.repeat(m0, sizes) + direction * offset, starts
+
+
+class _HarmonicSums:
+    """The harmonic sums of many points at once (arrays R, v, W; scalar s):
+    for each point, blocks of harmonics summed outward until Kapteyn's bound
+    on the remainder is below 0.1 rtol of every sum, with a running count of
+    Bessel functions.  The blocks of all points still summing are evaluated
+    together (in groups of at most _GROUP harmonics); each point sees the
+    same blocks and stopping tests as if it were summed alone."""
 
     def __init__(self, gas, R, v, W, s, rtol, energy, max_harmonics, max_evaluations):
         self.gas, self.disp, self.d = gas, gas.disp, gas.d
@@ -139,202 +166,273 @@ class _HarmonicSum:
         self.max_harmonics, self.max_evaluations = max_harmonics, max_evaluations
         self.wc = v / R
         self.qcut = math.sqrt(CUT) / s if s > 0 else math.inf
-        self.work = 0.0          # Bessel functions evaluated so far
+        self.work = np.zeros(R.size)     # Bessel functions evaluated so far, per point
         #: bounds of the Bessel functions' errors, per family and sum
-        self.bessel = {sign: dict.fromkeys(_KEYS, 0.0) for sign in (+1, -1)}
+        self.bessel = {sign: {k: np.zeros(R.size) for k in _KEYS} for sign in (+1, -1)}
 
     def weights(self, m, x):
-        """J_m(x)^2 (2D) or W_m(x) (3D) and bounds on their errors: those of
-        the Bessel functions and the effect of the argument's rounding
-        (x = q R to _ARGUMENT relative: dJ/dx ~ (r + m^(1/3)) (envelope + |J|)/x
-        with r = sqrt|x^2 - m^2|; dW/dx = (J_2m(2x) - W)/x)."""
+        """J_m(x)^2 (2D) or W_m(x) (3D), bounds on their errors (those of the
+        Bessel functions and the effect of the argument's rounding: x = q R to
+        _ARGUMENT relative, dJ/dx ~ (r + m^(1/3)) (envelope + |J|)/x with
+        r = sqrt|x^2 - m^2|; dW/dx = (J_2m(2x) - W)/x) and the Bessel
+        functions each cost."""
         n = np.abs(m)
         if self.d == 2:
             J, e, env, r = jv_bounded(m, x)
             e = e + _ARGUMENT * (r + np.cbrt(n) + 1) * (env + np.abs(J))
-            self.work += m.size
-            return J * J, e * (2 * np.abs(J) + e)
-        self.work += float(np.sum(w3_terms(m, x)))
+            return J * J, e * (2 * np.abs(J) + e), None
         Wm, e = w3(m, x, with_error=True)
         r = np.sqrt(np.abs((2 * x - 2 * n) * (2 * x + 2 * n)))
-        return Wm, e + _ARGUMENT * (envelope(2 * n, 2 * x) + Wm * (2 * n + r + 3))
+        return (Wm, e + _ARGUMENT * (envelope(2 * n, 2 * x) + Wm * (2 * n + r + 3)),
+                w3_terms(m, x).astype(float))
 
-    def terms(self, m, sign):
-        """Sums over the harmonics ``m`` of one family (with the bounds of
-        their Bessel functions' errors added into ``self.bessel``), and the
-        last terms' q, P0 (the harmonic's weight without J^2), w and n_th."""
+    def _count_work(self, pts, starts, sizes, cost):
+        """Add each block's Bessel functions to its point's count; ModelError
+        at the first point past the limit."""
+        self.work[pts] += sizes if cost is None else np.add.reduceat(cost, starts)
+        over = np.nonzero(self.work[pts] > self.max_evaluations)[0]
+        if over.size:
+            i = pts[over[0]]
+            raise ModelError(
+                "trajectory.radius",
+                f"the circular sum (radius {self.R[i]:.4g} xi, speed {self.v[i]:.4g} c) stopped "
+                f"after {self.work[i]:.3g} Bessel-function evaluations, the limit; "
+                + TOO_MANY_HARMONICS)
+
+    def terms(self, m, sign, pts, starts, sizes):
+        """Sums over each block of harmonics (flat ``m``: block i of point
+        pts[i] from starts[i]) of one family, with the bounds of their Bessel
+        functions' errors added into ``self.bessel``, and the blocks' last
+        terms' (q, P0 (the weight without J^2), n_th, w)."""
         gas, disp = self.gas, self.disp
-        w = sign * self.W + m * self.wc
+        own = np.repeat(pts, sizes)
+        w = sign * np.repeat(self.W[pts], sizes) + m * np.repeat(self.wc[pts], sizes)
         q = disp.inverse(w)
         vg = disp.group_velocity(q)
         Sq = disp.structure_factor(q)
-        B, eB = self.weights(m, q * self.R)
+        B, eB, cost = self.weights(m, q * self.R[own])
+        self._count_work(pts, starts, sizes, cost)
         P0 = q * Sq / vg if self.d == 2 else q * q * Sq / (math.pi * vg)
-        if self.work > self.max_evaluations:
-            raise ModelError(
-                "trajectory.radius",
-                f"the circular sum (radius {self.R:.4g} xi, speed {self.v:.4g} c) stopped "
-                f"after {self.work:.3g} Bessel-function evaluations, the limit; "
-                + TOO_MANY_HARMONICS)
-        pf = P0 * gas.form(q, self.s)
+        pf = P0 * gas.form(q, self.s) if self.s > 0 else P0
         base = pf * B
-        n_th = gas.occupation(q) if gas.T > 0 else np.zeros_like(q)
-        sums = {"plain": base.sum(), "thermal": (base * n_th).sum(),
-                "energy": (base * w).sum() if self.energy else 0.0}
         ebase = pf * eB
+        n_th = gas.occupation(q) if gas.T > 0 else None
+        sums = {"plain": np.add.reduceat(base, starts)}
         errs = self.bessel[sign]
-        errs["plain"] += ebase.sum()
-        errs["thermal"] += (ebase * n_th).sum()
-        errs["energy"] += (ebase * w).sum() if self.energy else 0.0
-        return sums, q, P0, w, n_th
+        errs["plain"][pts] += np.add.reduceat(ebase, starts)
+        if n_th is not None:
+            sums["thermal"] = np.add.reduceat(base * n_th, starts)
+            errs["thermal"][pts] += np.add.reduceat(ebase * n_th, starts)
+        if self.energy:
+            sums["energy"] = np.add.reduceat(base * w, starts)
+            errs["energy"][pts] += np.add.reduceat(ebase * w, starts)
+        last = starts + sizes - 1
+        return sums, (q[last], P0[last], np.zeros(last.size) if n_th is None else n_th[last],
+                      w[last])
 
-    def _block(self, m0, direction, m_stop, m_edge, previous):
-        """The next block of harmonics from ``m0`` in ``direction``: the
-        first reaches past the window edge, the next ones double up to 256
-        or an eighth of the edge's harmonic (small circles need a few dozen
-        harmonics in all)."""
+    def _block_sizes(self, m0, direction, m_stop, m_edge, previous):
+        """Sizes of the next blocks of harmonics from ``m0`` in ``direction``
+        (per point): the first reaches past the window edge, the next ones
+        double up to 256 or an eighth of the edge's harmonic (small circles
+        need a few dozen harmonics in all); downward blocks end at m_stop."""
         reach = (m_edge - m0) if direction > 0 else (m0 - m_edge)
-        if previous == 0:
-            size = max(_FIRST_BLOCK, reach + _FIRST_BLOCK)
-        else:
-            size = min(2 * previous, max(256, abs(m_edge) / 8))
-        size = int(min(_LARGEST_BLOCK, size))
+        size = np.where(previous == 0, np.fmax(_FIRST_BLOCK, reach + _FIRST_BLOCK),
+                        np.fmin(2 * previous, np.fmax(256, np.abs(m_edge) / 8)))
+        size = np.trunc(np.fmin(_LARGEST_BLOCK, size))
         if direction > 0:
-            return np.arange(m0, m0 + size, dtype=float)
-        lo = max(m_stop, m0 - size + 1)
-        return np.arange(m0, lo - 1, -1, dtype=float)
+            return size.astype(np.intp)
+        lo = np.maximum(m_stop, m0 - size + 1)
+        return np.maximum(m0 - lo + 1, 0).astype(np.intp)
 
-    def _remainder(self, sign, direction, M, m_edge, last, tot):
-        """Kapteyn's bound on what is left beyond harmonic M for each sum, if
-        it is below the tolerance; else None.  ``last`` = (q, P0, n_th, w)
-        of harmonic M."""
+    def _remainder(self, sign, direction, pts, M, m_edge, last, tot):
+        """Kapteyn's bound on what is left beyond harmonic M (per point) for
+        each sum, and whether it is below the tolerance.  ``last`` = (q, P0,
+        n_th, w) of harmonic M."""
         qM, P0, n_end, w_end = last
-        zM = qM * self.R / abs(M) if M != 0 else math.inf
-        past_peak = True
-        if direction > 0 and sign < 0 and self.W > 0:
-            past_peak = M >= m_edge
-        if not (zM < 1 and past_peak):
-            return None
-        r = kapteyn(zM) ** 2
-        g = r * math.exp(3.0 / abs(M)) if direction > 0 else r
-        if not g < 1:
-            return None
-        tail = P0 * r ** abs(M) * g / (1 - g)
+        aM = np.abs(M)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            zM = np.where(M != 0, qM * self.R[pts] / aM, math.inf)
+            ok = zM < 1
+            if direction > 0 and sign < 0:
+                ok &= (M >= m_edge) | ~(self.W[pts] > 0)
+            r = kapteyn(np.where(ok, zM, 0.0)) ** 2
+            g = r * np.exp(3.0 / aM) if direction > 0 else r
+            ok &= g < 1
+            tail = np.where(ok, P0 * r ** aM * g / (1 - g), 0.0)
         bound = {"plain": tail, "thermal": tail * n_end,
-                 "energy": tail * w_end * math.e if self.energy else 0.0}
-        ok = all(bound[k] <= self.rtol * 0.1 * abs(tot[k]) + 1e-300 for k in _KEYS)
-        return bound if ok else None
+                 "energy": tail * w_end * math.e if self.energy else np.zeros_like(tail)}
+        for k in _KEYS:
+            ok &= bound[k] <= self.rtol * 0.1 * np.abs(tot[k][pts]) + 1e-300
+        return bound, ok
 
-    def sweep(self, sign, m_first, direction, m_stop, m_edge):
-        """Sum terms m_first, m_first+direction, ... (not past m_stop) until
-        the remainder bound is met.  Returns sums, bounds, count."""
-        tot = dict.fromkeys(_KEYS, 0.0)
-        bnd = dict.fromkeys(_KEYS, 0.0)
-        count = 0
-        m0 = m_first
-        size = 0
-        while True:
-            m = self._block(m0, direction, m_stop, m_edge, size)
-            size = m.size
-            if m.size == 0:
-                break
-            sums, q, P0, w, n_th = self.terms(m, sign)
-            for k in _KEYS:
-                tot[k] += sums[k]
-            count += m.size
-            M = m[-1]
-            m0 = M + direction
-            if direction < 0 and M <= m_stop:
-                break
-            if q[-1] > self.qcut and direction > 0:
-                # the form factor is below exp(-80) from here on
-                break
-            bound = self._remainder(sign, direction, M, m_edge,
-                                    (q[-1], P0[-1], n_th[-1], w[-1]), tot)
-            if bound is not None:
-                bnd = bound
-                break
-            if count > self.max_harmonics:
-                raise ModelError(
-                    "trajectory.radius",
-                    f"the harmonic sum did not converge within {self.max_harmonics} "
-                    f"terms (radius {self.R:.4g} xi, speed {self.v:.4g} c, angular "
-                    f"frequency v/R = {self.wc:.4g} c/xi); " + TOO_MANY_HARMONICS)
+    def _stop(self, sign, direction, pts, M, m_stop, m_edge, last, tot, bnd):
+        """Which points stop after their block ending at harmonic M (a
+        downward sweep at m_stop, an upward one beyond the form factor's cut,
+        or with the remainder bound met, which is then kept in ``bnd``)."""
+        if direction < 0:
+            stop = M <= m_stop
+        else:
+            # the form factor is below exp(-80) from here on
+            stop = last[0] > self.qcut
+        bound, ok = self._remainder(sign, direction, pts, M, m_edge, last, tot)
+        met = ok & ~stop
+        for k in _KEYS:
+            bnd[k][pts[met]] = bound[k][met]
+        return stop | met
+
+    def sweep(self, sign, pts, m_first, direction, m_stop, m_edge):
+        """For each point pts[i], sum terms m_first[i], m_first[i] + direction,
+        ... (not past m_stop[i]) until the remainder bound is met.  Returns
+        sums, bounds and counts (indexed like the points of the kernel)."""
+        n = self.R.size
+        tot = {k: np.zeros(n) for k in _KEYS}
+        bnd = {k: np.zeros(n) for k in _KEYS}
+        count = np.zeros(n, dtype=np.intp)
+        m0, size = np.zeros(n), np.zeros(n)
+        m0[pts] = m_first
+        edge, stop_at = np.zeros(n), np.zeros(n)
+        edge[pts] = m_edge
+        if m_stop is not None:
+            stop_at[pts] = m_stop
+        active = np.asarray(pts, dtype=np.intp)
+        while active.size:
+            sizes = self._block_sizes(m0[active], direction, stop_at[active], edge[active],
+                                      size[active])
+            active, sizes = active[sizes > 0], sizes[sizes > 0]
+            cuts = _group_ends(sizes, _GROUP) if active.size else [0]
+            done = []
+            for a, b in zip(cuts[:-1], cuts[1:]):
+                done.append(self._sweep_group(sign, direction, active[a:b], sizes[a:b],
+                                              m0, size, stop_at, edge, tot, bnd, count))
+            active = active[~np.concatenate(done)] if done else active
         return tot, bnd, count
 
-    def _edge(self, sign):
-        """The harmonic at the family's window edge (where k R ~ |m|)."""
-        disp, v, W, qcut = self.disp, self.v, self.W, self.qcut
-        if sign > 0:
-            qe = float(disp.root_plus(np.array([v]), np.array([W]))[0])
-            if not np.isfinite(qe):
-                qe = qcut
-        else:
-            qc_, qd_ = disp.roots_up(np.array([v]), np.array([W]))
-            if np.isfinite(qd_[0]):
-                qe = float(qd_[0])
-            elif np.isnan(qd_[0]):
-                qe = float(disp.threshold(np.array([W]))[1][0]) if W > 0 else 0.0
-                if not np.isfinite(qe):
-                    qe = qcut
-            else:
-                qe = qcut
-        return (float(disp.omega(qe)) - sign * W) / self.wc if np.isfinite(qe) else 1e9
+    def _sweep_group(self, sign, direction, pts, sizes, m0, size, stop_at, edge, tot, bnd,
+                     count):
+        """One block of each point of ``pts``: sums added, counts and next
+        starts advanced; returns which points stop."""
+        m, starts = _flat_blocks(m0[pts], sizes, direction)
+        sums, last = self.terms(m, sign, pts, starts, sizes)
+        for k, val in sums.items():
+            tot[k][pts] += val
+        count[pts] += sizes
+        size[pts] = sizes
+        M = m0[pts] + direction * (sizes - 1)
+        m0[pts] = M + direction
+        stop = self._stop(sign, direction, pts, M, stop_at[pts], edge[pts], last, tot, bnd)
+        over = np.nonzero(~stop & (count[pts] > self.max_harmonics))[0]
+        if over.size:
+            i = pts[over[0]]
+            raise ModelError(
+                "trajectory.radius",
+                f"the harmonic sum did not converge within {self.max_harmonics} "
+                f"terms (radius {self.R[i]:.4g} xi, speed {self.v[i]:.4g} c, angular "
+                f"frequency v/R = {self.wc[i]:.4g} c/xi); " + TOO_MANY_HARMONICS)
+        return stop
 
-    def family(self, sign):
-        """Sums, remainder bounds and count of one family of harmonics:
-        upward from the first (or from m = 0), then the negative harmonics
-        downward."""
-        W, wc = self.W, self.wc
-        mlo = first_harmonic(W, wc, sign)
-        up_start = max(mlo, 0 if sign > 0 and W > 0 else mlo)
-        tot, bnd, cnt = self.sweep(sign, up_start, +1, None, self._edge(sign))
-        if up_start > mlo:
+    def _edge(self, sign, pts):
+        """The harmonic at the family's window edge (where k R ~ |m|), per point."""
+        disp, v, W, qcut = self.disp, self.v[pts], self.W[pts], self.qcut
+        if sign > 0:
+            qe = disp.root_plus(v, W)
+            qe = np.where(np.isfinite(qe), qe, qcut)
+        else:
+            _, qd = disp.roots_up(v, W)
+            qe = np.where(np.isfinite(qd), qd, qcut)
+            gap = np.isnan(qd)
+            if gap.any():
+                qt = np.zeros(int(np.count_nonzero(gap)))
+                has = W[gap] > 0
+                if has.any():
+                    qt[has] = disp.threshold(W[gap][has])[1]
+                qe[gap] = np.where(np.isfinite(qt), qt, qcut)
+        fin = np.isfinite(qe)
+        with np.errstate(invalid="ignore", over="ignore"):
+            edge = (disp.omega(np.where(fin, qe, 0.0)) - sign * W) / self.wc[pts]
+        return np.where(fin, edge, 1e9)
+
+    def family(self, sign, pts):
+        """Sums, remainder bounds and counts of one family of harmonics for
+        the points ``pts``: upward from the first (or from m = 0), then the
+        negative harmonics downward."""
+        if pts.size == 0:
+            zero = {k: np.zeros(self.R.size) for k in _KEYS}
+            return zero, dict(zero), np.zeros(self.R.size, dtype=np.intp)
+        W, wc = self.W[pts], self.wc[pts]
+        mlo = np.floor(-sign * W / wc) + 1
+        mlo = np.where(W == 0, np.maximum(mlo, 1), mlo)
+        up_start = np.maximum(mlo, 0) if sign > 0 else mlo
+        up_start = np.where(W > 0, up_start, mlo)
+        tot, bnd, cnt = self.sweep(sign, pts, up_start, +1, None, self._edge(sign, pts))
+        neg = up_start > mlo
+        if neg.any():
             # negative harmonics: w = W - |m| w_c > 0; they matter down to
             # |m| ~ q_a R and decay beyond
-            qa = float(self.disp.root_minus(np.array([self.v]), np.array([W]))[0])
-            m_edge_neg = -(W - float(self.disp.omega(qa))) / wc
-            t2, b2, c2 = self.sweep(sign, up_start - 1, -1, mlo, m_edge_neg)
+            sub = pts[neg]
+            qa = self.disp.root_minus(self.v[sub], self.W[sub])
+            m_edge_neg = -(self.W[sub] - self.disp.omega(qa)) / self.wc[sub]
+            t2, b2, c2 = self.sweep(sign, sub, up_start[neg] - 1, -1, mlo[neg], m_edge_neg)
             for k in _KEYS:
                 tot[k] += t2[k]
                 bnd[k] += b2[k]
-            cnt += c2
+            cnt = cnt + c2
         return tot, bnd, cnt
 
 
-def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=MAX_HARMONICS,
-                    max_evaluations=math.inf):
-    """Dimensionless circular rates for one point (scalars R, v, W, s), in
-    units of A xi^-d xi/c.  Returns dict like ``inertial_kernel`` plus the
-    number of harmonics used.
+def circular_kernels(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=MAX_HARMONICS,
+                     max_evaluations=math.inf):
+    """Dimensionless circular rates of many points (1D arrays R, v > 0, W;
+    scalar s) in units of A xi^-d xi/c: dict of (values, errors) arrays per
+    process ("down", "up" where W > 0; "emission", "absorption", "energy"
+    where W = 0; NaN elsewhere) and "harmonics" (counts per point).
 
     Each family of harmonics (``w_k = W + m w_c`` and ``w_k = m w_c - W``) is
     summed outward from the region where ``k R ~ |m|`` until Kapteyn's
-    inequality bounds what is left below the tolerance.
+    inequality bounds what is left below the tolerance; the blocks of all
+    points are evaluated together.
     """
-    if (not gas.disp.bounded_windows) and v >= 1 and s == 0:
+    R, v, W = (np.asarray(a, float).ravel() for a in np.broadcast_arrays(R, v, W))
+    if (not gas.disp.bounded_windows) and np.any(v >= 1) and s == 0:
         raise ModelError(
             "condensate.dispersion",
             "with the 'phonon' dispersion and a point probe (width 0) the "
             "supersonic circular rate diverges: every harmonic radiates; give "
             "the probe a width or use 'bogoliubov'")
-    hs = _HarmonicSum(gas, R, v, W, s, rtol, energy, max_harmonics, max_evaluations)
-    t1, e1, n1 = hs.family(+1)
-    b1 = hs.bessel[+1]
-    if W > 0:
-        t2, e2, n2 = hs.family(-1)
-        b2 = hs.bessel[-1]
-        down = t1["plain"] + t1["thermal"] + t2["thermal"]
-        up = t2["plain"] + t2["thermal"] + t1["thermal"]
-        return {"down": (down, e1["plain"] + e1["thermal"] + e2["thermal"]
-                         + b1["plain"] + b1["thermal"] + b2["thermal"] + _SUMMING * down),
-                "up": (up, e2["plain"] + e2["thermal"] + e1["thermal"]
-                       + b2["plain"] + b2["thermal"] + b1["thermal"] + _SUMMING * up),
-                "harmonics": n1 + n2}
+    hs = _HarmonicSums(gas, R, v, W, s, rtol, energy, max_harmonics, max_evaluations)
+    gapped = W > 0
+    t1, e1, n1 = hs.family(+1, np.arange(R.size))
+    t2, e2, n2 = hs.family(-1, np.nonzero(gapped)[0])
+    b1, b2 = hs.bessel[+1], hs.bessel[-1]
+    nan = np.full(R.size, np.nan)
+    down = t1["plain"] + t1["thermal"] + t2["thermal"]
+    up = t2["plain"] + t2["thermal"] + t1["thermal"]
     em = t1["plain"] + t1["thermal"]
-    return {"emission": (em, e1["plain"] + e1["thermal"] + b1["plain"] + b1["thermal"]
-                         + _SUMMING * em),
-            "absorption": (t1["thermal"], e1["thermal"] + b1["thermal"]
-                           + _SUMMING * t1["thermal"]),
-            "energy": (t1["energy"], e1["energy"] + b1["energy"] + _SUMMING * t1["energy"]),
-            "harmonics": n1}
+    out = {"down": (down, e1["plain"] + e1["thermal"] + e2["thermal"]
+                    + b1["plain"] + b1["thermal"] + b2["thermal"] + _SUMMING * down),
+           "up": (up, e2["plain"] + e2["thermal"] + e1["thermal"]
+                  + b2["plain"] + b2["thermal"] + b1["thermal"] + _SUMMING * up),
+           "emission": (em, e1["plain"] + e1["thermal"] + b1["plain"] + b1["thermal"]
+                        + _SUMMING * em),
+           "absorption": (t1["thermal"], e1["thermal"] + b1["thermal"]
+                          + _SUMMING * t1["thermal"]),
+           "energy": (t1["energy"], e1["energy"] + b1["energy"] + _SUMMING * t1["energy"])}
+    for key, (val, err) in out.items():
+        mine = gapped if key in ("down", "up") else ~gapped
+        out[key] = (np.where(mine, val, nan), np.where(mine, err, nan))
+    out["harmonics"] = n1 + n2
+    return out
+
+
+def circular_kernel(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=MAX_HARMONICS,
+                    max_evaluations=math.inf):
+    """Dimensionless circular rates for one point (scalars R, v, W, s), in
+    units of A xi^-d xi/c: dict like ``inertial_kernel`` (down and up where
+    W > 0, else emission, absorption and energy) plus the number of
+    harmonics used (``circular_kernels`` of one point)."""
+    out = circular_kernels(gas, np.array([float(R)]), np.array([float(v)]),
+                           np.array([float(W)]), s, rtol=rtol, energy=energy,
+                           max_harmonics=max_harmonics, max_evaluations=max_evaluations)
+    keys = ("down", "up") if W > 0 else ("emission", "absorption", "energy")
+    res = {k: (float(out[k][0][0]), float(out[k][1][0])) for k in keys}
+    res["harmonics"] = int(out["harmonics"][0])
+    return res
