@@ -194,3 +194,30 @@ def test_subsonic_rates_at_rtol_1e12(d, R, v, W):
                               (r.up_rate, r.up_rate_error, up * pref)):
         assert abs(value - ref) <= error, (value, ref, error)
         assert error <= 1e-12 * value, (error, value)
+
+
+@pytest.mark.parametrize("R, v, rtol", [
+    (1.0, 0.4, 1e-8), (1.0, 2.0, 1e-6), (10.0, 0.6, 1e-8), (10.0, 1.7, 1e-8),
+    (10.0, 0.95, 1e-6), (30.0, 1.3, 1e-8),
+])
+def test_2d_truncation_against_mpmath(R, v, rtol):
+    """2D circles summed at the default and a loose rtol, many points in one
+    call: each sum stops at the first harmonic where Kapteyn's bound on the
+    remainder (Watson, *Theory of Bessel Functions*, sec. 8.7) is below
+    0.1 rtol, so the remainder is a large part of the error.  Each reported
+    error must bound the distance to the 40-digit harmonic sums of
+    PHYSICS.md sec. 5 (``rate_reference``, summed until the terms fall
+    below 1e-32 of the sum), and stay within rtol."""
+    cond = rb_gas(2)
+    c, xi, w0 = cond.sound_speed, cond.healing_length, cond.frequency_unit
+    kappa, W = 1e-50, 0.3
+    probe = TwoLevelProbe(W * w0, kappa)
+    speeds = np.array([v, 0.5 * v, 1.1 * v])
+    r = circular_rates(cond, probe, R * xi, speeds * c, rtol=rtol)
+    pref = (kappa / HBAR) ** 2 * cond.density / xi ** 2 / w0
+    for i, vi in enumerate(speeds):
+        down, up = rate_reference(2, R, float(vi), W)
+        for value, error, ref in ((r.down_rate[i], r.down_rate_error[i], down * pref),
+                                  (r.up_rate[i], r.up_rate_error[i], up * pref)):
+            assert abs(value - ref) <= error, (vi, value, ref, error)
+            assert error <= rtol * value, (vi, error, value)

@@ -23,7 +23,6 @@ from __future__ import annotations
 from fractions import Fraction
 
 import numpy as np
-from scipy.special import jv
 
 #: number of Debye corrections kept
 _ORDERS = 10
@@ -94,7 +93,9 @@ def _corrections(t, r, oscillatory):
 def _debye(nu, x, r, out, use):
     """Debye's expansions where they converge to 1e-16; fills ``out`` and
     marks ``use``."""
-    cand = (r > 8.0) & (nu * nu < r**3)
+    # ten corrections reach 1e-16 only for r >~ 60 and r >~ 4 nu^(2/3) (found
+    # by scanning r at nu = 0 ... 1e4): below these the trial is skipped
+    cand = (r > 30.0) & (15 * nu * nu < r**3)
     for osc in (True, False):
         sel = cand & ((x > nu) if osc else (x < nu))
         if not np.any(sel):
@@ -129,6 +130,7 @@ def jv_int(m, x):
         _debye(nu, x, r, out, use)
     rest = ~use
     if np.any(rest):
+        from scipy.special import jv   # scipy.special is imported when first needed (start-up)
         out[rest] = jv(nu[rest], x[rest])
     return (sign * out).reshape(shape)
 

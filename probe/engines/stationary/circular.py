@@ -40,54 +40,60 @@ _GROUP = 1 << 16
 
 def first_harmonic(W, wc, sign):
     """Lowest harmonic m with a resonant shell, sign W + m w_c > 0 (m >= 1
-    without a detuning)."""
-    mlo = math.floor(-sign * W / wc) + 1
-    if W == 0:
-        mlo = max(mlo, 1)
-    return mlo
+    without a detuning), per point (arrays W, w_c)."""
+    mlo = np.floor(-sign * W / wc) + 1
+    return np.where(W == 0, np.maximum(mlo, 1), mlo)
 
 
 def _work_edge(disp, v, W, wc, sign, qcut):
-    """The harmonic at the window edge for ``circular_work``: the edge q
-    (root_plus, or the up window's upper edge, or the threshold's q), capped
-    at the form factor's cutoff."""
+    """The harmonic at the window edge for ``circular_work`` (arrays over
+    points): the edge q (root_plus, or the up window's upper edge, or the
+    threshold's q), capped at the form factor's cutoff."""
     if sign > 0:
-        qe = float(disp.root_plus(np.array([v]), np.array([W]))[0])
+        qe = disp.root_plus(v, W)
     else:
-        qe = float(disp.roots_up(np.array([v]), np.array([W]))[1][0])
-        if np.isnan(qe):
-            qe = float(disp.threshold(np.array([W]))[1][0]) if W > 0 else 0.0
-    qe = min(qe, qcut) if np.isfinite(qe) else qcut
-    return (float(disp.omega(qe)) - sign * W) / wc if np.isfinite(qe) else math.inf
+        qe = disp.roots_up(v, W)[1]
+        gap = np.isnan(qe)
+        if gap.any():
+            qt = np.zeros(int(np.count_nonzero(gap)))
+            has = W[gap] > 0
+            if has.any():
+                qt[has] = disp.threshold(W[gap][has])[1]
+            qe[gap] = qt
+    qe = np.where(np.isfinite(qe), np.minimum(qe, qcut), qcut)
+    fin = np.isfinite(qe)
+    with np.errstate(invalid="ignore", over="ignore"):
+        edge = (disp.omega(np.where(fin, qe, 0.0)) - sign * W) / wc
+    return np.where(fin, edge, math.inf)
 
 
 def _last_harmonic(disp, R, W, wc, sign, qcut, rtol, lo):
-    """First harmonic m >= lo at which the sum stops (beyond the cutoff, or
-    Kapteyn's bound of the remainder below 0.1 rtol): doubling, then
-    bisection on integers.  None if it is beyond 1e15."""
-    def done(m):
-        q = disp.inverse(sign * W + m * wc)
-        z = q * R / np.maximum(m, 1)
+    """First harmonic m >= lo (per point) at which the sum stops (beyond the
+    cutoff, or Kapteyn's bound of the remainder below 0.1 rtol): doubling,
+    then bisection on integers.  inf where it is beyond 1e15."""
+    def stops(m, i):
+        q = disp.inverse(sign * W[i] + m * wc[i])
+        z = q * R[i] / np.maximum(m, 1)
         rho2 = kapteyn(np.minimum(z, 1.0)) ** 2
         with np.errstate(divide="ignore"):
             tail = m * np.log(np.where(rho2 > 0, rho2, 1e-300))
         return (q > qcut) | ((z < 1) & (tail < math.log(0.1 * rtol)))
 
-    def stops(m):
-        return bool(done(np.array([float(m)]))[0])
-    hi = lo
-    while not stops(hi):
-        hi *= 2
-        if hi > 1e15:
-            return None
-    a_, b_ = lo, hi
-    while b_ - a_ > 1:
-        mid = (a_ + b_) // 2
-        if stops(mid):
-            b_ = mid
-        else:
-            a_ = mid
-    return b_
+    hi = np.array(lo, dtype=float)
+    act = np.arange(hi.size)
+    while act.size:
+        act = act[~stops(hi[act], act)]
+        hi[act] *= 2
+        act = act[hi[act] <= 1e15]
+    a_, b_ = np.array(lo, dtype=float), hi
+    act = np.nonzero((b_ - a_ > 1) & (b_ <= 1e15))[0]
+    while act.size:
+        mid = np.floor((a_[act] + b_[act]) / 2)
+        ok = stops(mid, act)
+        b_[act[ok]] = mid[ok]
+        a_[act[~ok]] = mid[~ok]
+        act = act[b_[act] - a_[act] > 1]
+    return np.where(b_ > 1e15, math.inf, b_)
 
 
 def _bessel_cost_3d(disp, R, W, wc, sign, mlo, m_hi):
@@ -100,33 +106,47 @@ def _bessel_cost_3d(disp, R, W, wc, sign, mlo, m_hi):
     return 2.0 * (float(np.sum(0.5 * (cost[1:] + cost[:-1]) * np.diff(m))) + cost[0])
 
 
-def circular_work(gas, R, v, W, s, rtol=1e-8):
+def circular_works(gas, R, v, W, s, rtol=1e-8):
     """Predicted (harmonics, Bessel-function evaluations) of
-    ``circular_kernel`` for one point, from the same window edges and stopping
-    rule (Kapteyn's bound below 0.1 rtol), without evaluating any Bessel
-    function.  Used to refuse sums that would take minutes.  The evaluation
-    count is doubled: against counted runs (R = 10 to 1e4 xi, v = 1e-5 to
-    1e3 c) the plain prediction was low by a factor of up to 1.9."""
+    ``circular_kernels`` for each point (arrays R, v > 0, W; scalar s), from
+    the same window edges and stopping rule (Kapteyn's bound below 0.1
+    rtol), without evaluating any Bessel function (inf where a sum would
+    not stop).  Used to refuse sums that would take minutes.  The
+    evaluation count is doubled: against counted runs (R = 10 to 1e4 xi,
+    v = 1e-5 to 1e3 c) the plain prediction was low by a factor of up to
+    1.9."""
+    R, v, W = (np.asarray(a, float).ravel() for a in np.broadcast_arrays(R, v, W))
     disp, d = gas.disp, gas.d
     wc = v / R
     qcut = math.sqrt(CUT) / s if s > 0 else math.inf
-    harmonics = 0.0
-    evals = 0.0
-    for sign in ((+1, -1) if W > 0 else (+1,)):
-        mlo = first_harmonic(W, wc, sign)
-        m_edge = _work_edge(disp, v, W, wc, sign, qcut)
-        start = 0 if (sign > 0 and W > 0) else mlo
-        lo = max(start, 1, int(min(m_edge, 1e15)) if np.isfinite(m_edge) else 1)
-        m_hi = _last_harmonic(disp, R, W, wc, sign, qcut, rtol, lo)
-        if m_hi is None:
-            return math.inf, math.inf
-        count = (m_hi - start + 1) + (start - mlo if start > mlo else 0)
-        harmonics += count
-        if d == 3 and math.isfinite(count):
-            evals += _bessel_cost_3d(disp, R, W, wc, sign, mlo, m_hi)
+    harmonics, evals = np.zeros(R.size), np.zeros(R.size)
+    for sign in (+1, -1):
+        pts = np.arange(R.size) if sign > 0 else np.nonzero(W > 0)[0]
+        if pts.size == 0:
+            continue
+        Wp, wp, Rp = W[pts], wc[pts], R[pts]
+        mlo = first_harmonic(Wp, wp, sign)
+        m_edge = _work_edge(disp, v[pts], Wp, wp, sign, qcut)
+        start = np.where((Wp > 0) & (sign > 0), 0.0, mlo)
+        lo = np.maximum(np.maximum(start, 1),
+                        np.where(np.isfinite(m_edge), np.trunc(np.minimum(m_edge, 1e15)), 1))
+        m_hi = _last_harmonic(disp, Rp, Wp, wp, sign, qcut, rtol, lo)
+        count = (m_hi - start + 1) + np.maximum(start - mlo, 0)
+        harmonics[pts] += count
+        if d == 3:
+            cost = [_bessel_cost_3d(disp, Rp[i], Wp[i], wp[i], sign, mlo[i], m_hi[i])
+                    if math.isfinite(count[i]) else math.inf for i in range(pts.size)]
+            evals[pts] += np.array(cost)
         else:
-            evals += 2.0 * count
+            evals[pts] += 2.0 * count
     return harmonics, evals
+
+
+def circular_work(gas, R, v, W, s, rtol=1e-8):
+    """``circular_works`` of one point: (harmonics, Bessel-function
+    evaluations) as floats."""
+    harmonics, evals = circular_works(gas, R, v, W, s, rtol)
+    return float(harmonics[0]), float(evals[0])
 
 
 def _group_ends(sizes, limit):
@@ -199,36 +219,40 @@ class _HarmonicSums:
                 f"after {self.work[i]:.3g} Bessel-function evaluations, the limit; "
                 + TOO_MANY_HARMONICS)
 
-    def terms(self, m, sign, pts, starts, sizes):
-        """Sums over each block of harmonics (flat ``m``: block i of point
-        pts[i] from starts[i]) of one family, with the bounds of their Bessel
-        functions' errors added into ``self.bessel``, and the blocks' last
-        terms' (q, P0 (the weight without J^2), n_th, w)."""
+    def shells(self, m, sign, own):
+        """What harmonics ``m`` (of the points ``own``, one per harmonic) of
+        one family need besides their Bessel functions: the resonant w and q,
+        P0 (the weight without J^2 or W_m), P0 times the form factor, n_th."""
         gas, disp = self.gas, self.disp
-        own = np.repeat(pts, sizes)
-        w = sign * np.repeat(self.W[pts], sizes) + m * np.repeat(self.wc[pts], sizes)
+        w = sign * self.W[own] + m * self.wc[own]
         q = disp.inverse(w)
         vg = disp.group_velocity(q)
         Sq = disp.structure_factor(q)
-        B, eB, cost = self.weights(m, q * self.R[own])
-        self._count_work(pts, starts, sizes, cost)
         P0 = q * Sq / vg if self.d == 2 else q * q * Sq / (math.pi * vg)
         pf = P0 * gas.form(q, self.s) if self.s > 0 else P0
+        n_th = gas.occupation(q) if gas.T > 0 else np.zeros_like(q)
+        return {"w": w, "q": q, "P0": P0, "pf": pf, "n_th": n_th}
+
+    def terms(self, m, sign, pts, own, starts, sizes, sh):
+        """Sums over each block of harmonics (flat ``m``: block i of point
+        pts[i] from starts[i], ``sh`` their ``shells``) of one family, with
+        the bounds of their Bessel functions' errors added into
+        ``self.bessel``."""
+        B, eB, cost = self.weights(m, sh["q"] * self.R[own])
+        self._count_work(pts, starts, sizes, cost)
+        pf, w, n_th = sh["pf"], sh["w"], sh["n_th"]
         base = pf * B
         ebase = pf * eB
-        n_th = gas.occupation(q) if gas.T > 0 else None
         sums = {"plain": np.add.reduceat(base, starts)}
         errs = self.bessel[sign]
         errs["plain"][pts] += np.add.reduceat(ebase, starts)
-        if n_th is not None:
+        if self.gas.T > 0:
             sums["thermal"] = np.add.reduceat(base * n_th, starts)
             errs["thermal"][pts] += np.add.reduceat(ebase * n_th, starts)
         if self.energy:
             sums["energy"] = np.add.reduceat(base * w, starts)
             errs["energy"][pts] += np.add.reduceat(ebase * w, starts)
-        last = starts + sizes - 1
-        return sums, (q[last], P0[last], np.zeros(last.size) if n_th is None else n_th[last],
-                      w[last])
+        return sums
 
     def _block_sizes(self, m0, direction, m_stop, m_edge, previous):
         """Sizes of the next blocks of harmonics from ``m0`` in ``direction``
@@ -265,7 +289,7 @@ class _HarmonicSums:
             ok &= bound[k] <= self.rtol * 0.1 * np.abs(tot[k][pts]) + 1e-300
         return bound, ok
 
-    def _stop(self, sign, direction, pts, M, m_stop, m_edge, last, tot, bnd):
+    def _stop(self, sign, direction, pts, M, m_stop, m_edge, last, tot, bnd, open_):
         """Which points stop after their block ending at harmonic M (a
         downward sweep at m_stop, an upward one beyond the form factor's cut,
         or with the remainder bound met, which is then kept in ``bnd``)."""
@@ -275,7 +299,7 @@ class _HarmonicSums:
             # the form factor is below exp(-80) from here on
             stop = last[0] > self.qcut
         bound, ok = self._remainder(sign, direction, pts, M, m_edge, last, tot)
-        met = ok & ~stop
+        met = ok & ~stop & open_
         for k in _KEYS:
             bnd[k][pts[met]] = bound[k][met]
         return stop | met
@@ -307,19 +331,57 @@ class _HarmonicSums:
             active = active[~np.concatenate(done)] if done else active
         return tot, bnd, count
 
+    def _trim(self, sign, direction, pts, m, starts, sizes, sh, edge, tot, bnd, later):
+        """Blocks after a point's first end at the first harmonic M where the
+        sum stops: beyond the form factor's cut (upward) or with Kapteyn's
+        bound on what is left below 0.1 rtol of the sums before the block
+        (which the sums up to M only exceed), found before any Bessel
+        function is evaluated.  Returns the kept harmonics' mask, the new
+        sizes and which blocks were cut (those stop)."""
+        row = np.repeat(np.arange(pts.size), sizes)
+        own = pts[row]
+        local = np.arange(m.size) - starts[row]
+        bound, ok = self._remainder(sign, direction, own, m, edge[own],
+                                    (sh["q"], sh["P0"], sh["n_th"], sh["w"]), tot)
+        beyond = sh["q"] > self.qcut if direction > 0 else np.zeros(m.size, dtype=bool)
+        first = np.minimum.reduceat(np.where(ok | beyond, local, m.size), starts)
+        first = np.where(later, first, sizes - 1)   # a first block is summed whole
+        cut = first < sizes - 1
+        keep = local <= first[row]
+        met = np.nonzero(cut)[0]
+        at = starts[met] + first[met]
+        with_bound = ~beyond[at]
+        for k in _KEYS:
+            bnd[k][pts[met[with_bound]]] = bound[k][at[with_bound]]
+        return keep, np.minimum(sizes, first + 1), cut
+
     def _sweep_group(self, sign, direction, pts, sizes, m0, size, stop_at, edge, tot, bnd,
                      count):
         """One block of each point of ``pts``: sums added, counts and next
         starts advanced; returns which points stop."""
         m, starts = _flat_blocks(m0[pts], sizes, direction)
-        sums, last = self.terms(m, sign, pts, starts, sizes)
+        own = np.repeat(pts, sizes)
+        sh = self.shells(m, sign, own)
+        cut = np.zeros(pts.size, dtype=bool)
+        later = size[pts] > 0
+        if later.any():
+            keep, sizes, cut = self._trim(sign, direction, pts, m, starts, sizes, sh, edge,
+                                          tot, bnd, later)
+            m, own = m[keep], own[keep]
+            sh = {k: val[keep] for k, val in sh.items()}
+            starts = np.zeros(sizes.size, dtype=np.intp)
+            np.cumsum(sizes[:-1], out=starts[1:])
+        sums = self.terms(m, sign, pts, own, starts, sizes, sh)
         for k, val in sums.items():
             tot[k][pts] += val
         count[pts] += sizes
         size[pts] = sizes
         M = m0[pts] + direction * (sizes - 1)
         m0[pts] = M + direction
-        stop = self._stop(sign, direction, pts, M, stop_at[pts], edge[pts], last, tot, bnd)
+        last = starts + sizes - 1
+        last = (sh["q"][last], sh["P0"][last], sh["n_th"][last], sh["w"][last])
+        stop = cut | self._stop(sign, direction, pts, M, stop_at[pts], edge[pts], last, tot,
+                                bnd, ~cut)
         over = np.nonzero(~stop & (count[pts] > self.max_harmonics))[0]
         if over.size:
             i = pts[over[0]]
@@ -359,8 +421,7 @@ class _HarmonicSums:
             zero = {k: np.zeros(self.R.size) for k in _KEYS}
             return zero, dict(zero), np.zeros(self.R.size, dtype=np.intp)
         W, wc = self.W[pts], self.wc[pts]
-        mlo = np.floor(-sign * W / wc) + 1
-        mlo = np.where(W == 0, np.maximum(mlo, 1), mlo)
+        mlo = first_harmonic(W, wc, sign)
         up_start = np.maximum(mlo, 0) if sign > 0 else mlo
         up_start = np.where(W > 0, up_start, mlo)
         tot, bnd, cnt = self.sweep(sign, pts, up_start, +1, None, self._edge(sign, pts))
