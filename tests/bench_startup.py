@@ -4,7 +4,9 @@
 
 Wall time of three commands, each a fresh Python process, measured in one
 run, the median of ``--repeats`` runs each after one untimed run (warm file
-cache, unit-registry cache filled):
+cache; the cache folder filled: unit registry, strings read, CODATA
+constants, isotope masses; compiled bytecode written, as on a user's
+machine, even where ``PYTHONDONTWRITEBYTECODE`` is set):
 
 1. ``python -c pass`` (the interpreter alone: the floor);
 2. ``probe --help``;
@@ -61,6 +63,7 @@ def run(argv, tree):
     """(wall seconds, CPU seconds: user + system) of one process running
     ``argv`` in ``tree``."""
     env = dict(os.environ, PYTHONPATH=str(tree))
+    env.pop("PYTHONDONTWRITEBYTECODE", None)    # bytecode kept, as on a user's machine
     start = time.perf_counter()
     child = subprocess.Popen(argv, cwd=tree, env=env, stdout=subprocess.DEVNULL,
                              stderr=subprocess.PIPE)
@@ -103,6 +106,7 @@ def rates_alone(repeats=30):
     """Median seconds of ``rates_from_config(example)`` in a warm process
     (reading the file, units, building the scenario, the engine)."""
     env = dict(os.environ, PYTHONPATH=str(ROOT))
+    env.pop("PYTHONDONTWRITEBYTECODE", None)
     out = subprocess.run([sys.executable, "-c", RATES_ALONE, EXAMPLE, str(repeats)],
                          cwd=ROOT, env=env, check=True, capture_output=True, text=True)
     return float(out.stdout.strip())
@@ -117,7 +121,9 @@ def main():
     trees = {"now": ROOT, "previous": previous}
     script = Path(sys.executable).with_name("probe")
     print(f"{os.cpu_count()} cores; median of {args.repeats} runs each; previous release: "
-          f"{sha[:12]} ({previous})")
+          f"{sha[:12]} ({previous}); load average {os.getloadavg()[0]:.2f}")
+    print("compiled bytecode kept between runs (PYTHONDONTWRITEBYTECODE unset in the "
+          "children, as on a user's machine: the untimed first run writes it)")
     print(f"{'command':<50} {'now':>8} {'previous':>9} {'ratio':>6}   "
           f"{'CPU now':>8} {'previous':>9} {'ratio':>6}")
     for label, tail in COMMANDS.items():
@@ -133,6 +139,7 @@ def main():
               f"{cpu:7.3f}s")
     print(f"{'the rates alone (rates_from_config, warm process)':<52} "
           f"{rates_alone() * 1e3:7.1f}ms")
+    print(f"load average after: {os.getloadavg()[0]:.2f}")
 
 
 if __name__ == "__main__":

@@ -11,7 +11,7 @@ import tempfile
 
 import click
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.errors import InputError, ModelError
 from probe.quantities import error_names, in_registry_order, quantity, table_unit

@@ -13,7 +13,7 @@ import math
 import warnings
 
 import click
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_derived_rows, cloud_input_rows, cloud_json

@@ -32,7 +32,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.errors import InputError
 from probe.scenarios.keys import Key

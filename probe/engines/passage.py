@@ -26,7 +26,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.engines.stationary import MAX_SPEED_OVER_C, inertial_rates
 from probe.engines.stationary.local import local_inertial_rates

@@ -19,14 +19,16 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import constants as sc
-from scipy.special import zeta
+from probe import constants as sc
 
 from probe.gas.dispersion import DISPERSIONS, Dispersion
 from probe.errors import InputError
 
 HBAR = sc.hbar
 KB = sc.k
+#: Riemann zeta(3/2), the ideal Bose gas's critical density n lambda_T^3 at T_c
+#: (tests/test_constants.py checks it against scipy.special.zeta)
+_ZETA_3_2 = 2.612375348685488343348567567
 
 
 def _positive(key, value, allow_zero=False):
@@ -197,7 +199,7 @@ class Condensate:
         if self.dimension != 3:
             return None
         return (2 * math.pi * HBAR**2 / (self.mass * KB)
-                * (self.density / zeta(1.5)) ** (2 / 3))
+                * (self.density / _ZETA_3_2) ** (2 / 3))
 
     @property
     def degeneracy_temperature(self):

@@ -25,7 +25,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.errors import InputError
 from probe.gas.condensate import Condensate

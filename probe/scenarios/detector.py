@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.detectors import PROBE_MODELS, ProbeModel, coupling_from_scattering_length
 from probe.errors import InputError

@@ -45,17 +45,16 @@ import math
 import re
 import atexit
 import hashlib
-import os
-import pickle
 import sys
-import tempfile
 import threading
 from importlib import resources
 from pathlib import Path
 
 import numpy as np
-from scipy import constants as sc
 
+from probe import constants as sc
+from probe.cache import CACHE_ENV, cache_dir  # noqa: F401 - CACHE_ENV: the cache's switch
+from probe.cache import read_cache as _read_cache, write_cache as _write_cache
 from probe.errors import InputError
 
 _CODATA = sc.physical_constants
@@ -93,8 +92,6 @@ CODATA_DEFINITIONS = (
 #: by the numerical sound speed of the gas in ``parse_quantity``
 GAS_SOUND_SPEED = "gas_sound_speed = [gas_speed] = c_s"
 
-#: environment variable naming the folder of the registry cache (empty: no cache)
-CACHE_ENV = "PROBE_CACHE_DIR"
 #: raised when what the cache holds changes shape
 _CACHE_FORMAT = 1
 
@@ -125,17 +122,6 @@ def _pint():
     return _PINT
 
 
-def cache_dir():
-    """The folder of the parsed unit definitions: ``$PROBE_CACHE_DIR``, else
-    ``$XDG_CACHE_HOME/condensate-probe``, else ``~/.cache/condensate-probe``;
-    None when ``PROBE_CACHE_DIR`` is set empty (no cache)."""
-    env = os.environ.get(CACHE_ENV)
-    if env is not None:
-        return Path(env) if env.strip() else None
-    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
-    return Path(base) / "condensate-probe"
-
-
 def _definitions_file():
     return resources.files("pint") / "default_en.txt"
 
@@ -158,41 +144,6 @@ def _parse_definitions(reg):
     parsed = [parser.parse_file(str(_definitions_file()))]
     parsed += [parser.parse_string(line) for line in CODATA_DEFINITIONS]
     return [d for project in parsed for d in parser.iter_parsed_project(project)]
-
-
-def _read_cache(path, key, kind=list):
-    """What is stored under ``key`` (a ``kind``), or None (missing,
-    unreadable, truncated by a concurrent writer, or from another key)."""
-    try:
-        with open(path, "rb") as fh:
-            stored_key, content = pickle.load(fh)
-    except Exception:  # noqa: BLE001 - a cache that cannot be read is rebuilt
-        return None
-    if stored_key != key or not isinstance(content, kind):
-        return None
-    return content
-
-
-def _write_cache(path, key, content):
-    """Store ``content`` atomically (a temporary file renamed over the
-    cache file, so that a reader sees the old file or the new one, never a
-    half-written one); a folder that cannot be written is left alone."""
-    tmp = None
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=path.name, suffix=".tmp")
-        with os.fdopen(fd, "wb") as fh:
-            pickle.dump((key, content), fh, protocol=pickle.HIGHEST_PROTOCOL)
-        os.replace(tmp, path)
-        tmp = None
-    except OSError:
-        pass
-    finally:
-        if tmp is not None:
-            try:
-                os.unlink(tmp)
-            except OSError:
-                pass
 
 
 def _empty_registry(pint):

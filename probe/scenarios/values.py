@@ -7,8 +7,9 @@ from __future__ import annotations
 import re
 
 import numpy as np
-from scipy import constants as sc
 
+from probe import constants as sc
+from probe.cache import Memo, installed_stamp
 from probe.errors import InputError
 from probe.scenarios.keys import suggest
 from probe.scenarios.spelling import with_hint
@@ -91,11 +92,17 @@ def not_applicable(body, section, keys, reason):
 _SPECIES = re.compile(r"^\s*(?:(\d+)\s*-?\s*([A-Za-z]{1,2})|([A-Za-z]{1,2})\s*-?\s*(\d+))\s*$")
 
 
+#: isotope masses already looked up (``(symbol, mass number)`` -> u), kept in
+#: the cache folder while the same ``periodictable`` is installed: importing it
+#: builds its whole table, a tenth of a small command's start-up
+_ISOTOPE_MASSES = Memo("isotopes-1", lambda: installed_stamp(
+    "periodictable", "__init__.py", "mass.py", "core.py"))
+
+
 def species_mass(species, key="condensate.species"):
     """Atomic mass (kg) of an isotope written like ``"87Rb"`` (or ``"Rb87"``,
-    ``"Rb-87"``), from the ``periodictable`` package."""
-    import periodictable
-
+    ``"Rb-87"``), from the ``periodictable`` package (a mass looked up once
+    is read back from the cache folder by later runs: ``probe.cache``)."""
     if not isinstance(species, str):
         raise InputError(key, f"must be an isotope such as \"87Rb\", got {species!r}")
     m = _SPECIES.match(species)
@@ -104,11 +111,21 @@ def species_mass(species, key="condensate.species"):
                               "and element symbol, e.g. \"87Rb\", \"23Na\", \"39K\"")
     a_text, sym = (m.group(1), m.group(2)) if m.group(1) else (m.group(4), m.group(3))
     sym = sym[0].upper() + sym[1:].lower()
+    mass_u = _ISOTOPE_MASSES.get((sym, int(a_text)))
+    if mass_u is None:
+        mass_u = _isotope_mass(species, key, sym, int(a_text))
+        _ISOTOPE_MASSES.put((sym, int(a_text)), mass_u)
+    return mass_u * sc.atomic_mass
+
+
+def _isotope_mass(species, key, sym, a):
+    """Mass (u) of isotope ``a`` of element ``sym`` from ``periodictable``."""
+    import periodictable
+
     try:
         element = periodictable.elements.symbol(sym)
     except ValueError:
         raise InputError(key, f"{species!r}: unknown element symbol {sym!r}") from None
-    a = int(a_text)
     try:
         iso = element[a]
     except KeyError:
@@ -119,7 +136,7 @@ def species_mass(species, key="condensate.species"):
     mass_u = iso.mass
     if mass_u is None or not np.isfinite(mass_u):
         raise InputError(key, f"{species!r}: no mass tabulated for this isotope")
-    return float(mass_u) * sc.atomic_mass
+    return float(mass_u)
 
 
 def mass(body, species_key, mass_key, default=None, default_label=None):

@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.engines.regime.limits import (GAS_PARAMETER_1D_LIMIT, GAS_PARAMETER_2D_LIMIT,
                                          GAS_PARAMETER_3D_LIMIT, PHONON_KXI_LIMIT,

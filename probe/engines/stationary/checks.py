@@ -7,9 +7,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
-from probe.engines.stationary.circular import TOO_MANY_HARMONICS, circular_work
+from probe.engines.stationary.circular import TOO_MANY_HARMONICS, circular_works
 from probe.engines.stationary.limits import (AT_THRESHOLD, CUT, EPS, GAP_RANGE,
                                              MAX_HARMONICS, MAX_RELATIVE_ERROR,
                                              MAX_SPEED_OVER_C, MIN_RADIUS_OVER_XI,
@@ -244,37 +244,47 @@ def _max_of(x):
 
 
 def _clearly_cheap(gas, R, v, W, s, limit):
-    """A few-flop upper estimate of the circular sum's work: True when it is
-    far below the limits, so that ``circular_work`` (about 0.5 ms) is not
-    needed.  Harmonics reach about omega(q_hi) R/v with q_hi beyond the
-    window edge (q^2/2 > v q + W for Bogoliubov), plus the negative ones
-    (W R/v) and Kapteyn's tail, which is short (a few hundred terms) unless
-    v is near c; each 3D harmonic costs about 2 q R + 48 Bessel terms."""
-    if 0.9 < v < 1.1:
-        return False
+    """A few-flop upper estimate of the circular sum's work, per point
+    (arrays): True when it is far below the limits, so that
+    ``circular_works`` is not needed.  Harmonics reach about
+    omega(q_hi) R/v with q_hi beyond the window edge (q^2/2 > v q + W for
+    Bogoliubov), plus the negative ones (W R/v) and Kapteyn's tail, which is
+    short (a few hundred terms) unless v is near c; each 3D harmonic costs
+    about 2 q R + 48 Bessel terms."""
     qcut = math.sqrt(CUT) / s if s > 0 else math.inf
-    if gas.disp.bounded_windows:
-        q_hi = v + math.sqrt(v * v + 2 * W) + 2
-    else:
-        q_hi = W / (1 - v) + 2 if v < 1 else math.inf
-    q_hi = min(q_hi, qcut)
-    if not math.isfinite(q_hi):
-        return False
-    w_hi = float(gas.disp.omega(np.array([q_hi]))[0])
-    harmonics = R * (w_hi + 2 * W) / v + 2 * R * q_hi + 2000
-    if harmonics > 2e5:
-        return False
-    return gas.d != 3 or harmonics * (2 * q_hi * R + 48) < 0.01 * limit
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if gas.disp.bounded_windows:
+            q_hi = v + np.sqrt(v * v + 2 * W) + 2
+        else:
+            q_hi = np.where(v < 1, W / np.where(v < 1, 1 - v, 1.0) + 2, math.inf)
+        q_hi = np.minimum(q_hi, qcut)
+        fin = np.isfinite(q_hi)
+        w_hi = gas.disp.omega(np.where(fin, q_hi, 0.0))
+        harmonics = R * (w_hi + 2 * W) / v + 2 * R * q_hi + 2000
+        cheap = fin & ~((0.9 < v) & (v < 1.1)) & (harmonics <= 2e5)
+        if gas.d == 3:
+            cheap &= harmonics * (2 * q_hi * R + 48) < 0.01 * limit
+    return cheap
 
 
 def work_check(gas, R, v, W, s, rtol, limit, npoints):
     """ModelError before a circular sum predicted to need more than ``limit``
-    Bessel-function evaluations or more harmonics than the kernel sums."""
-    if gas.disp.bounded_windows is False and v >= 1 and s == 0:
-        return              # the kernel itself reports this divergence
-    if _clearly_cheap(gas, R, v, W, s, limit):
-        return              # the kernel's running counts still stop runaways
-    harmonics, evals = circular_work(gas, R, v, W, s, rtol)
+    Bessel-function evaluations or more harmonics than the kernel sums
+    (arrays R, v > 0, W over points: the first such point is named)."""
+    R, v, W = (np.asarray(a, float).ravel() for a in np.broadcast_arrays(R, v, W))
+    # a supersonic point probe in the phonon spectrum: the kernel itself
+    # reports the divergence
+    diverges = (v >= 1) & (gas.disp.bounded_windows is False) & (s == 0)
+    # the kernel's running counts still stop runaways of the cheap ones
+    todo = np.nonzero(~diverges & ~_clearly_cheap(gas, R, v, W, s, limit))[0]
+    if todo.size == 0:
+        return
+    counts, work = circular_works(gas, R[todo], v[todo], W[todo], s, rtol)
+    bad = ~np.isfinite(counts) | (counts > MAX_HARMONICS) | (work > limit)
+    if not bad.any():
+        return
+    j = int(np.nonzero(bad)[0][0])
+    R, v, harmonics, evals = R[todo[j]], v[todo[j]], counts[j], work[j]
     where = f"at radius {R:.4g} xi and speed {v:.4g} c_s" + (
         " (one of the grid points)" if npoints > 1 else "")
     if not math.isfinite(harmonics) or harmonics > MAX_HARMONICS:

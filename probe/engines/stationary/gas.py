@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.engines.stationary.limits import CUT
 

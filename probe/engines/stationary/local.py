@@ -14,7 +14,7 @@ sample, so that a detector whose gap and couplings follow the local density
 from __future__ import annotations
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.detectors.base import RateContext
 from probe.engines.stationary.checks import threshold_checks

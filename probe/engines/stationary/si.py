@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 
 from probe.detectors.base import RateContext
 from probe.engines.regime import regime_warnings
@@ -20,7 +20,7 @@ from probe.engines.results import RateResult
 from probe.engines.stationary.checks import (broadcast_shape, check_array, check_rtol,
                                              error_check, guard, range_checks,
                                              threshold_checks, work_check)
-from probe.engines.stationary.circular import circular_kernel
+from probe.engines.stationary.circular import circular_kernels
 from probe.engines.stationary.gas import kernel_gas
 from probe.engines.stationary.inertial import inertial_kernel
 from probe.engines.stationary.limits import (BESSEL_ACCURACY, MAX_BESSEL_EVALUATIONS,
@@ -204,27 +204,27 @@ def circular_rates(condensate, probe, radius, speed, gap=None, rtol=1e-8,
 
 
 def _circular_points(gas, Rf, vf, Wf, gapped, rtol, max_bessel_evaluations):
-    """The circular kernel point by point (a probe at rest by the inertial
-    kernel): dimensionless values and errors per process, harmonics used."""
+    """The circular kernel on all moving points at once (a probe at rest by
+    the inertial kernel): dimensionless values and errors per process,
+    harmonics used."""
     n = Rf.size
     keys = _GAPPED if gapped else _GAPLESS
     vals = {k: np.zeros(n) for k in keys}
     errs = {k: np.zeros(n) for k in keys}
     harmonics = np.zeros(n, dtype=int)
-    for i in range(n):
-        if vf[i] == 0:
-            o = inertial_kernel(gas, np.array([0.0]), np.array([Wf[i]]), gas.s,
-                                rtol=rtol, energy=not gapped)
-            for k in keys:
-                vals[k][i] = o[k][0][0]
-                errs[k][i] = o[k][1][0]
-            continue
-        work_check(gas, Rf[i], vf[i], Wf[i], float(gas.s), rtol,
-                   max_bessel_evaluations, n)
-        o = circular_kernel(gas, Rf[i], vf[i], Wf[i], float(gas.s), rtol=rtol,
-                            energy=not gapped,
-                            max_evaluations=2 * max_bessel_evaluations)
+    for i in np.nonzero(vf == 0)[0]:
+        o = inertial_kernel(gas, np.array([0.0]), np.array([Wf[i]]), gas.s,
+                            rtol=rtol, energy=not gapped)
         for k in keys:
-            vals[k][i], errs[k][i] = o[k]
-        harmonics[i] = o["harmonics"]
+            vals[k][i] = o[k][0][0]
+            errs[k][i] = o[k][1][0]
+    moving = np.nonzero(vf != 0)[0]
+    if moving.size:
+        work_check(gas, Rf[moving], vf[moving], Wf[moving], float(gas.s), rtol,
+                   max_bessel_evaluations, n)
+        o = circular_kernels(gas, Rf[moving], vf[moving], Wf[moving], float(gas.s), rtol=rtol,
+                             energy=not gapped, max_evaluations=2 * max_bessel_evaluations)
+        for k in keys:
+            vals[k][moving], errs[k][moving] = o[k]
+        harmonics[moving] = o["harmonics"]
     return vals, errs, harmonics

@@ -10,7 +10,7 @@ import os
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import constants as sc
+from probe import constants as sc
 from scipy.optimize import brentq
 
 from probe.engines.transit.geometry import Geometry, path_samples
