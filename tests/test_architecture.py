@@ -203,6 +203,16 @@ def test_nothing_outside_the_gas_asks_which_dispersion_it_holds():
     assert hits == [], "\n".join(hits)
 
 
+def test_constants_have_one_home():
+    # every module takes its physical constants from probe.constants (the
+    # CODATA values of scipy.constants, kept in the cache folder; that a
+    # command imports no scipy at all is checked by tests/test_startup.py)
+    hits = (_lines_with("scipy.constants", "probe/", outside=("probe/constants.py",))
+            + _lines_with("from scipy import constants", "", outside=("probe/constants.py",)))
+    hits = [h for h in hits if not h.split(": ", 1)[1].startswith(("#", '"', "``", "(", "G)"))]
+    assert hits == [], "\n".join(hits)
+
+
 def test_trajectories_never_import_probe():
     # pure kinematics: the paths know nothing of gases or probes
     hits = {(module, target) for module, (_, tree) in SOURCES.items()
