@@ -24,30 +24,20 @@ from __future__ import annotations
 
 import html
 import json
-import math
 
 import numpy as np
 
 from probe.errors import InputError
-from probe.quantities import QUANTITIES, table_unit
+from probe.quantities import QUANTITIES, num, table_unit
 
 #: rows shown of a long array or a sweep (the rest summarised in one line)
 MAX_ROWS = 30
 
 
-def _number(x):
-    x = float(x)
-    if math.isnan(x):
-        return "nan"
-    if math.isinf(x):
-        return "inf" if x > 0 else "-inf"
-    return f"{x:.6g}"
-
-
 def _scaled(name, value, dimension):
     """``(text, unit)`` of a registered quantity in its table unit."""
     unit, scale = table_unit(QUANTITIES[name].kind, dimension)
-    return _number(float(value) / scale), unit
+    return num(float(value) / scale), unit
 
 
 def _quantity_rows(values, dimension):
@@ -77,7 +67,7 @@ def _array_rows(values, dimension):
     head = [f"{QUANTITIES[n].label} [{table_unit(QUANTITIES[n].kind, dimension)[0]}]"
             for n in names]
     scales = [table_unit(QUANTITIES[n].kind, dimension)[1] for n in names]
-    rows = [[_number(np.nan if values[n][i] is None else values[n][i] / s)
+    rows = [[num(np.nan if values[n][i] is None else values[n][i] / s)
              for n, s in zip(names, scales)] for i in range(min(size, MAX_ROWS))]
     return head, rows
 
@@ -117,7 +107,7 @@ def sweep_html(result):
     """HTML of a sweep: the grid, then the first rows of its table."""
     axes = ", ".join(f"{a.key} ({a.size} values, {a.unit})" for a in result.axes)
     head = [f"{c} [{u}]" for c, u in zip(result.columns, result.units)] + ["warnings"]
-    rows = [[_number(x) for x in result.data[i]] + [result.warnings[i]]
+    rows = [[num(x) for x in result.data[i]] + [result.warnings[i]]
             for i in range(min(result.data.shape[0], MAX_ROWS))]
     more = result.data.shape[0] - len(rows)
     tail = f"<p>... {more} more rows</p>" if more > 0 else ""

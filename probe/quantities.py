@@ -158,6 +158,23 @@ def significant(x, digits=GRID_DIGITS):
     return out if out.ndim else float(out)
 
 
+def num(x, digits=6):
+    """A number as printed in tables and notebooks: ``digits`` significant
+    digits, ``nan``/``inf``/``-inf`` spelled out, ``-`` for None; arrays
+    element-wise in brackets."""
+    if x is None:
+        return "-"
+    a = np.asarray(x)
+    if a.ndim:
+        return "[" + ", ".join(num(v, digits) for v in a.ravel()) + "]"
+    x = float(a)
+    if math.isnan(x):
+        return "nan"
+    if math.isinf(x):
+        return "inf" if x > 0 else "-inf"
+    return f"{x:.{digits}g}"
+
+
 def display_text(kind, value, digits=6):
     """An SI ``value`` of ``kind`` as printed in tables and messages: in its
     table unit (:func:`table_unit`; a temperature in the unit that fits it,

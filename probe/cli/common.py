@@ -14,7 +14,7 @@ import numpy as np
 from probe import constants as sc
 
 from probe.errors import InputError, ModelError
-from probe.quantities import error_names, in_registry_order, quantity, table_unit
+from probe.quantities import error_names, in_registry_order, num, quantity, table_unit
 
 EXIT_INPUT = 2
 
@@ -54,21 +54,6 @@ def fail(exc):
 # ---------------------------------------------------------------------------
 # Formatting
 # ---------------------------------------------------------------------------
-def num(x, digits=6):
-    """A number with ``digits`` significant digits; arrays element-wise."""
-    if x is None:
-        return "-"
-    a = np.asarray(x)
-    if a.ndim:
-        return "[" + ", ".join(num(v, digits) for v in a.ravel()) + "]"
-    x = float(a)
-    if math.isnan(x):
-        return "nan"
-    if math.isinf(x):
-        return "inf" if x > 0 else "-inf"
-    return f"{x:.{digits}g}"
-
-
 def q(x, unit, scale=1.0):
     """``x / scale`` followed by its display unit."""
     if x is None:
