@@ -78,13 +78,15 @@ def _table_json(columns, units, rows):
 _Progress = Progress
 
 
-def _interrupted(out):
+def _interrupted(out, exc):
+    """The one line of an interrupted sweep; exit status 128 + the signal's
+    number, as a shell reports it (130 for Ctrl-C, 143 for SIGTERM)."""
     if out is None:
         click.echo("interrupted", err=True)
     else:
         click.echo(f"interrupted: finished rows are kept in {out}.partial; "
                    "run the same command with --resume to continue", err=True)
-    sys.exit(130)
+    sys.exit(128 + getattr(exc, "signum", 2))
 
 
 # ---------------------------------------------------------------------------
@@ -201,9 +203,9 @@ def sweep(config, vary, log, out, as_json, overrides, removals, resume, workers,
                     result = run(plan, vary, log, overrides, out=out, resume=resume,
                                  workers=workers, scheduler=scheduler, progress=bar,
                                  command=_command_line(), removals=removals)
-                except KeyboardInterrupt:
+                except KeyboardInterrupt as exc:
                     bar.close()
-                    _interrupted(out)
+                    _interrupted(out, exc)
             if plot is not None:
                 from probe.design.plots import plot_sweep
                 _stage_plot(outputs, plot, plot_sweep, result, quantity=quantity)
