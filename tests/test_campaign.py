@@ -130,7 +130,7 @@ def _check_ending(proc, err, sig, out):
         return
     if sig == signal.SIGKILL:
         assert proc.returncode == -signal.SIGKILL, err
-    elif proc.returncode == 130:
+    elif proc.returncode == 128 + signal.SIGTERM:          # 143, as a shell reports it
         assert err.strip().splitlines() == [
             f"interrupted: finished rows are kept in {out}.partial; run the same "
             "command with --resume to continue"], err
