@@ -13,6 +13,7 @@ c/xi unless said otherwise.
 from __future__ import annotations
 
 import math
+import warnings
 
 import numpy as np
 import pytest
@@ -155,6 +156,20 @@ def test_pair_route_error_bounds_the_true_error():
         assert dev <= 1e-3 * getattr(ref, name)
 
 
+def erf_difference(a, b):
+    """erf(b) - erf(a) for a <= b without cancellation: as erfc(a) - erfc(b)
+    when both are positive (erfc(-b) - erfc(-a) when both are negative), so
+    a difference far below 1 keeps its relative accuracy.  (erf(b) - erf(a)
+    of two numbers near 1 keeps only an absolute 1e-16: the up probability
+    of a subsonic crossing, exp(-(D + w - q v)^2 tau^2) at most, lies below
+    it over most of its q range, and quad then stops at rounding noise.)"""
+    if a >= 0:
+        return special.erfc(a) - special.erfc(b)
+    if b <= 0:
+        return special.erfc(-b) - special.erfc(-a)
+    return special.erf(b) - special.erf(a)
+
+
 def gaussian_crossing(d, gap, speed, tau, width):
     """Closed form (PHYSICS.md section 4, T = 0, Bogoliubov, q = k xi): on
     x = v t with chi = exp(-t^2/(2 tau^2)) the time integral is
@@ -177,14 +192,39 @@ def gaussian_crossing(d, gap, speed, tau, width):
         kv = q * speed
         if kv == 0:     # at rest: the limit of the erf difference, 2 exp(-X^2 tau^2)
             return q * q * weight(q) * g * 2 * math.exp(-(X * tau) ** 2) / (2 * math.pi) ** 2
-        ang = math.sqrt(math.pi) / (2 * kv * tau) * (special.erf((X + kv) * tau)
-                                                      - special.erf((X - kv) * tau))
+        ang = math.sqrt(math.pi) / (2 * kv * tau) * erf_difference((X - kv) * tau,
+                                                                   (X + kv) * tau)
         return q * q * weight(q) * g * 2 * math.pi * ang / (2 * math.pi) ** 3
 
     q_hi = 12.0 / max(width, 0.1)
-    val, err = integrate.quad(integrand, 0.0, q_hi, limit=400, epsabs=0, epsrel=1e-12,
-                              points=[0.5, 1, 2, 4])
+    with warnings.catch_warnings():
+        # a reference that quad cannot resolve to 1e-12 fails the test
+        warnings.simplefilter("error", integrate.IntegrationWarning)
+        val, err = integrate.quad(integrand, 0.0, q_hi, limit=400, epsabs=0, epsrel=1e-12,
+                                  points=[0.5, 1, 2, 4])
     return val
+
+
+def test_gaussian_crossing_reference_against_mpmath():
+    """The closed-form reference itself, for the subsonic 3D crossing whose up
+    probability (off resonance, ~1e-8 of the down one) is a difference of two
+    error functions near 1: scipy quad on the cancellation-free form against
+    the same integral at 30 digits by mpmath (erf in multiple precision,
+    quad split at the same points)."""
+    import mpmath
+
+    gap, speed, tau, width = 0.5, 0.6, 6.0, 0.7
+    with mpmath.workdps(30):
+        def integrand(q):
+            w = q * mpmath.sqrt(1 + q * q / 4)
+            X, kv = gap + w, q * speed
+            weight = q * q / 2 / w * mpmath.exp(-(q * width) ** 2)
+            ang = mpmath.sqrt(mpmath.pi) / (2 * kv * tau) * (mpmath.erf((X + kv) * tau)
+                                                              - mpmath.erf((X - kv) * tau))
+            return q * q * weight * 2 * mpmath.pi * tau ** 2 * 2 * mpmath.pi * ang \
+                / (2 * mpmath.pi) ** 3
+        ref = mpmath.quad(integrand, [mpmath.mpf("1e-30"), 0.5, 1, 2, 4, 12.0 / width])
+    assert gaussian_crossing(3, gap, speed, tau, width) == pytest.approx(float(ref), rel=1e-12)
 
 
 @pytest.mark.parametrize("d,speed", [(3, 1.4), (3, 0.6), (1, 1.4), (3, 0.0), (1, 0.0)])
