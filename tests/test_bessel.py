@@ -3,7 +3,7 @@ and against its own symmetry J_{-m} = (-1)^m J_m."""
 import mpmath as mp
 import numpy as np
 
-from probe.engines.bessel import jv_int
+from probe.engines.bessel import _debye, jv_error, jv_int
 
 
 def test_against_mpmath_all_regions():
@@ -28,3 +28,23 @@ def test_negative_orders():
     m = np.arange(0, 300.0)
     x = 1.3 * m + 2
     assert np.allclose(jv_int(-m, x), (-1.0) ** m * jv_int(m, x), rtol=0, atol=0)
+
+
+def test_debye_near_the_turning_point_against_mpmath():
+    """Orders 1e3 and 5e3 at 80-280 above and below the turning point, where
+    Debye's expansions need 11 to 18 corrections to reach 1e-16 (with ten
+    they fell back to scipy there): each value within its bound ``jv_error``
+    of mpmath.besselj at 30 digits (independent route)."""
+    cases = [(1000, d) for d in (90, 120, 160, -88, -120, -150)] + \
+        [(5000, d) for d in (150, 200, 270, -145, -200, -260)]
+    nu = np.array([float(n) for n, _ in cases])
+    x = np.array([n + d + 0.37 for n, d in cases])
+    r = np.sqrt(np.abs((x - nu) * (x + nu)))
+    out, use = np.empty(nu.size), np.zeros(nu.size, dtype=bool)
+    _debye(nu, x, r, out, use)
+    assert use.all()
+    with mp.workdps(30):
+        for n, xi, got in zip(nu, x, out):
+            ref = float(mp.besselj(int(n), mp.mpf(float(xi)), maxprec=20000))
+            err = float(jv_error(np.array([n]), np.array([xi]), np.array([got]))[0])
+            assert abs(got - ref) <= err, (n, xi, got, ref, err)

@@ -9,7 +9,7 @@ operations per value.  Their polynomials u_k follow from u_0 = 1 and
 ``r = sqrt(|x^2 - m^2|)`` and ``t = m/r`` the k-th correction is
 ``u_k(t)/m^k = sum_p c_p t^(p-k) / r^k``, which stays finite at m = 0 (where
 the oscillatory form becomes Hankel's large-argument expansion).  Terms up to
-k = 10 are kept; where the last kept term exceeds 1e-16 (near the turning
+k = 18 are kept; where the last kept term exceeds 1e-16 (near the turning
 point, or for small r) the value comes from scipy's ``jv`` instead, and so
 do all values of calls with fewer than 512 (where scipy alone is faster).
 
@@ -25,7 +25,7 @@ from fractions import Fraction
 import numpy as np
 
 #: number of Debye corrections kept
-_ORDERS = 10
+_ORDERS = 18
 #: accept the expansion where its last kept term is below this
 _LAST_TERM = 1e-16
 _EPS = float(np.finfo(float).eps)
@@ -52,49 +52,62 @@ def _debye_polynomials(K):
     return us
 
 
-# u_k(t) = sum_p c_p t^p, as floats, highest power first: (k, [(p, c), ...])
-_U = [(k, sorted(((p, float(c)) for p, c in u.items()), reverse=True))
-      for k, u in enumerate(_debye_polynomials(_ORDERS)) if k]
+# u_k(t) = sum_p c_p t^p (p - k even) as the coefficients of sum_p c_p t^(p-k), a
+# polynomial in t^2, highest power first; at i t (the oscillatory region) each
+# c_p takes the sign (-1)^(p//2) (and a factor i when p is odd)
+_U = {osc: [(k, tuple(c * ((-1.0) ** (p // 2) if osc else 1.0)
+                      for p, c in sorted(((p, float(c)) for p, c in u.items()), reverse=True)))
+            for k, u in enumerate(_debye_polynomials(_ORDERS)) if k]
+      for osc in (True, False)}
+#: orders after which values whose term fell below 1e-19 stop (the rest is smaller)
+_CHECKS = frozenset((4, 6, 8, 10, 12, 14, 16, _ORDERS))
 
 
 def _corrections(t, r, oscillatory):
     """Even and odd sums of u_k/m^k (k = 1.._ORDERS) and the size of the last
     term.  Oscillatory region: u_k is evaluated at i t; the even terms are
     real and the odd ones imaginary, returned as their real coefficients.
-    A value whose term falls below 1e-19 stops there (the rest is smaller)."""
-    even = np.zeros_like(t)
-    odd = np.zeros_like(t)
-    last = np.zeros_like(t)
-    act = np.arange(t.size)
-    t2, rinv = t * t, 1.0 / r
+    A value whose term has fallen below 1e-19 at one of the orders _CHECKS
+    stops there (the rest is smaller)."""
+    even = np.empty_like(t)
+    odd = np.empty_like(t)
+    last = np.empty_like(t)
+    act = None                                  # all values still summing
+    ev, od, t2 = np.zeros_like(t), np.zeros_like(t), t * t
+    rinv = 1.0 / r
     rk = np.ones_like(r)
-    for k, coeffs in _U:
-        rk = rk * rinv
-        acc = np.zeros_like(t2)
-        for p, c in coeffs:
-            if oscillatory:               # (i t)^p = i^p t^p, i^p = (-1)^(p//2) (x i if odd)
-                c = c * (-1.0) ** (p // 2)
-            acc = acc * t2 + c            # sum_p c_p t^(p-k), p - k even
-        term = acc * rk
-        if k % 2:
-            odd[act] += term
-        else:
-            even[act] += term
+    for k, coeffs in _U[oscillatory]:
+        rk *= rinv
+        term = np.full_like(t2, coeffs[0])
+        for c in coeffs[1:]:
+            term *= t2
+            term += c
+        term *= rk
+        (od if k % 2 else ev)[...] += term
+        if k not in _CHECKS:
+            continue
         size = np.abs(term)
-        last[act] = size
-        if k >= 3:
-            keep = size >= _LAST_TERM * 1e-3
-            if not keep.any():
-                break
-            act, t2, rinv, rk = act[keep], t2[keep], rinv[keep], rk[keep]
+        keep = size >= _LAST_TERM * 1e-3
+        stop = act if act is not None else slice(None)
+        if k == _ORDERS or not keep.any():
+            even[stop], odd[stop], last[stop] = ev, od, size
+            break
+        if keep.all():
+            continue
+        done = ~keep
+        idx = np.nonzero(done)[0] if act is None else act[done]
+        even[idx], odd[idx], last[idx] = ev[done], od[done], size[done]
+        act = np.nonzero(keep)[0] if act is None else act[keep]
+        ev, od, t2, rinv, rk = ev[keep], od[keep], t2[keep], rinv[keep], rk[keep]
     return even, odd, last
 
 
 def _debye(nu, x, r, out, use):
     """Debye's expansions where they converge to 1e-16; fills ``out`` and
     marks ``use``."""
-    # ten corrections reach 1e-16 only for r >~ 60 and r >~ 4 nu^(2/3) (found
-    # by scanning r at nu = 0 ... 1e4): below these the trial is skipped
+    # the corrections reach 1e-16 only for r >~ 60 and r >~ 4 nu^(2/3) (found
+    # by scanning r at nu = 0 ... 1e4 with ten of them; more reach a little
+    # closer to the turning point): below these the trial is skipped
     cand = (r > 30.0) & (15 * nu * nu < r**3)
     for osc in (True, False):
         sel = cand & ((x > nu) if osc else (x < nu))
