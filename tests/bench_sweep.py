@@ -1,16 +1,28 @@
 """Benchmark of the sweep machinery (run by hand, not collected by pytest):
 
-    python tests/bench_sweep.py [N]
+    python tests/bench_sweep.py [N] [--repeat K]
 
 A N x N (default 200 x 200) map of the circular engine over speed (0.2 to
 2 c_s) and radius (2 to 50 um, log-spaced) for the quasi-2D 23Na gas of
 examples/ring2d_circular.toml (healing length 1.14 um), written to a CSV
 exactly as `probe sweep ... --out` does, once with one worker and once with
-`--workers 2`.  Prints both wall times, the time per point, the ratio, how
-busy the machine's cores were meanwhile (/proc/stat) and how much of that
-was this sweep (its processes' CPU time, /proc/PID/stat) and how much other
-programs, with the load average before and after, and checks that the two
-files are byte-identical.  Single-threaded numerics:
+`--workers 2`, K times (default 1), the two alternating.  Every run is a
+fresh Python process (as every `probe sweep` is: the fork server that
+starts the workers starts inside the timing), which imports the package and
+computes a small warm-up sweep with one worker before the timed one.
+
+Per run it prints the wall time, how busy the machine's cores were
+meanwhile (/proc/stat) and how much of that was this sweep (its processes'
+CPU time, /proc/PID/stat, split into the sweep's own process, the helper
+processes below it (the fork server) and the workers below those) and how
+much other programs, with the load average.  At the end: the median wall
+times and their ratio, and, since other programs on a shared machine slow
+the 2-worker run most, the ratio from CPU time: the 1-worker run's CPU time
+over half the 2-worker run's (both cores working for the sweep until it
+ends: what a quiet machine gives when neither process waits for the other),
+and over its busiest chain of processes (the sweep's process, or the fork
+server and a worker after it: a quiet machine's wall time cannot be shorter).
+The files of all runs must be byte-identical.  Single-threaded numerics:
 OMP_NUM_THREADS etc. are set to 1 before numpy loads.
 """
 import os
@@ -18,12 +30,14 @@ import os
 for _v in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_v, "1")
 
+import hashlib  # noqa: E402
+import json  # noqa: E402
+import statistics  # noqa: E402
+import subprocess  # noqa: E402
 import sys  # noqa: E402
 import tempfile  # noqa: E402
 import time  # noqa: E402
 from pathlib import Path  # noqa: E402
-
-from probe.design.sweep import sweep  # noqa: E402
 
 RING = str(Path(__file__).resolve().parent.parent / "examples" / "ring2d_circular.toml")
 
@@ -42,8 +56,9 @@ def _busy():
 
 
 def _tree():
-    """{pid: CPU seconds} of this process and every process below it (the
-    fork server and the workers), from /proc; {} elsewhere."""
+    """{pid: (depth, CPU seconds)} of this process (depth 0) and every
+    process below it (1: the fork server, 2: the workers it forked), from
+    /proc; {} elsewhere."""
     tick = os.sysconf("SC_CLK_TCK")
     parents, cpu = {}, {}
     try:
@@ -59,11 +74,12 @@ def _tree():
         f = stat[stat.rindex(")") + 2:].split()
         parents[int(e)] = int(f[1])
         cpu[int(e)] = (int(f[11]) + int(f[12])) / tick
-    mine, frontier = {os.getpid()}, {os.getpid()}
+    depth, frontier, level = {os.getpid(): 0}, {os.getpid()}, 0
     while frontier:
-        frontier = {p for p, pp in parents.items() if pp in frontier} - mine
-        mine |= frontier
-    return {p: cpu[p] for p in mine if p in cpu}
+        level += 1
+        frontier = {p for p, pp in parents.items() if pp in frontier} - set(depth)
+        depth.update((p, level) for p in frontier)
+    return {p: (d, cpu[p]) for p, d in depth.items() if p in cpu}
 
 
 class _Own:
@@ -77,64 +93,107 @@ class _Own:
     def __call__(self, n):
         self.last.update(_tree())
 
-    def seconds(self):
+    def split(self):
+        """CPU seconds of (this process, helpers, workers) since the start."""
         self.last.update(_tree())
-        return sum(v - self.start.get(p, 0.0) for p, v in self.last.items())
+        out = [0.0, 0.0, 0.0]
+        for p, (d, v) in self.last.items():
+            out[min(d, 2)] += v - self.start.get(p, (d, 0.0))[1]
+        return out, max((v - self.start.get(p, (d, 0.0))[1]
+                         for p, (d, v) in self.last.items() if d >= 2), default=0.0)
 
 
-def run(n, workers, out):
+def _one(n, workers, out):
+    """One timed run in this process (after a warm-up): a JSON line."""
+    from probe.design.sweep import sweep
+
+    sweep(RING, [("trajectory.speed", "0.5 c_s", "1 c_s", 2)])       # warm-up
     vary = [("trajectory.speed", "0.2 c_s", "2 c_s", n),
             ("trajectory.radius", "2 um", "50 um", n)]
     own = _Own()
-    b0, t0 = _busy(), time.perf_counter()
+    load, b0, t0 = os.getloadavg()[0], _busy(), time.perf_counter()
     res = sweep(RING, vary, log=("trajectory.radius",), out=out, workers=workers,
                 progress=own)
     wall = time.perf_counter() - t0
     busy = None if b0 is None else _busy() - b0
-    return wall, busy, own.seconds(), res
+    split, worker = own.split()
+    harm = res.column("harmonics")
+    print(json.dumps({"wall": wall, "busy": busy, "split": split, "worker": worker,
+                      "load": [load, os.getloadavg()[0]],
+                      "sha": hashlib.sha256(Path(out).read_bytes()).hexdigest(),
+                      "harmonics": [float(harm.mean()), float(harm.max())]}))
 
 
-def _line(label, wall, busy, own, n):
+def _run(n, workers, out):
+    done = subprocess.run([sys.executable, __file__, "--one", str(n), str(workers), str(out)],
+                          capture_output=True, text=True, check=True)
+    return json.loads(done.stdout.strip().splitlines()[-1])
+
+
+def _line(label, r, n):
     cores = os.cpu_count() or 1
-    text = f"  {label}: {wall:7.2f} s wall  ({wall / n**2 * 1e3:.3f} ms per point)"
-    if busy is not None:
-        others = max(0.0, busy - own)
-        text += (f"; cores busy {100 * busy / (cores * wall):.0f} % of {cores}: this sweep "
-                 f"{own:.1f} s of CPU, other programs {others:.1f} s "
-                 f"({others / wall:.2f} cores on average)")
-    return text, (None if busy is None else max(0.0, busy - own) / wall)
+    wall, own = r["wall"], sum(r["split"])
+    text = (f"  {label}: {wall:6.2f} s wall ({wall / n**2 * 1e3:.2f} ms per point), "
+            f"load {r['load'][0]:.2f} -> {r['load'][1]:.2f}; CPU of this sweep {own:.2f} s "
+            f"(its process {r['split'][0]:.2f}, fork server {r['split'][1]:.2f}, "
+            f"workers {r['split'][2]:.2f})")
+    if r["busy"] is not None:
+        others = max(0.0, r["busy"] - own)
+        text += (f"; cores busy {100 * r['busy'] / (cores * wall):.0f} % of {cores}, "
+                 f"other programs {others / wall:.2f} cores on average")
+    return text
+
+
+def _others(r):
+    return None if r["busy"] is None else max(0.0, r["busy"] - sum(r["split"])) / r["wall"]
+
+
+def _summary(ones, twos):
+    med = statistics.median
+    w1, w2 = med(r["wall"] for r in ones), med(r["wall"] for r in twos)
+    c1 = med(sum(r["split"]) for r in ones)
+    half = med(sum(r["split"]) / 2 for r in twos)
+    chain = med(max(r["split"][0], r["split"][1] + r["worker"]) for r in twos)
+    print(f"median wall: 1 worker {w1:.2f} s, 2 workers {w2:.2f} s: {w1 / w2:.2f}x")
+    print(f"from CPU time: 1 worker {c1:.2f} s; 2 workers {2 * half:.2f} s in all, "
+          f"{c1 / half:.2f}x with both cores working for the sweep to its end, "
+          f"{c1 / chain:.2f}x by its busiest chain of processes ({chain:.2f} s)")
+    others = [x for x in map(_others, ones + twos) if x is not None]
+    if others:
+        quiet = max(others) < 0.1
+        print(f"other programs kept {min(others):.2f} to {max(others):.2f} cores busy during "
+              "the runs: " + ("a quiet machine" if quiet else
+                              "a shared machine; the wall-clock ratio of a quiet one needs "
+                              "all near 0 (the CPU-time ratios estimate it)"))
 
 
 def main():
-    n = int(sys.argv[1]) if len(sys.argv) > 1 else 200
-    print(f"load average before: {os.getloadavg()[0]:.2f} (other processes on the "
-          "machine slow the 2-worker run most)")
-    print(f"{n} x {n} = {n * n} points, circular engine, 2D gas "
-          f"(ring2d_circular.toml), speed 0.2..2 c_s, radius 2..50 um (log); "
-          f"{os.cpu_count()} CPUs")
-    # imports and first calls outside the timings (the worker processes are
-    # started inside the timing, as in every `probe sweep --workers 2`)
-    sweep(RING, [("trajectory.speed", "0.5 c_s", "1 c_s", 2)])
+    args = sys.argv[1:]
+    if args and args[0] == "--one":
+        return _one(int(args[1]), int(args[2]), args[3])
+    repeat = 1
+    if "--repeat" in args:
+        k = args.index("--repeat")
+        repeat, args = int(args[k + 1]), args[:k] + args[k + 2:]
+    n = int(args[0]) if args else 200
+    print(f"{n} x {n} = {n * n} points, circular engine, 2D gas (ring2d_circular.toml), "
+          f"speed 0.2..2 c_s, radius 2..50 um (log); {os.cpu_count()} CPUs; "
+          f"load average before: {os.getloadavg()[0]:.2f}")
+    ones, twos, shas = [], [], set()
     with tempfile.TemporaryDirectory() as tmp:
-        one, busy1, own1, res1 = run(n, 1, Path(tmp) / "one.csv")
-        text, others1 = _line("1 worker ", one, busy1, own1, n)
-        print(text, flush=True)
-        two, busy2, own2, res2 = run(n, 2, Path(tmp) / "two.csv")
-        text, others2 = _line("2 workers", two, busy2, own2, n)
-        print(text, flush=True)
-        same = (Path(tmp) / "one.csv").read_bytes() == (Path(tmp) / "two.csv").read_bytes()
-    print(f"  load average after: {os.getloadavg()[0]:.2f}")
-    harm = res1.column("harmonics")
-    print(f"  speed-up {one / two:.2f}x with 2 workers; files identical: {same}; harmonics "
-          f"per point {harm.mean():.0f} mean, {harm.max():.0f} max")
-    if others1 is not None:
-        quiet = max(others1, others2) < 0.1
-        print(f"  other programs kept {others1:.2f} and {others2:.2f} cores busy during "
-              f"the two runs: " + ("a quiet machine" if quiet else
-                                   "a shared machine; the ratio of a quiet one needs "
-                                   "both near 0"))
-    if not same:
-        raise SystemExit("the two runs differ")
+        for k in range(repeat):
+            for workers in ((1, 2) if k % 2 == 0 else (2, 1)):
+                r = _run(n, workers, Path(tmp) / f"w{workers}_{k}.csv")
+                (ones if workers == 1 else twos).append(r)
+                shas.add(r["sha"])
+                print(_line(f"{workers} worker{'s' if workers > 1 else ' '}", r, n),
+                      flush=True)
+    harm = ones[0]["harmonics"]
+    print(f"files identical: {len(shas) == 1}; harmonics per point {harm[0]:.0f} mean, "
+          f"{harm[1]:.0f} max")
+    _summary(ones, twos)
+    if len(shas) != 1:
+        raise SystemExit("the runs' files differ")
 
 
 if __name__ == "__main__":

@@ -183,6 +183,9 @@ def sweep(config, vary, log, out, as_json, overrides, removals, resume, workers,
     """Rates (probabilities for a switched transit) on a 1D or 2D grid over
     numeric configuration keys, written to a CSV whose header names every
     column with its unit."""
+    if workers > 1 and scheduler is None:
+        from probe.design.workers import start_fork_server
+        start_fork_server()                  # imports the engine beside ours
     from probe.design.sweep import plan_sweep, sidecar_path, sweep as run
 
     try:

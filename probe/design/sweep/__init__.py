@@ -84,6 +84,7 @@ from probe.design.sweep.keys import (NUMERIC_KEYS, VECTOR_KEYS, assign, check_nu
                                      raw_config, value_text)
 from probe.design.sweep.planning import PlanningEvaluator, band_column
 from probe.design.sweep.runners import SweepStopped, make_tasks, run_dask, run_local
+from probe.design.workers import start_fork_server
 from probe.errors import InputError, ModelError
 from probe.quantities import si_unit
 
@@ -140,22 +141,23 @@ def _checked_workers(workers, scheduler):
     return workers
 
 
-#: tasks per worker at least (the last task of a worker decides when it ends)
-TASKS_PER_WORKER = 16
+#: an engine that evaluates point by point cuts a grid into this many tasks at
+#: least (fixed pieces, whatever the number of workers), so that the last
+#: tasks, which decide when the workers end, are short
+MIN_TASKS = 64
 
 
-def _chunk_size(plan, chunk_size, workers):
+def _chunk_size(plan, chunk_size):
     """Points per task: the evaluator's choice for the scenario (an
-    engine's chunk, one transit); fewer when local workers would otherwise
-    wait for the last tasks, where the points are computed one by one (an
-    engine that evaluates an array at once keeps its chunks, so that the
-    numbers do not depend on the workers or on what a resumed run had)."""
+    engine's chunk, one transit), fewer for a small grid of an engine that
+    computes point by point.  The pieces of the grid depend neither on the
+    workers nor on what a resumed run had (an engine that evaluates an array
+    at once may give digits that depend on the array's other points)."""
     ev = evaluator_for(plan.scenario)
     if chunk_size is None:
         chunk_size = ev.chunk(plan.scenario)
-        if workers > 1 and ev.pointwise(plan.scenario):
-            chunk_size = max(1, min(chunk_size,
-                                    math.ceil(plan.size / (TASKS_PER_WORKER * workers))))
+        if ev.pointwise(plan.scenario):
+            chunk_size = min(chunk_size, math.ceil(plan.size / MIN_TASKS))
     return max(1, int(chunk_size))
 
 
@@ -248,7 +250,7 @@ def _evaluate(plan, partial, progress, chunk_size, workers, scheduler, command, 
     partial file; the complete table put in place."""
     collect = _Collector(plan, partial, progress)
     todo = np.nonzero(~collect.done)[0]
-    tasks = make_tasks(plan, todo, _chunk_size(plan, chunk_size, workers))
+    tasks = make_tasks(plan, todo, _chunk_size(plan, chunk_size))
     if progress is not None and collect.done.any():
         progress(int(collect.done.sum()))
     t0 = time.perf_counter()
@@ -291,6 +293,8 @@ def sweep(config, vary, log=(), overrides=(), out=None, resume=False,
 
     Returns a :class:`SweepResult` (SI units).
     """
+    if scheduler is None and isinstance(workers, int) and workers > 1:
+        start_fork_server()            # its imports overlap the planning
     plan = config if isinstance(config, Plan) else plan_sweep(config, vary, log, overrides,
                                                               source=source,
                                                               removals=removals)

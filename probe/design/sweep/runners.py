@@ -7,11 +7,15 @@ configuration and the text of every file the scenario reads (read once when
 the sweep was planned: a worker never reads them from its own disk or
 working folder).
 
-Local workers (``run_local``): this process computes tasks itself while
-``workers - 1`` processes start in the background, then shares the rest
-with them.  Each worker watches a pipe from this process and exits as soon
-as it closes: when this process ends (even killed by SIGKILL) or stops the
-pool (an interrupt).  A Dask cluster (``run_dask``) that stops answering
+Local workers (``run_local``): ``workers - 1`` processes start in the
+background (forked from a fork server that has imported the engine:
+``probe.design.workers``) while this process computes; the workers take
+tasks from the start of the list, handed to them ahead, this process from
+its end, at last also those handed that no worker has begun (whoever
+begins a task claims it first), so that neither side waits while the other
+has work queued.  Each worker watches a pipe from this process and exits as
+soon as it closes: when this process ends (even killed by SIGKILL) or stops
+the pool (an interrupt).  A Dask cluster (``run_dask``) that stops answering
 ends the run with :class:`SweepStopped`; the rows already finished stay.
 """
 from __future__ import annotations
@@ -28,6 +32,7 @@ import numpy as np
 
 from probe.design.sweep.evaluators import evaluator_for
 from probe.design.sweep.keys import assign
+from probe.design.workers import worker_context
 from probe.errors import InputError, ModelError
 
 
@@ -186,38 +191,46 @@ def _watch_parent(life):
     os._exit(1)
 
 
-def _worker_init(life):
+#: in a worker: the pool's claims (one flag per task, shared by all processes)
+_CLAIMS = None
+
+
+def _claim(claims, i):
+    """True for the first process that claims task ``i`` (it computes it)."""
+    with claims.get_lock():
+        if claims[i]:
+            return False
+        claims[i] = 1
+        return True
+
+
+def _claimed_task(i, task):
+    """In a worker: the result of task ``i``, or None when another process
+    claimed it first."""
+    return run_task(task) if _claim(_CLAIMS, i) else None
+
+
+def _worker_init(life, claims):
     """In each worker: Ctrl-C goes to the sweep's process (which stops the
     pool), and the worker ends when that process does."""
     import signal
+    global _CLAIMS
+    _CLAIMS = claims
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     threading.Thread(target=_watch_parent, args=(life,), daemon=True,
                      name="sweep-parent-watch").start()
 
 
-def _context():
-    """Worker processes are started from a fork server that has imported the
-    engine (cheap to start; forking this process directly would share its
-    memory copy-on-write, which measurably slows the workers, and is unsafe
-    when it runs other threads); spawned where there is no fork server."""
-    import multiprocessing as mp
-
-    if "forkserver" in mp.get_all_start_methods():
-        ctx = mp.get_context("forkserver")
-        ctx.set_forkserver_preload(["probe.design.sweep", "probe.engines.stationary",
-                                    "probe.scenarios.config"])
-        return ctx
-    return mp.get_context("spawn")
-
-
 class LocalPool:
-    """``size`` worker processes, started in the background (starting them
-    takes a second or more: the caller computes meanwhile).  ``executor`` is
-    None until they are ready."""
+    """``size`` worker processes for ``tasks`` tasks, started in the
+    background (starting them takes a fraction of a second or more: the
+    caller computes meanwhile).  ``executor`` is None until they are ready;
+    ``claims`` holds a flag per task, set by the process that computes it."""
 
-    def __init__(self, size):
-        self.ctx = _context()
+    def __init__(self, size, tasks):
+        self.ctx = worker_context()
         self.size = size
+        self.claims = self.ctx.Array("b", tasks)
         self._life_r, self._life_w = self.ctx.Pipe(duplex=False)
         self.executor = None
         self.error = None
@@ -233,7 +246,8 @@ class LocalPool:
         ex = None
         try:
             ex = ProcessPoolExecutor(max_workers=self.size, mp_context=self.ctx,
-                                     initializer=_worker_init, initargs=(self._life_r,))
+                                     initializer=_worker_init,
+                                     initargs=(self._life_r, self.claims))
             # the first calls start the processes
             for fut in [ex.submit(os.getpid) for _ in range(self.size)]:
                 fut.result()
@@ -292,30 +306,76 @@ def _take(pending, handle, block):
         pending.discard(fut)
         with _pool_errors():
             result = fut.result()
-        handle(result)
+        if result is not None:           # None: a task claimed by another process
+            handle(result)
+
+
+#: tasks handed to the pool ahead of its workers, per worker process (enough
+#: that a worker never waits for this process to hand it more)
+AHEAD = 32
+
+
+class _Shared:
+    """The tasks of a sweep shared between this process and the pool: the
+    pool is handed tasks from the start of the list (up to :data:`AHEAD`
+    per worker ahead), this process takes them from the end, at last also
+    those handed that no worker has begun.  Whoever begins a task first
+    claims it (``pool.claims``); a worker skips a task claimed here."""
+
+    def __init__(self, tasks, pool, handle):
+        self.queue = collections.deque(enumerate(tasks))   # not handed to the pool
+        self.handed = collections.deque()                  # (i, task), in order
+        self.pending = set()
+        self.pool, self.handle = pool, handle
+
+    def hand(self):
+        """Hand the pool tasks from the start of the list."""
+        ex = self.pool.executor
+        if ex is None:
+            return
+        with _pool_errors():
+            while self.queue and len(self.pending) < AHEAD * self.pool.size:
+                i, task = self.queue.popleft()
+                self.pending.add(ex.submit(_claimed_task, i, task))
+                self.handed.append((i, task))
+
+    def next_here(self):
+        """The task this process computes next: the last one not handed,
+        else the last one handed that no worker has claimed; None when the
+        workers hold all that is left."""
+        if self.queue:
+            return self.queue.pop()[1]
+        if self.handed:
+            i, task = self.handed.pop()
+            if _claim(self.pool.claims, i):
+                return task
+            self.handed.clear()   # a worker began it, and every task before it
+        return None
+
+    def run(self):
+        while self.queue or self.pending:
+            self.hand()
+            _take(self.pending, self.handle, block=False)
+            task = self.next_here()
+            if task is not None:
+                self.handle(run_task(task))
+            elif self.pending:
+                _take(self.pending, self.handle, block=True)
 
 
 def run_local(tasks, workers, handle):
     """Run the tasks here (``workers`` <= 1) or here and in ``workers - 1``
     local processes; every task's result goes to ``handle`` as it finishes.
-    This process takes tasks from the end of the list, the workers from its
-    start."""
+    The workers take tasks from the start of the list, this process from
+    its end (:class:`_Shared`)."""
     if workers <= 1 or len(tasks) < 2:
         for t in tasks:
             handle(run_task(t))
         return
-    pool = LocalPool(workers - 1)
+    pool = LocalPool(workers - 1, len(tasks))
     finished = False
     try:
-        queue, pending = collections.deque(tasks), set()
-        while queue or pending:
-            if pool.executor is not None:
-                with _pool_errors():
-                    while queue and len(pending) < 2 * pool.size:
-                        pending.add(pool.executor.submit(run_task, queue.popleft()))
-            _take(pending, handle, block=not queue)
-            if queue:
-                handle(run_task(queue.pop()))
+        _Shared(tasks, pool, handle).run()
         finished = True
     finally:
         pool.stop(finished)
