@@ -102,9 +102,9 @@ def _corrections(t, r, oscillatory):
     return even, odd, last
 
 
-def _debye(nu, x, r, out, use):
+def _debye(nu, x, r, out, use, angle=None):
     """Debye's expansions where they converge to 1e-16; fills ``out`` and
-    marks ``use``."""
+    marks ``use``.  ``angle``: ``_angle(nu, x, r)`` if already known."""
     # the corrections reach 1e-16 only for r >~ 60 and r >~ 4 nu^(2/3) (found
     # by scanning r at nu = 0 ... 1e4 with ten of them; more reach a little
     # closer to the turning point): below these the trial is skipped
@@ -114,38 +114,57 @@ def _debye(nu, x, r, out, use):
         if not np.any(sel):
             continue
         n, z, rr = nu[sel], x[sel], r[sel]
+        ang = _angle(n, z, rr) if angle is None else angle[sel]
         t = n / rr
         even, odd, last = _corrections(t, rr, osc)
         good = last < _LAST_TERM
         if osc:
-            xi = rr - n * np.arctan2(rr, n) - 0.25 * np.pi
+            xi = rr - n * ang - 0.25 * np.pi
             val = np.sqrt(2 / (np.pi * rr)) * (np.cos(xi) * (1 + even) + np.sin(xi) * odd)
         else:
-            with np.errstate(divide="ignore"):
-                expo = rr - n * np.log((n + rr) / z)      # m (tanh a - a)
+            expo = rr - n * ang                           # m (tanh a - a)
             val = np.exp(expo) / np.sqrt(2 * np.pi * rr) * (1 + even + odd)
         idx = np.nonzero(sel)[0][good]
         out[idx] = val[good]
         use[idx] = True
 
 
-def jv_int(m, x):
-    """J_m(x) for integer orders m (any sign) and x >= 0, elementwise."""
+def _angle(nu, x, r):
+    """arctan(r/m) above the turning point, arccosh(m/x) = log((m + r)/x)
+    below it (the phase and the exponent are r - m times this)."""
+    out = np.empty_like(r)
+    osc = x > nu
+    out[osc] = np.arctan2(r[osc], nu[osc])
+    ev = ~osc
+    with np.errstate(divide="ignore"):
+        out[ev] = np.log((nu[ev] + r[ev]) / np.maximum(x[ev], 1e-300))
+    return out
+
+
+def _jv_parts(m, x):
+    """J_m(x) (flat), |m|, r = sqrt|x^2 - m^2| and ``_angle``."""
     m, x = np.broadcast_arrays(np.asarray(m, float), np.asarray(x, float))
-    shape = m.shape
     m, x = m.ravel(), x.ravel()
     nu = np.abs(m)
-    sign = np.where((m < 0) & (np.mod(nu, 2) == 1), -1.0, 1.0)
     out = np.empty(nu.shape)
     r = np.sqrt(np.abs((x - nu) * (x + nu)))
+    angle = _angle(nu, x, r)
     use = np.zeros(nu.shape, dtype=bool)
     if nu.size >= _DEBYE_MIN_SIZE:
-        _debye(nu, x, r, out, use)
+        _debye(nu, x, r, out, use, angle)
     rest = ~use
     if np.any(rest):
         from scipy.special import jv   # scipy.special is imported when first needed (start-up)
         out[rest] = jv(nu[rest], x[rest])
-    return (sign * out).reshape(shape)
+    odd = (m < 0) & (np.mod(nu, 2) == 1)
+    out[odd] = -out[odd]
+    return out, nu, x, r, angle
+
+
+def jv_int(m, x):
+    """J_m(x) for integer orders m (any sign) and x >= 0, elementwise."""
+    shape = np.broadcast_shapes(np.shape(m), np.shape(x))
+    return _jv_parts(m, x)[0].reshape(shape)
 
 
 def _envelope(nu, x, r):
@@ -163,10 +182,9 @@ def envelope(m, x):
     return _envelope(nu, x, np.sqrt(np.abs((x - nu) * (x + nu))))
 
 
-def _relative(nu, x, r):
-    with np.errstate(divide="ignore", invalid="ignore"):
-        angle = np.where(x > nu, np.arctan2(r, nu),
-                         np.log((nu + r) / np.maximum(x, 1e-300)))
+def _relative(nu, x, r, angle=None):
+    if angle is None:
+        angle = _angle(nu, x, r)
     return BESSEL_FLOOR + BESSEL_PHASE * (r + nu * angle)
 
 
@@ -187,10 +205,8 @@ def jv_error(m, x, value):
 def jv_bounded(m, x):
     """J_m(x), the bound ``jv_error`` of its error, the envelope and
     r = sqrt|x^2 - m^2|, from one pass over the arrays."""
-    nu = np.abs(np.asarray(m, float))
-    x = np.asarray(x, float)
-    J = jv_int(m, x)
-    r = np.sqrt(np.abs((x - nu) * (x + nu)))
+    shape = np.broadcast_shapes(np.shape(m), np.shape(x))
+    J, nu, x, r, angle = _jv_parts(m, x)
     env = _envelope(nu, x, r)
-    absval = np.abs(J)
-    return J, _relative(nu, x, r) * (absval + env), env, r
+    err = _relative(nu, x, r, angle) * (np.abs(J) + env)
+    return tuple(a.reshape(shape) for a in (J, err, env, r))

@@ -341,18 +341,23 @@ class _HarmonicSums:
         row = np.repeat(np.arange(pts.size), sizes)
         own = pts[row]
         local = np.arange(m.size) - starts[row]
-        bound, ok = self._remainder(sign, direction, own, m, edge[own],
-                                    (sh["q"], sh["P0"], sh["n_th"], sh["w"]), tot)
+        # the bound needs q R < |m| (Kapteyn's inequality): only those are tried
+        idx = np.nonzero(later[row] & (sh["q"] * self.R[own] < np.abs(m)))[0]
+        bound, ok = self._remainder(sign, direction, own[idx], m[idx], edge[own[idx]],
+                                    tuple(sh[k][idx] for k in ("q", "P0", "n_th", "w")), tot)
         beyond = sh["q"] > self.qcut if direction > 0 else np.zeros(m.size, dtype=bool)
-        first = np.minimum.reduceat(np.where(ok | beyond, local, m.size), starts)
+        stops = beyond & later[row]
+        stops[idx[ok]] = True
+        first = np.minimum.reduceat(np.where(stops, local, m.size), starts)
         first = np.where(later, first, sizes - 1)   # a first block is summed whole
         cut = first < sizes - 1
         keep = local <= first[row]
         met = np.nonzero(cut)[0]
         at = starts[met] + first[met]
         with_bound = ~beyond[at]
+        where = np.searchsorted(idx, at[with_bound])
         for k in _KEYS:
-            bnd[k][pts[met[with_bound]]] = bound[k][at[with_bound]]
+            bnd[k][pts[met[with_bound]]] = bound[k][where]
         return keep, np.minimum(sizes, first + 1), cut
 
     def _sweep_group(self, sign, direction, pts, sizes, m0, size, stop_at, edge, tot, bnd,
