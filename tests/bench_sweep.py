@@ -55,36 +55,46 @@ def _busy():
     return (sum(fields[:8]) - idle) / os.sysconf("SC_CLK_TCK")
 
 
-def _tree():
-    """{pid: (depth, CPU seconds)} of this process (depth 0) and every
-    process below it (1: the fork server, 2: the workers it forked), from
-    /proc; {} elsewhere."""
-    tick = os.sysconf("SC_CLK_TCK")
-    parents, cpu = {}, {}
+def _stat(pid):
+    """(parent, CPU seconds of the process, seconds its main thread waited
+    for a core, forkserver?) from /proc; None when it is gone."""
     try:
-        names = [e for e in os.listdir("/proc") if e.isdigit()]
+        with open(f"/proc/{pid}/stat") as fh:
+            stat = fh.read()
+        with open(f"/proc/{pid}/schedstat") as fh:
+            wait = int(fh.read().split()[1]) * 1e-9
+        with open(f"/proc/{pid}/cmdline", "rb") as fh:
+            server = b"forkserver" in fh.read()
+    except (OSError, ValueError, IndexError):
+        return None
+    f = stat[stat.rindex(")") + 2:].split()
+    return int(f[1]), (int(f[11]) + int(f[12])) / os.sysconf("SC_CLK_TCK"), wait, server
+
+
+def _tree():
+    """{pid: (depth, CPU seconds, seconds waiting for a core, lane)} of this
+    process (depth 0, lane 0) and every process below it (1: the fork
+    server, 2: the workers it forked; lane 1: the fork server and the
+    workers, which the workers' start waits for), from /proc; {} elsewhere."""
+    try:
+        names = [int(e) for e in os.listdir("/proc") if e.isdigit()]
     except OSError:
         return {}
-    for e in names:
-        try:
-            with open(f"/proc/{e}/stat") as fh:
-                stat = fh.read()
-        except OSError:
-            continue
-        f = stat[stat.rindex(")") + 2:].split()
-        parents[int(e)] = int(f[1])
-        cpu[int(e)] = (int(f[11]) + int(f[12])) / tick
+    stats = {p: st for p in names if (st := _stat(p)) is not None}
     depth, frontier, level = {os.getpid(): 0}, {os.getpid()}, 0
     while frontier:
         level += 1
-        frontier = {p for p, pp in parents.items() if pp in frontier} - set(depth)
+        frontier = {p for p, st in stats.items() if st[0] in frontier} - set(depth)
         depth.update((p, level) for p in frontier)
-    return {p: (d, cpu[p]) for p, d in depth.items() if p in cpu}
+    return {p: (d, stats[p][1], stats[p][2], 0 if d == 0 else
+                (1 if d >= 2 or stats[p][3] else None))
+            for p, d in depth.items() if p in stats}
 
 
 class _Own:
-    """The CPU seconds of this sweep's processes: sampled as its rows come
-    in (a worker's last sample is taken after its last task)."""
+    """The CPU seconds of this sweep's processes, and the time they waited
+    for a core: sampled as its rows come in (a worker's last sample is
+    taken after its last task)."""
 
     def __init__(self):
         self.start = _tree()
@@ -93,14 +103,23 @@ class _Own:
     def __call__(self, n):
         self.last.update(_tree())
 
+    def _since(self, p, k):
+        v = self.last[p]
+        return v[k] - self.start[p][k] if p in self.start else v[k]
+
     def split(self):
-        """CPU seconds of (this process, helpers, workers) since the start."""
+        """CPU seconds of (this process, fork server and helpers, workers)
+        since the start; the busiest worker's; the seconds each lane (this
+        process; the fork server and the workers) waited for a core."""
         self.last.update(_tree())
-        out = [0.0, 0.0, 0.0]
-        for p, (d, v) in self.last.items():
-            out[min(d, 2)] += v - self.start.get(p, (d, 0.0))[1]
-        return out, max((v - self.start.get(p, (d, 0.0))[1]
-                         for p, (d, v) in self.last.items() if d >= 2), default=0.0)
+        out, waits = [0.0, 0.0, 0.0], [0.0, 0.0]
+        for p, v in self.last.items():
+            out[min(v[0], 2)] += self._since(p, 1)
+            if v[3] is not None:
+                waits[v[3]] += self._since(p, 2)
+        worker = max((self._since(p, 1) for p, v in self.last.items() if v[0] >= 2),
+                     default=0.0)
+        return out, worker, waits
 
 
 def _one(n, workers, out):
@@ -116,9 +135,10 @@ def _one(n, workers, out):
                 progress=own)
     wall = time.perf_counter() - t0
     busy = None if b0 is None else _busy() - b0
-    split, worker = own.split()
+    split, worker, waits = own.split()
     harm = res.column("harmonics")
     print(json.dumps({"wall": wall, "busy": busy, "split": split, "worker": worker,
+                      "waits": waits,
                       "load": [load, os.getloadavg()[0]],
                       "sha": hashlib.sha256(Path(out).read_bytes()).hexdigest(),
                       "harmonics": [float(harm.mean()), float(harm.max())]}))
@@ -130,13 +150,28 @@ def _run(n, workers, out):
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
+def _quiet(r):
+    """The run's wall time less the time its processes waited for a core
+    (/proc/PID/schedstat), per lane: this process; the fork server and the
+    workers (2-worker runs).  Their mean estimates a quiet machine's wall
+    time (the time computing and the time a process waited for the other
+    are kept; being preempted by other programs is removed)."""
+    lanes = [r["wall"] - r["waits"][0]]
+    if sum(r["split"][1:]) > 0:
+        lanes.append(r["wall"] - r["waits"][1])
+    return sum(lanes) / len(lanes)
+
+
 def _line(label, r, n):
     cores = os.cpu_count() or 1
     wall, own = r["wall"], sum(r["split"])
     text = (f"  {label}: {wall:6.2f} s wall ({wall / n**2 * 1e3:.2f} ms per point), "
             f"load {r['load'][0]:.2f} -> {r['load'][1]:.2f}; CPU of this sweep {own:.2f} s "
             f"(its process {r['split'][0]:.2f}, fork server {r['split'][1]:.2f}, "
-            f"workers {r['split'][2]:.2f})")
+            f"workers {r['split'][2]:.2f}); waited for a core {r['waits'][0]:.2f} s"
+            + (f" (fork server and workers {r['waits'][1]:.2f} s)" if len(r["split"]) and
+               sum(r["split"][1:]) > 0 else "") +
+            f"; without the waits {_quiet(r):.2f} s")
     if r["busy"] is not None:
         others = max(0.0, r["busy"] - own)
         text += (f"; cores busy {100 * r['busy'] / (cores * wall):.0f} % of {cores}, "
@@ -151,10 +186,13 @@ def _others(r):
 def _summary(ones, twos):
     med = statistics.median
     w1, w2 = med(r["wall"] for r in ones), med(r["wall"] for r in twos)
+    q1, q2 = med(map(_quiet, ones)), med(map(_quiet, twos))
     c1 = med(sum(r["split"]) for r in ones)
     half = med(sum(r["split"]) / 2 for r in twos)
     chain = med(max(r["split"][0], r["split"][1] + r["worker"]) for r in twos)
     print(f"median wall: 1 worker {w1:.2f} s, 2 workers {w2:.2f} s: {w1 / w2:.2f}x")
+    print(f"median wall less the waits for a core: 1 worker {q1:.2f} s, 2 workers "
+          f"{q2:.2f} s: {q1 / q2:.2f}x")
     print(f"from CPU time: 1 worker {c1:.2f} s; 2 workers {2 * half:.2f} s in all, "
           f"{c1 / half:.2f}x with both cores working for the sweep to its end, "
           f"{c1 / chain:.2f}x by its busiest chain of processes ({chain:.2f} s)")
@@ -164,7 +202,7 @@ def _summary(ones, twos):
         print(f"other programs kept {min(others):.2f} to {max(others):.2f} cores busy during "
               "the runs: " + ("a quiet machine" if quiet else
                               "a shared machine; the wall-clock ratio of a quiet one needs "
-                              "all near 0 (the CPU-time ratios estimate it)"))
+                              "all near 0 (the other ratios estimate it)"))
 
 
 def main():
