@@ -1,6 +1,6 @@
 """Benchmark of the sweep machinery (run by hand, not collected by pytest):
 
-    python tests/bench_sweep.py [N] [--repeat K]
+    python tests/bench_sweep.py [N] [--repeat K] [--cli]
 
 A N x N (default 200 x 200) map of the circular engine over speed (0.2 to
 2 c_s) and radius (2 to 50 um, log-spaced) for the quasi-2D 23Na gas of
@@ -9,15 +9,21 @@ exactly as `probe sweep ... --out` does, once with one worker and once with
 `--workers 2`, K times (default 1), the two alternating.  Every run is a
 fresh Python process (as every `probe sweep` is: the fork server that
 starts the workers starts inside the timing), which imports the package and
-computes a small warm-up sweep with one worker before the timed one.
+computes a small warm-up sweep with one worker before the timed one; with
+--cli every run is the command `probe sweep ... --out FILE [--workers 2]`
+itself, its imports and planning included (its processes sampled every
+10 ms).
 
 Per run it prints the wall time, how busy the machine's cores were
 meanwhile (/proc/stat) and how much of that was this sweep (its processes'
 CPU time, /proc/PID/stat, split into the sweep's own process, the helper
 processes below it (the fork server) and the workers below those) and how
-much other programs, with the load average.  At the end: the median wall
+much other programs, with the load average, and how long the processes
+waited for a core (/proc/PID/schedstat).  At the end: the median wall
 times and their ratio, and, since other programs on a shared machine slow
-the 2-worker run most, the ratio from CPU time: the 1-worker run's CPU time
+the 2-worker run most, two estimates of a quiet machine's ratio: from the
+wall times less the time the sweep's own process waited for a core (it
+runs from the start to the end), and from CPU time: the 1-worker run's CPU time
 over half the 2-worker run's (both cores working for the sweep until it
 ends: what a quiet machine gives when neither process waits for the other),
 and over its busiest chain of processes (the sweep's process, or the fork
@@ -71,17 +77,18 @@ def _stat(pid):
     return int(f[1]), (int(f[11]) + int(f[12])) / os.sysconf("SC_CLK_TCK"), wait, server
 
 
-def _tree():
+def _tree(root=None):
     """{pid: (depth, CPU seconds, seconds waiting for a core, lane)} of this
-    process (depth 0, lane 0) and every process below it (1: the fork
-    server, 2: the workers it forked; lane 1: the fork server and the
+    process or ``root`` (depth 0, lane 0) and every process below it (1:
+    the fork server, 2: the workers it forked; lane 1: the fork server and the
     workers, which the workers' start waits for), from /proc; {} elsewhere."""
     try:
         names = [int(e) for e in os.listdir("/proc") if e.isdigit()]
     except OSError:
         return {}
     stats = {p: st for p in names if (st := _stat(p)) is not None}
-    depth, frontier, level = {os.getpid(): 0}, {os.getpid()}, 0
+    root = os.getpid() if root is None else root
+    depth, frontier, level = {root: 0}, {root}, 0
     while frontier:
         level += 1
         frontier = {p for p, st in stats.items() if st[0] in frontier} - set(depth)
@@ -96,12 +103,13 @@ class _Own:
     for a core: sampled as its rows come in (a worker's last sample is
     taken after its last task)."""
 
-    def __init__(self):
-        self.start = _tree()
+    def __init__(self, root=None):
+        self.root = root
+        self.start = _tree(root) if root is None else {}
         self.last = dict(self.start)
 
-    def __call__(self, n):
-        self.last.update(_tree())
+    def __call__(self, n=None):
+        self.last.update(_tree(self.root))
 
     def _since(self, p, k):
         v = self.last[p]
@@ -111,7 +119,8 @@ class _Own:
         """CPU seconds of (this process, fork server and helpers, workers)
         since the start; the busiest worker's; the seconds each lane (this
         process; the fork server and the workers) waited for a core."""
-        self.last.update(_tree())
+        if self.root is None:
+            self.last.update(_tree())
         out, waits = [0.0, 0.0, 0.0], [0.0, 0.0]
         for p, v in self.last.items():
             out[min(v[0], 2)] += self._since(p, 1)
@@ -144,22 +153,45 @@ def _one(n, workers, out):
                       "harmonics": [float(harm.mean()), float(harm.max())]}))
 
 
-def _run(n, workers, out):
+def _run(n, workers, out, cli=False):
+    if cli:
+        return _run_cli(n, workers, out)
     done = subprocess.run([sys.executable, __file__, "--one", str(n), str(workers), str(out)],
                           capture_output=True, text=True, check=True)
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
+def _run_cli(n, workers, out):
+    """One run of the command `probe sweep` (a fresh process: its imports
+    and planning in the timing), its processes sampled every 10 ms."""
+    cmd = [sys.executable, "-c", "import sys; from probe.cli import main; sys.exit(main())",
+           "sweep", RING, "--vary", f"trajectory.speed=0.2c_s:2c_s:{n}",
+           "--vary", f"trajectory.radius=2um:50um:{n}", "--log", "trajectory.radius",
+           "--out", str(out), "--workers", str(workers)]
+    load, b0, t0 = os.getloadavg()[0], _busy(), time.perf_counter()
+    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    own = _Own(proc.pid)
+    while proc.poll() is None:
+        own()
+        time.sleep(0.01)
+    wall = time.perf_counter() - t0
+    busy = None if b0 is None else _busy() - b0
+    if proc.returncode != 0:
+        raise SystemExit(proc.stderr.read().decode())
+    split, worker, waits = own.split()
+    return {"wall": wall, "busy": busy, "split": split, "worker": worker, "waits": waits,
+            "load": [load, os.getloadavg()[0]],
+            "sha": hashlib.sha256(Path(out).read_bytes()).hexdigest(), "harmonics": None}
+
+
 def _quiet(r):
-    """The run's wall time less the time its processes waited for a core
-    (/proc/PID/schedstat), per lane: this process; the fork server and the
-    workers (2-worker runs).  Their mean estimates a quiet machine's wall
-    time (the time computing and the time a process waited for the other
-    are kept; being preempted by other programs is removed)."""
-    lanes = [r["wall"] - r["waits"][0]]
-    if sum(r["split"][1:]) > 0:
-        lanes.append(r["wall"] - r["waits"][1])
-    return sum(lanes) / len(lanes)
+    """The run's wall time less the time the sweep's own process waited for
+    a core (/proc/PID/schedstat): an estimate of a quiet machine's wall time
+    (its time computing, and waiting for the workers, is kept; being
+    preempted by other programs is removed).  That process runs from the
+    start to the end; under load, workers slowed more than it leave it more
+    tasks, so the estimate errs on the long side."""
+    return r["wall"] - r["waits"][0]
 
 
 def _line(label, r, n):
@@ -209,7 +241,8 @@ def main():
     args = sys.argv[1:]
     if args and args[0] == "--one":
         return _one(int(args[1]), int(args[2]), args[3])
-    repeat = 1
+    repeat, cli = 1, "--cli" in args
+    args = [a for a in args if a != "--cli"]
     if "--repeat" in args:
         k = args.index("--repeat")
         repeat, args = int(args[k + 1]), args[:k] + args[k + 2:]
@@ -221,14 +254,14 @@ def main():
     with tempfile.TemporaryDirectory() as tmp:
         for k in range(repeat):
             for workers in ((1, 2) if k % 2 == 0 else (2, 1)):
-                r = _run(n, workers, Path(tmp) / f"w{workers}_{k}.csv")
+                r = _run(n, workers, Path(tmp) / f"w{workers}_{k}.csv", cli)
                 (ones if workers == 1 else twos).append(r)
                 shas.add(r["sha"])
                 print(_line(f"{workers} worker{'s' if workers > 1 else ' '}", r, n),
                       flush=True)
     harm = ones[0]["harmonics"]
-    print(f"files identical: {len(shas) == 1}; harmonics per point {harm[0]:.0f} mean, "
-          f"{harm[1]:.0f} max")
+    print(f"files identical: {len(shas) == 1}" + ("" if harm is None else
+          f"; harmonics per point {harm[0]:.0f} mean, {harm[1]:.0f} max"))
     _summary(ones, twos)
     if len(shas) != 1:
         raise SystemExit("the runs' files differ")
