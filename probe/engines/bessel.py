@@ -10,8 +10,9 @@ operations per value.  Their polynomials u_k follow from u_0 = 1 and
 ``u_k(t)/m^k = sum_p c_p t^(p-k) / r^k``, which stays finite at m = 0 (where
 the oscillatory form becomes Hankel's large-argument expansion).  Terms up to
 k = 18 are kept; where the last kept term exceeds 1e-16 (near the turning
-point, or for small r) the value comes from scipy's ``jv`` instead, and so
-do all values of calls with fewer than 512 (where scipy alone is faster).
+point, or for small r) the value comes from scipy's ``jv`` instead.  The
+route of a value depends on its order and argument alone, never on the other
+values of the call (a sweep's point gives the same digits in any company).
 
 ``jv_error`` bounds the absolute error of either route: a few units of
 rounding in the phase (or exponent), whose size grows with the argument,
@@ -29,8 +30,6 @@ _ORDERS = 18
 #: accept the expansion where its last kept term is below this
 _LAST_TERM = 1e-16
 _EPS = float(np.finfo(float).eps)
-#: below this many values scipy's jv alone is faster than the expansions
-_DEBYE_MIN_SIZE = 512
 #: relative floor of the Bessel values (both routes, against mpmath)
 BESSEL_FLOOR = 2e-15
 #: rounding of the phase or exponent per unit of the size of its parts
@@ -150,8 +149,7 @@ def _jv_parts(m, x):
     r = np.sqrt(np.abs((x - nu) * (x + nu)))
     angle = _angle(nu, x, r)
     use = np.zeros(nu.shape, dtype=bool)
-    if nu.size >= _DEBYE_MIN_SIZE:
-        _debye(nu, x, r, out, use, angle)
+    _debye(nu, x, r, out, use, angle)
     rest = ~use
     if np.any(rest):
         from scipy.special import jv   # scipy.special is imported when first needed (start-up)

@@ -454,10 +454,19 @@ def circular_kernels(gas, R, v, W, s, rtol=1e-8, energy=False, max_harmonics=MAX
 
     Each family of harmonics (``w_k = W + m w_c`` and ``w_k = m w_c - W``) is
     summed outward from the region where ``k R ~ |m|`` until Kapteyn's
-    inequality bounds what is left below the tolerance; the blocks of all
-    points are evaluated together.
+    inequality bounds what is left below the tolerance; in 2D the blocks of
+    all points are evaluated together, each point's digits as if alone.
     """
     R, v, W = (np.asarray(a, float).ravel() for a in np.broadcast_arrays(R, v, W))
+    if gas.d == 3 and R.size > 1:
+        # the spherical averages' recurrences run as long as the longest of
+        # their group: a 3D point is summed alone, so that its digits do not
+        # depend on the other points of the call
+        parts = [circular_kernels(gas, R[i:i + 1], v[i:i + 1], W[i:i + 1], s, rtol, energy,
+                                  max_harmonics, max_evaluations) for i in range(R.size)]
+        return {k: (tuple(np.concatenate([p[k][j] for p in parts]) for j in (0, 1))
+                    if k != "harmonics" else np.concatenate([p[k] for p in parts]))
+                for k in parts[0]}
     if (not gas.disp.bounded_windows) and np.any(v >= 1) and s == 0:
         raise ModelError(
             "condensate.dispersion",
