@@ -389,7 +389,7 @@ _PAIRS_2D = ((44, 34), (72, 56))
 #: the theta at which q - a reaches the healing scale q ~ 1 of a wide window
 _GRADE = 0.3
 #: rows per block of the 2D fixed rules (bounds the memory of the node arrays)
-_BLOCK = 512
+_BLOCK = 128
 
 
 def _theta_top(win, top):
@@ -508,13 +508,20 @@ def _pair_sums_2d(gas, win, kind, tags, rows, s2, c2, wts, n):
         base /= den
         np.sqrt(base, out=base)
         base *= q * disp.structure_factor(q)
-        base *= np.exp(-(q * s) ** 2)
+        if np.any(s > 0):
+            form = q * q
+            form *= -s * s
+            base *= np.exp(form, out=form)
         base *= wts
         # rounding of the factor: each of p1, p2 is off by ~2 eps (v q + w + W)
-        # (its terms and the edge it vanishes at), halved by the square root;
-        # p1 + p2 = 2 v q
+        # (its terms and the edge it vanishes at), halved by the square root,
+        # p1 + p2 = 2 v q: a relative 4 eps v q (v q + w + W)/|p1 p2| + 16 eps
+        # at a node (the values are positive where the factor is real)
         k = slice(0, n)
-        rnd = (4 * EPS) * vq[:, k] * (vq[:, k] + om[:, k] + W) / np.abs(den[:, k]) + 16 * EPS
+        rnd = vq[:, k] + om[:, k]
+        rnd += W
+        rnd *= vq[:, k]
+        rnd /= den[:, k]
     out = {}
     for t in tags:
         if t == "thermal":
@@ -522,31 +529,25 @@ def _pair_sums_2d(gas, win, kind, tags, rows, s2, c2, wts, n):
                 vals = base / np.expm1(om * (1.0 / gas.T))
         else:
             vals = base * om if t == "energy" else base
-        # row by row sums: a point's value is the same alone or in a grid
-        hi = vals[:, :n].sum(axis=1)
-        with np.errstate(invalid="ignore"):
-            bound = (np.abs(hi - vals[:, n:].sum(axis=1))
-                     + (np.abs(vals[:, :n]) * rnd).sum(axis=1))
+        # row by row sums (each row's own loop, whatever the number of
+        # rows): a point's value is the same alone or in a grid
+        hi = np.einsum("ij->i", vals[:, :n])
+        with np.errstate(invalid="ignore", over="ignore"):
+            bound = (np.abs(hi - np.einsum("ij->i", vals[:, n:])) + 16 * EPS * np.abs(hi)
+                     + 4 * EPS * np.abs(np.einsum("ij,ij->i", vals[:, :n], rnd)))
         out[t] = (hi, np.where(np.isfinite(bound), bound, np.inf))
     return out
 
 
-def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders):
+def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders, level=None):
     """The 2D integrals of ``tags`` over [0, th_hi] in theta for the finite
-    windows ``rows``: where ``orders`` is the periodic pair, the midpoint
-    rules of ``_periodic_nodes`` (th_hi = pi), else the fixed pair of
-    Gauss-Legendre rules in the graded angle of ``_graded_nodes``.
-    {tag: (value, estimate)}."""
-    if orders == _PERIODIC_2D:
-        level = _periodic_level(win, rows)
-        out = {t: (np.empty(rows.size), np.empty(rows.size)) for t in tags}
-        for lev in np.unique(level):
-            k = np.nonzero(level == lev)[0]
-            s2, c2, wts = _periodic_nodes(int(lev), orders)
-            got = _pair_sums_2d(gas, win, kind, tags, rows[k], s2, c2, wts, orders[0])
-            for t in tags:
-                out[t][0][k], out[t][1][k] = got[t]
-        return out
+    windows ``rows``: with a grading ``level`` (rows of one level), the
+    periodic pair of midpoint rules of ``_periodic_nodes`` (th_hi = pi),
+    else the fixed pair of Gauss-Legendre rules in the graded angle of
+    ``_graded_nodes``.  {tag: (value, estimate)}."""
+    if level is not None:
+        s2, c2, wts = _periodic_nodes(level, orders)
+        return _pair_sums_2d(gas, win, kind, tags, rows, s2, c2, wts, orders[0])
     n, m = (gauss_legendre(k)[1] for k in orders)
     s2, c2, jac = _graded_nodes(rows, win, th_hi, orders)
     jac *= np.concatenate([n, m]) / math.pi
@@ -571,17 +572,19 @@ def _lean_2d(gas, win, kind, tags, tops, orders, todo):
     near_sound = (win.W == 0) & (win.v - 1 < NEAR_SOUND)
     ok = ~win.unbounded & todo & ~near_sound
     close = np.all([ths[t] >= 0.6 * th_max for t in tags], axis=0)
-    jobs = [(tags, ok & close & (th_max > 0), th_max)] + [
-        ([t], ok & ~close & (ths[t] > 0), ths[t]) for t in tags]
+    jobs = [(tags, ok & close & (th_max > 0), th_max, None)] + [
+        ([t], ok & ~close & (ths[t] > 0), ths[t], None) for t in tags]
     if orders == _PERIODIC_2D:
-        graded = np.zeros(n, dtype=bool)
-        graded[ok] = _periodic_level(win, np.nonzero(ok)[0]) <= _MAX_LEVEL
-        jobs = [(tags, ok & graded & close & (th_max >= math.pi), th_max)]
-    for job_tags, mask, th in jobs:
+        # one job per grading level (rows of one level share their nodes)
+        level = np.full(n, _MAX_LEVEL + 1)
+        level[ok] = _periodic_level(win, np.nonzero(ok)[0])
+        mask = ok & close & (th_max >= math.pi)
+        jobs = [(tags, mask & (level == lev), th_max, lev) for lev in range(_MAX_LEVEL + 1)]
+    for job_tags, mask, th, lev in jobs:
         sel = np.nonzero(mask)[0]
         for k in range(0, sel.size, _BLOCK):
             rows = sel[k:k + _BLOCK]
-            got = _lean_pair_2d(gas, win, kind, job_tags, rows, th[rows], orders)
+            got = _lean_pair_2d(gas, win, kind, job_tags, rows, th[rows], orders, lev)
             for t in job_tags:
                 res[t][0][rows] = got[t][0]
                 res[t][1][rows] = got[t][1]
@@ -646,9 +649,12 @@ def _finish_2d(gas, win, kind, t, tol, lean, th_hi, rows, out):
     # f(theta) / (dq/dtheta), dq/dtheta = (b - a) sin(theta)/2 or 2 t
     with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
         dq = np.where(fin, 0.5 * (win.b - win.a) * np.sin(th_hi), 2.0 * th_hi)
-        tail = f(th_hi[:, None], rows)[:, 0] / dq * _tail_length(gas, win, t, top)
+        k = np.nonzero(cut & (top > win.a) & (dq > 0))[0]
+        if k.size:
+            err[k] += (f(th_hi[k, None], rows[k])[:, 0] / dq[k]
+                       * _tail_length(gas, win, t, top)[k])
     out[t][0][win.idx] = val
-    out[t][1][win.idx] = err + np.where(cut & (top > win.a) & (dq > 0), tail, 0.0)
+    out[t][1][win.idx] = err
 
 
 def _narrow_window_error(out, idx, a, b):
