@@ -232,3 +232,56 @@ def test_1d_caustic_misses_rtol_with_an_honest_estimate_and_a_warning():
     assert r.up_rate_error > 1e-8 * r.up_rate
     assert any("known only to a relative accuracy" in w for w in r.warnings)
     assert _check(1, float(np.float64(speed) / c), W, s, 0.05) == ["up"]
+
+
+# --- 2D: the periodic rule of the windows ------------------------------------------------------
+def _periodic_rows(monkeypatch):
+    """Record the rows the 2D periodic pair of midpoint rules evaluates."""
+    import probe.engines.stationary.inertial as inertial
+    seen = []
+    lean = inertial._lean_pair_2d
+
+    def spy(gas, win, kind, tags, rows, th_hi, orders, level=None):
+        if level is not None:
+            seen.append((kind, level, rows.size))
+        return lean(gas, win, kind, tags, rows, th_hi, orders, level)
+    monkeypatch.setattr(inertial, "_lean_pair_2d", spy)
+    return seen
+
+
+@pytest.mark.parametrize("v, W", [
+    (0.5, 1e-3),          # subsonic: window [W/(1+v), W/(1-v)], no grading
+    (1.3, 1e-3),          # the other root of k v - X at q ~ -a: graded start
+    (4.0, 5e-4),          # a long window whose start is graded at the deepest level
+    (2.5, 0.05),
+    (6.0, 2.0),           # long window: the Bose poles at w = 2 pi i T inside its span
+])
+def test_2d_periodic_rule_bounds_its_error(monkeypatch, v, W):
+    """2D at k_B T = 0.5 m c^2, s = 0.3 xi: the windows not cut short are
+    integrated by the pair of midpoint rules in the periodic graded angle;
+    the rates meet rtol = 1e-8 and their estimates bound the distance to
+    the 40-digit reference (the 2D golden-rule integral above)."""
+    seen = _periodic_rows(monkeypatch)
+    assert _check(2, v, W, 0.3, 0.5) == []
+    assert seen, "the periodic rule was not used"
+
+
+@pytest.mark.parametrize("k", [3, 6, 9])
+def test_2d_warm_rates_just_above_the_up_threshold(k):
+    """v = v_th (1 + 10^-k) at k_B T = 0.5 m c^2, s = 0.3 xi: the up window
+    [c, d] is narrow (its edges' rounding is in the estimate), the down
+    window wide; both rates within their estimates of the reference."""
+    W = 0.32
+    vt, _ = _threshold(W)
+    _check(2, float(vt * (1 + mp.mpf(10) ** -k)), W, 0.3, 0.5)
+
+
+@pytest.mark.filterwarnings("error")
+@pytest.mark.parametrize("s", [0.0, 0.3])
+def test_3d_rates_of_an_all_but_frozen_gas_raise_no_warning(s):
+    """k_B T = 5.6e-237 m c^2 (2e-236 nK in SI, a value the property tests
+    drew): the thermal primitive's range q < w^-1(CUT T) underflows to
+    nothing, which once tabulated 0/0 at q = 0 (NaN, RuntimeWarnings, a
+    fallback).  No warning now, and the rates are those of the reference
+    (where the occupation vanishes: the T = 0 rates) within their estimates."""
+    assert _check(3, 2.3, 0.4, s, 5.632876774787606e-237) == []
