@@ -12,7 +12,7 @@ starts the workers starts inside the timing), which imports the package and
 computes a small warm-up sweep with one worker before the timed one; with
 --cli every run is the command `probe sweep ... --out FILE [--workers 2]`
 itself, its imports and planning included (its processes sampled every
-10 ms).
+20 ms).
 
 Per run it prints the wall time, how busy the machine's cores were
 meanwhile (/proc/stat) and how much of that was this sweep (its processes'
@@ -101,15 +101,25 @@ def _tree(root=None):
 class _Own:
     """The CPU seconds of this sweep's processes, and the time they waited
     for a core: sampled as its rows come in (a worker's last sample is
-    taken after its last task)."""
+    taken after its last task).  /proc is scanned for new processes at most
+    every 0.2 s (a scan takes milliseconds); the processes known are read
+    at every sample."""
 
     def __init__(self, root=None):
         self.root = root
         self.start = _tree(root) if root is None else {}
         self.last = dict(self.start)
+        self.scanned = time.perf_counter()
 
     def __call__(self, n=None):
-        self.last.update(_tree(self.root))
+        if time.perf_counter() - self.scanned > 0.2:
+            self.last.update(_tree(self.root))
+            self.scanned = time.perf_counter()
+            return
+        for p, v in list(self.last.items()):
+            st = _stat(p)
+            if st is not None:
+                self.last[p] = (v[0], st[1], st[2], v[3])
 
     def _since(self, p, k):
         v = self.last[p]
@@ -163,7 +173,7 @@ def _run(n, workers, out, cli=False):
 
 def _run_cli(n, workers, out):
     """One run of the command `probe sweep` (a fresh process: its imports
-    and planning in the timing), its processes sampled every 10 ms."""
+    and planning in the timing), its processes sampled every 20 ms."""
     cmd = [sys.executable, "-c", "import sys; from probe.cli import main; sys.exit(main())",
            "sweep", RING, "--vary", f"trajectory.speed=0.2c_s:2c_s:{n}",
            "--vary", f"trajectory.radius=2um:50um:{n}", "--log", "trajectory.radius",
@@ -173,7 +183,7 @@ def _run_cli(n, workers, out):
     own = _Own(proc.pid)
     while proc.poll() is None:
         own()
-        time.sleep(0.01)
+        time.sleep(0.02)
     wall = time.perf_counter() - t0
     busy = None if b0 is None else _busy() - b0
     if proc.returncode != 0:

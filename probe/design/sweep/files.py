@@ -166,6 +166,23 @@ def write_csv(path, header, rows):
     _write_whole(path, write)
 
 
+def _write_in_order(partial, path, header):
+    """The rows of ``partial`` (each point once, as this run wrote them)
+    written to ``path`` in point order, atomically: the table of a sweep
+    whose rows came out of order, without formatting them again."""
+    with open(partial, newline="") as fh:        # as it was written
+        blob = fh.read()
+    rows = blob[len(header):].split("\n")[:-1]
+    rows.sort(key=lambda line: int(line[:line.index(",")]))
+
+    def write(fh):
+        fh.write(blob[:len(header)])
+        fh.writelines(r + "\n" for r in rows)
+        fh.flush()
+        os.fsync(fh.fileno())
+    _write_whole(path, write)
+
+
 def _json_default(x):
     if isinstance(x, np.ndarray):
         return x.tolist()
@@ -513,6 +530,9 @@ class PartialFile:
             self.path.unlink(missing_ok=True)
         elif self.ordered and self.count == n and not self.resumed:
             os.replace(self.path, self.out)
+        elif self.count == n and not self.resumed:         # from several workers
+            _write_in_order(self.path, self.out, self.header_line)
+            self.path.unlink(missing_ok=True)
         else:
             write_csv(self.out, self.plan.header(), rows_text(self.plan.columns, data, warnings))
             self.path.unlink(missing_ok=True)
