@@ -175,10 +175,14 @@ MIN_REACH = 1e-3
 
 def path_reach(X):
     """An upper bound of every distance between two points of the path: the
-    diagonal of its bounding box."""
+    smaller of the diagonal of its bounding box and twice the largest
+    distance from the box's centre (|x_i - x_j| <= |x_i - c| + |x_j - c|;
+    a loop of radius R: 2 R, where the diagonal is 2.8 R)."""
     if X.shape[0] == 0:
         return 0.0
-    return float(np.sqrt(((X.max(axis=0) - X.min(axis=0)) ** 2).sum()))
+    lo, hi = X.min(axis=0), X.max(axis=0)
+    radius = float(np.sqrt(((X - 0.5 * (lo + hi)) ** 2).sum(axis=1)).max())
+    return min(float(np.sqrt(((hi - lo) ** 2).sum())), 2.0 * radius)
 
 
 def cached_moments(problem, sample, K, r_max, pool):

@@ -18,14 +18,17 @@ import numpy as np
 
 from probe.engines.transit.grids import RadialGrid, radial_phasor
 from probe.engines.transit.route import AngularSums, Route
-from probe.engines.transit.rules import ANGLE_SAMPLE, rule_spec
+from probe.engines.transit.rules import ANGLE_SAMPLE, rule_spec, rule_specs
 
 _QCHUNK = 64         # smallest q sub-range handed to one thread
 _BLOCK_BYTES = 1.0e6  # e^{-i q n.x} and its step factor per direction block
 _QBLOCK = 16          # q nodes per pass over the direction blocks
-# seconds per (direction, node, time) with four channel columns (2 threads
-# on the development machine)
-_COST_PHASOR = 3.0e-9
+# seconds per (direction, node, time) and per (node, time) -- the contraction
+# matrices of a node, whatever its rule -- with four channel columns (2
+# threads; CPU time on the development machine under load, scaled so that the
+# FFT and pair routes' constants measured beside them keep their values)
+_COST_PHASOR = 4.5e-9
+_COST_PHASOR_NODE = 1.1e-7
 
 
 def _cis(x):
@@ -164,8 +167,7 @@ class PhasorRoute(Route):
                              res.radial)
         eps_node = problem.node_tolerances(grid)
         nbins = sample.rules.n_bins
-        specs = [rule_spec(geom, float(q), res.angular, nbins, float(e))
-                 for q, e in zip(grid.qn, eps_node)]
+        specs = rule_specs(geom, grid.qn, res.angular, nbins, eps_node)
         starts = [0] + [i for i in range(1, len(specs)) if specs[i] != specs[i - 1]]
         bands = [np.arange(a, b) for a, b in zip(starts, starts[1:] + [len(specs)])]
         return PhasorPlan(grid, eps_node, specs, bands, res.angular)
@@ -179,10 +181,14 @@ class PhasorRoute(Route):
     def cost(self, problem, sample, plan):
         rules = sample.rules
         size = sum(rules.rule(plan.specs[b[0]]).size * b.size for b in plan.bands)
+        nodes = plan.grid.qn.size
         if problem.d == 3:
-            size += sum(rules.rule(self._check_spec(sample.geom, plan, b)).size
-                        * (-(-b.size // ANGLE_SAMPLE)) for b in plan.bands)
-        return _COST_PHASOR * size * sample.time.size * (2 * problem.nD + 2) / 6
+            checked = [-(-b.size // ANGLE_SAMPLE) for b in plan.bands]
+            size += sum(rules.rule(self._check_spec(sample.geom, plan, b)).size * n
+                        for b, n in zip(plan.bands, checked))
+            nodes += sum(checked)
+        return ((_COST_PHASOR * size + _COST_PHASOR_NODE * nodes) * sample.time.size
+                * (2 * problem.nD + 2) / 6)
 
     def integrals(self, problem, sample, plan, pool):
         grid, rules, cols, nD = plan.grid, sample.rules, sample.cols, problem.nD

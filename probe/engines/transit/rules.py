@@ -184,17 +184,53 @@ def _spec_from_degrees(geom, L, Lp, spectrum):
     return ("prod", nu, nphi, False)
 
 
+def _degree_array(x, factor, eps):
+    """:func:`_degree` of arrays x and eps: the same integers (a value
+    within 1e-9 of a whole number, where the last bits of the logarithm
+    could decide its ceiling, is recomputed by :func:`_degree`)."""
+    eps = np.broadcast_to(np.asarray(eps, float), x.shape)
+    z = (0.75 * np.log(1.0 / np.minimum(np.maximum(eps, 1e-300), 0.5))) ** (2.0 / 3.0)
+    f = factor * (x + z * np.cbrt(0.5 * x)) + 4
+    out = np.ceil(f).astype(int)
+    for i in np.nonzero(np.abs(f - np.rint(f)) < 1e-9 * np.maximum(1.0, np.abs(f)))[0]:
+        out[i] = _degree(float(x[i]), factor, float(eps[i]))
+    return out
+
+
+def _node_degrees(geom, qn, factor, spectrum, eps_node):
+    """:func:`_degrees` of every node: (L, Lp) arrays, Lp -1 where None."""
+    qn = np.asarray(qn, float)
+    L = _degree_array(qn * geom.D, factor, eps_node)
+    Lp = np.full(qn.size, -1)
+    if geom.d == 3:
+        xp = qn * (geom.Dperp_spec if spectrum else geom.Dperp)
+        on = xp >= 1e-9
+        Lp[on] = _degree_array(xp[on], factor, np.broadcast_to(eps_node, qn.shape)[on])
+    return L, Lp
+
+
+def rule_specs(geom, qn, factor, spectrum, eps_node):
+    """:func:`rule_spec` of every node (nodes q, tolerances eps_node), the
+    degrees computed over arrays."""
+    if geom.d == 1:
+        return [("1d",)] * len(qn)
+    L, Lp = _node_degrees(geom, qn, factor, spectrum, eps_node)
+    memo, specs = {}, []
+    for a, b in zip(L.tolist(), Lp.tolist()):
+        if (a, b) not in memo:
+            memo[(a, b)] = _spec_from_degrees(geom, a, None if b < 0 else b, spectrum)
+        specs.append(memo[(a, b)])
+    return specs
+
+
 def cover_spec(geom, qn, eps_node, factor, spectrum):
     """One rule that meets every node's angular degree (the FFT route's)."""
     if geom.d == 1:
         return ("1d",)
-    L, Lp = 0, None
-    for q, e in zip(qn, eps_node):
-        a, b = _degrees(geom, float(q), factor, spectrum, float(e))
-        L = max(L, a)
-        if b is not None:
-            Lp = b if Lp is None else max(Lp, b)
-    return _spec_from_degrees(geom, L, Lp, spectrum)
+    L, Lp = _node_degrees(geom, qn, factor, spectrum, eps_node)
+    top = int(Lp.max()) if Lp.size else -1
+    return _spec_from_degrees(geom, int(L.max()) if L.size else 0,
+                              None if top < 0 else top, spectrum)
 
 
 def _make_rule(spec, geom, edges):

@@ -12,16 +12,30 @@ def available_cpus():
     return os.cpu_count() or 1
 
 
+#: the (get, set) pairs, looked up once per process
+_CONTROLS = []
+
+
 def _openblas_controls():
     """(get, set) pairs of every OpenBLAS loaded in this process (numpy's and
-    scipy's wheels each ship one); empty where none can be found."""
+    scipy's wheels each ship one); empty where none can be found.  Looked up
+    once (reading /proc/self/maps takes milliseconds, a good part of a short
+    transit): the engine's own imports (numpy; scipy.optimize, which loads
+    scipy.linalg) have loaded both libraries before its first call."""
+    if not _CONTROLS:
+        try:
+            with open("/proc/self/maps") as fh:
+                paths = {line.split()[-1] for line in fh
+                         if "openblas" in line.lower() and ".so" in line.split()[-1]}
+        except OSError:
+            paths = set()
+        _CONTROLS.append(_find_controls(paths))
+    return _CONTROLS[0]
+
+
+def _find_controls(paths):
+    """The (get, set) pairs of the OpenBLAS libraries at ``paths``."""
     found = []
-    try:
-        with open("/proc/self/maps") as fh:
-            paths = {line.split()[-1] for line in fh
-                     if "openblas" in line.lower() and ".so" in line.split()[-1]}
-    except OSError:
-        return found
     import ctypes
     for path in sorted(paths):
         try:
