@@ -119,9 +119,9 @@ class FFTRoute(Route):
         def per_dir(M):
             return (nsig * K * (_COST_FFT * M * math.log2(max(M, 4)) + _COST_SIGNAL * nt)
                     + _COST_BESSEL * nt * (2 * K + 0.5 * q_max * geom.extent + 12))
-        cost = sample.rules.rule(plan.top_spec).size * per_dir(grid.M)
+        cost = sample.rules.size(plan.top_spec) * per_dir(grid.M)
         if problem.d == 3 and plan.check_spec != plan.top_spec:
-            cost += sample.rules.rule(plan.check_spec).size * per_dir(grid.M // ANGLE_SAMPLE)
+            cost += sample.rules.size(plan.check_spec) * per_dir(grid.M // ANGLE_SAMPLE)
         if min(abs(D) for D in problem.Ds) * problem.corr < _ENDPOINT_RESONANCE:
             # the amplitude is resonant at k -> 0 (density probe, or a gap
             # inside the switching bandwidth): a peak of width 1/T_c at the

@@ -180,11 +180,11 @@ class PhasorRoute(Route):
 
     def cost(self, problem, sample, plan):
         rules = sample.rules
-        size = sum(rules.rule(plan.specs[b[0]]).size * b.size for b in plan.bands)
+        size = sum(rules.size(plan.specs[b[0]]) * b.size for b in plan.bands)
         nodes = plan.grid.qn.size
         if problem.d == 3:
             checked = [-(-b.size // ANGLE_SAMPLE) for b in plan.bands]
-            size += sum(rules.rule(self._check_spec(sample.geom, plan, b)).size * n
+            size += sum(rules.size(self._check_spec(sample.geom, plan, b)) * n
                         for b, n in zip(plan.bands, checked))
             nodes += sum(checked)
         return ((_COST_PHASOR * size + _COST_PHASOR_NODE * nodes) * sample.time.size

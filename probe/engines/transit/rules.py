@@ -266,6 +266,18 @@ class RuleBook:
         """Number of direction bins the rules must resolve (0: none)."""
         return 0 if self.edges is None else self.edges.size - 1
 
+    def size(self, spec):
+        """The number of directions of the rule of ``spec``, without
+        building it (a route's cost model asks for many it may not use)."""
+        kind = spec[0]
+        if kind == "1d":
+            return 2
+        if kind == "2d":
+            return spec[1]
+        if kind == "leb":
+            return _lebedev(spec[1])[1].size
+        return spec[1] * spec[2]
+
     def rule(self, spec, with_bins=False):
         """The rule of ``spec``, with the spectrum bin matrix if asked."""
         key = (spec, with_bins)
