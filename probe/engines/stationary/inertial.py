@@ -442,6 +442,21 @@ def _periodic_level(win, rows):
     return np.clip(np.nan_to_num(level, nan=_MAX_LEVEL + 1), 0, _MAX_LEVEL + 1).astype(int)
 
 
+def _grading(win, rows):
+    """c of the graded angle theta = c sinh(w) of the finite windows
+    ``rows``: _GRADE 2/sqrt(b - a), the healing scale of a wide window;
+    the angle sqrt(a/(b - a)) of the branch point near q = -a where the
+    periodic rule's grading does not reach it (a gap so small that the
+    branch point, at theta ~ 2 i sqrt(2 a/(b - a)), nearly meets the
+    window's start: a kink that rules on the scale of the window would not
+    see, both rules of a pair missing it alike)."""
+    L = win.b[rows] - win.a[rows]
+    c = _GRADE * 2 / np.sqrt(L)
+    with np.errstate(invalid="ignore"):
+        near = np.sqrt(win.a[rows] / L)
+    return np.where((near > 0) & (6 * near < 2.0 ** -_MAX_LEVEL) & (near < c), near, c)
+
+
 @functools.lru_cache(maxsize=256)
 def _uncut_nodes(level, orders):
     """sin^2(theta/2), cos^2(theta/2) and dtheta/dw (times the half length)
@@ -458,9 +473,9 @@ def _graded_nodes(rows, win, th_hi, orders):
     """sin^2(theta/2), cos^2(theta/2) and dtheta/dw times the half length
     (the rules' weights then apply directly) at the nodes theta = c sinh(w)
     of the pair of Gauss-Legendre rules of ``orders`` on w in
-    [0, asinh(th_hi / c)], c ~ _GRADE 2 / sqrt(b - a).  Windows not cut
+    [0, asinh(th_hi / c)], c of ``_grading``.  Windows not cut
     (th_hi = pi) take c rounded to a power of 2 and nodes tabulated once."""
-    c = _GRADE * 2 / np.sqrt(win.b[rows] - win.a[rows])
+    c = _grading(win, rows)
     level = np.clip(np.round(np.log2(c)), -30, 4).astype(int)
     uncut = th_hi >= math.pi
     size = sum(orders)
@@ -640,9 +655,18 @@ def _finish_2d(gas, win, kind, t, tol, lean, th_hi, rows, out):
     with np.errstate(invalid="ignore"):
         redo = np.nonzero(~(np.isfinite(val) & (err <= tol * np.abs(val))) & (th_hi > 0))[0]
     if redo.size:
+        # in the graded angle theta = c sinh(w) on the finite windows
+        c = np.where(fin[redo], _grading(win, redo), np.inf)
+
         def fr(x, i):
-            return f(x, redo[i])
-        v_, e_, _ = integrate(fr, np.zeros(redo.size), th_hi[redo], rtol=tol)
+            ci = c[i, None]
+            fine = np.isfinite(ci)
+            th = np.where(fine, np.where(fine, ci, 1.0) * np.sinh(x), x)
+            jac = np.where(fine, np.where(fine, ci, 1.0) * np.cosh(x), 1.0)
+            return f(th, redo[i]) * jac
+        with np.errstate(invalid="ignore", divide="ignore"):
+            hi = np.where(np.isfinite(c), np.arcsinh(th_hi[redo] / c), th_hi[redo])
+        v_, e_, _ = integrate(fr, np.zeros(redo.size), hi, rtol=tol)
         val[redo], err[redo] = v_, e_
     err = np.where(th_hi > 0, err, 0.0)
     # the neglected tail beyond the cut: the integrand in q there is
