@@ -196,12 +196,14 @@ _CLAIMS = None
 
 
 def _claim(claims, i):
-    """True for the first process that claims task ``i`` (it computes it)."""
-    with claims.get_lock():
-        if claims[i]:
-            return False
-        claims[i] = 1
-        return True
+    """True for the first process that claims task ``i`` (it computes it).
+    No lock (a worker killed while holding one would stop the others): two
+    processes may, rarely, both claim a task; it is then computed twice, and
+    its rows are kept once (the same numbers)."""
+    if claims[i]:
+        return False
+    claims[i] = 1
+    return True
 
 
 def _claimed_task(i, task):
@@ -230,7 +232,7 @@ class LocalPool:
     def __init__(self, size, tasks):
         self.ctx = worker_context()
         self.size = size
-        self.claims = self.ctx.Array("b", tasks)
+        self.claims = self.ctx.Array("b", tasks, lock=False)
         self._life_r, self._life_w = self.ctx.Pipe(duplex=False)
         self.executor = None
         self.error = None
