@@ -68,11 +68,12 @@ def _work_edge(disp, v, W, wc, sign, qcut):
 
 
 def _last_harmonic(disp, R, W, wc, sign, qcut, rtol, lo):
-    """First harmonic m >= lo (per point) at which the sum stops (beyond the
-    cutoff, or Kapteyn's bound of the remainder below 0.1 rtol): doubling,
-    then bisection on integers.  inf where it is beyond 1e15."""
+    """First harmonic m >= lo (per point and family: ``sign`` an array) at
+    which the sum stops (beyond the cutoff, or Kapteyn's bound of the
+    remainder below 0.1 rtol): doubling, then bisection on integers.  inf
+    where it is beyond 1e15."""
     def stops(m, i):
-        q = disp.inverse(sign * W[i] + m * wc[i])
+        q = disp.inverse(sign[i] * W[i] + m * wc[i])
         z = q * R[i] / np.maximum(m, 1)
         rho2 = kapteyn(np.minimum(z, 1.0)) ** 2
         with np.errstate(divide="ignore"):
@@ -120,22 +121,30 @@ def circular_works(gas, R, v, W, s, rtol=1e-8):
     wc = v / R
     qcut = math.sqrt(CUT) / s if s > 0 else math.inf
     harmonics, evals = np.zeros(R.size), np.zeros(R.size)
+    fam = []                          # (sign, points, mlo, start, lo) of each family
     for sign in (+1, -1):
         pts = np.arange(R.size) if sign > 0 else np.nonzero(W > 0)[0]
-        if pts.size == 0:
-            continue
-        Wp, wp, Rp = W[pts], wc[pts], R[pts]
+        Wp, wp = W[pts], wc[pts]
         mlo = first_harmonic(Wp, wp, sign)
-        m_edge = _work_edge(disp, v[pts], Wp, wp, sign, qcut)
+        m_edge = _work_edge(disp, v[pts], Wp, wp, sign, qcut) if pts.size else mlo
         start = np.where((Wp > 0) & (sign > 0), 0.0, mlo)
         lo = np.maximum(np.maximum(start, 1),
                         np.where(np.isfinite(m_edge), np.trunc(np.minimum(m_edge, 1e15)), 1))
-        m_hi = _last_harmonic(disp, Rp, Wp, wp, sign, qcut, rtol, lo)
+        fam.append((sign, pts, mlo, start, lo))
+    # both families' last harmonics in one search
+    every = np.concatenate([f[1] for f in fam])
+    signs = np.concatenate([np.full(f[1].size, float(f[0])) for f in fam])
+    m_hi_all = _last_harmonic(disp, R[every], W[every], wc[every], signs, qcut, rtol,
+                              np.concatenate([f[4] for f in fam]))
+    offset = 0
+    for sign, pts, mlo, start, _ in fam:
+        m_hi = m_hi_all[offset:offset + pts.size]
+        offset += pts.size
         count = (m_hi - start + 1) + np.maximum(start - mlo, 0)
         harmonics[pts] += count
         if d == 3:
-            cost = [_bessel_cost_3d(disp, Rp[i], Wp[i], wp[i], sign, mlo[i], m_hi[i])
-                    if math.isfinite(count[i]) else math.inf for i in range(pts.size)]
+            cost = [_bessel_cost_3d(disp, R[j], W[j], wc[j], sign, mlo[i], m_hi[i])
+                    if math.isfinite(count[i]) else math.inf for i, j in enumerate(pts)]
             evals[pts] += np.array(cost)
         else:
             evals[pts] += 2.0 * count
