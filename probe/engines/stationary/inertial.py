@@ -388,8 +388,10 @@ _PAIRS_2D = ((44, 34), (72, 56))
 #: grading of the 2D variable: theta = c sinh(w) with c = _GRADE 2 sqrt(1/(b - a)),
 #: the theta at which q - a reaches the healing scale q ~ 1 of a wide window
 _GRADE = 0.3
-#: rows per block of the 2D fixed rules (bounds the memory of the node arrays)
-_BLOCK = 128
+#: nodes per block of the 2D fixed rules (rows times nodes per row): the
+#: node arrays stay in cache and within numpy's buffer (8192 elements), past
+#: which its broadcasting operations run in buffered chunks, far slower
+_BLOCK = 8192
 
 
 def _theta_top(win, top):
@@ -503,7 +505,8 @@ def _pair_sums_2d(gas, win, kind, tags, rows, s2, c2, wts, n):
     One evaluation of the part the tags share (q S |F|^2 and the window
     factor, formed directly: sqrt((q - a)(b - q) / ((k v)^2 - X^2)), whose
     terms vanish at the edges: their rounding, node by node, is part of the
-    estimate).  {tag: (value, estimate)}."""
+    estimate).  {tag: (value, the other rule's value, rounding sum)}: the
+    estimate from ``_pair_estimate``."""
     disp = gas.disp
     col = (lambda x: x[rows, None])
     a, b, v, W, s = (col(x) for x in (win.a, win.b, win.v, win.W, win.s))
@@ -546,12 +549,18 @@ def _pair_sums_2d(gas, win, kind, tags, rows, s2, c2, wts, n):
             vals = base * om if t == "energy" else base
         # row by row sums (each row's own loop, whatever the number of
         # rows): a point's value is the same alone or in a grid
-        hi = np.einsum("ij->i", vals[:, :n])
-        with np.errstate(invalid="ignore", over="ignore"):
-            bound = (np.abs(hi - np.einsum("ij->i", vals[:, n:])) + 16 * EPS * np.abs(hi)
-                     + 4 * EPS * np.abs(np.einsum("ij,ij->i", vals[:, :n], rnd)))
-        out[t] = (hi, np.where(np.isfinite(bound), bound, np.inf))
+        out[t] = (np.einsum("ij->i", vals[:, :n]), np.einsum("ij->i", vals[:, n:]),
+                  np.einsum("ij,ij->i", vals[:, :n], rnd))
     return out
+
+
+def _pair_estimate(hi, lo, rs):
+    """The estimate of a pair of rules from ``_pair_sums_2d``'s sums: the
+    rules' difference and the rounding of the factor, 4 eps ``rs`` + 16 eps
+    of the value (inf where not finite)."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        bound = np.abs(hi - lo) + 16 * EPS * np.abs(hi) + 4 * EPS * np.abs(rs)
+    return np.where(np.isfinite(bound), bound, np.inf)
 
 
 def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders, level=None):
@@ -559,7 +568,7 @@ def _lean_pair_2d(gas, win, kind, tags, rows, th_hi, orders, level=None):
     windows ``rows``: with a grading ``level`` (rows of one level), the
     periodic pair of midpoint rules of ``_periodic_nodes`` (th_hi = pi),
     else the fixed pair of Gauss-Legendre rules in the graded angle of
-    ``_graded_nodes``.  {tag: (value, estimate)}."""
+    ``_graded_nodes``.  The sums of ``_pair_sums_2d`` per tag."""
     if level is not None:
         s2, c2, wts = _periodic_nodes(level, orders)
         return _pair_sums_2d(gas, win, kind, tags, rows, s2, c2, wts, orders[0])
@@ -595,14 +604,20 @@ def _lean_2d(gas, win, kind, tags, tops, orders, todo):
         level[ok] = _periodic_level(win, np.nonzero(ok)[0])
         mask = ok & close & (th_max >= math.pi)
         jobs = [(tags, mask & (level == lev), th_max, lev) for lev in range(_MAX_LEVEL + 1)]
+    block = max(16, _BLOCK // sum(orders))
+    sums = {t: np.zeros((3, n)) for t in tags}
+    done = {t: np.zeros(n, dtype=bool) for t in tags}
     for job_tags, mask, th, lev in jobs:
         sel = np.nonzero(mask)[0]
-        for k in range(0, sel.size, _BLOCK):
-            rows = sel[k:k + _BLOCK]
+        for k in range(0, sel.size, block):
+            rows = sel[k:k + block]
             got = _lean_pair_2d(gas, win, kind, job_tags, rows, th[rows], orders, lev)
             for t in job_tags:
-                res[t][0][rows] = got[t][0]
-                res[t][1][rows] = got[t][1]
+                sums[t][:, rows] = got[t]
+                done[t][rows] = True
+    for t in tags:
+        res[t][0][done[t]] = sums[t][0, done[t]]
+        res[t][1][done[t]] = _pair_estimate(*sums[t][:, done[t]])
     return res, {t: np.where(ok & close, th_max, ths[t]) for t in tags}
 
 
