@@ -516,10 +516,10 @@ def _pair_sums_2d(gas, win, kind, tags, rows, s2, c2, wts, n):
     q = a + da
     om = disp.omega(q)
     vq = v * q
-    if kind == "W1":
-        p1, p2 = vq + om - W, vq - om + W
-    else:
-        p1, p2 = vq - om - W, vq + om + W
+    p1 = vq + om if kind == "W1" else vq - om
+    p1 -= W
+    p2 = vq - om if kind == "W1" else vq + om
+    p2 += W
     with np.errstate(invalid="ignore", divide="ignore", over="ignore", under="ignore"):
         den = p1 * p2
         base = da * db
@@ -544,7 +544,9 @@ def _pair_sums_2d(gas, win, kind, tags, rows, s2, c2, wts, n):
     for t in tags:
         if t == "thermal":
             with np.errstate(over="ignore", divide="ignore"):
-                vals = base / np.expm1(om * (1.0 / gas.T))
+                vals = om * (1.0 / gas.T)
+                np.expm1(vals, out=vals)
+                np.divide(base, vals, out=vals)
         else:
             vals = base * om if t == "energy" else base
         # row by row sums (each row's own loop, whatever the number of
