@@ -7,8 +7,8 @@ A N x N (default 200 x 200) map of the circular engine over speed (0.2 to
 examples/ring2d_circular.toml (healing length 1.14 um), written to a CSV
 exactly as `probe sweep ... --out` does, once with one worker and once with
 `--workers 2`, K times (default 1), the two alternating.  Every run is a
-fresh Python process (as every `probe sweep` is: the fork server that
-starts the workers starts inside the timing), which imports the package and
+fresh Python process (as every `probe sweep` is: the workers, forked from
+it on Linux, or from a fork server elsewhere, start inside the timing), which imports the package and
 computes a small warm-up sweep with one worker before the timed one; with
 --cli every run is the command `probe sweep ... --out FILE [--workers 2]`
 itself, its imports and planning included (its processes sampled every
@@ -17,7 +17,7 @@ itself, its imports and planning included (its processes sampled every
 Per run it prints the wall time, how busy the machine's cores were
 meanwhile (/proc/stat) and how much of that was this sweep (its processes'
 CPU time, /proc/PID/stat, split into the sweep's own process, the helper
-processes below it (the fork server) and the workers below those) and how
+processes below it (a fork server, if any) and the workers) and how
 much other programs, with the load average, and how long the processes
 waited for a core (/proc/PID/schedstat).  At the end: the median wall
 times and their ratio, and, since other programs on a shared machine slow
@@ -70,7 +70,7 @@ def _stat(pid):
         with open(f"/proc/{pid}/schedstat") as fh:
             wait = int(fh.read().split()[1]) * 1e-9
         with open(f"/proc/{pid}/cmdline", "rb") as fh:
-            server = b"forkserver" in fh.read()
+            server = b"multiprocessing" in fh.read()   # a fork server, a resource tracker
     except (OSError, ValueError, IndexError):
         return None
     f = stat[stat.rindex(")") + 2:].split()
@@ -78,10 +78,10 @@ def _stat(pid):
 
 
 def _tree(root=None):
-    """{pid: (depth, CPU seconds, seconds waiting for a core, lane)} of this
-    process or ``root`` (depth 0, lane 0) and every process below it (1:
-    the fork server, 2: the workers it forked; lane 1: the fork server and the
-    workers, which the workers' start waits for), from /proc; {} elsewhere."""
+    """{pid: (kind, CPU seconds, seconds waiting for a core, lane)} of this
+    process or ``root`` (kind 0, lane 0) and every process below it (kind 1:
+    a fork server or resource tracker; 2: a worker, forked by this process
+    or by the fork server; lane 1: all of them), from /proc; {} elsewhere."""
     try:
         names = [int(e) for e in os.listdir("/proc") if e.isdigit()]
     except OSError:
@@ -93,8 +93,8 @@ def _tree(root=None):
         level += 1
         frontier = {p for p, st in stats.items() if st[0] in frontier} - set(depth)
         depth.update((p, level) for p in frontier)
-    return {p: (d, stats[p][1], stats[p][2], 0 if d == 0 else
-                (1 if d >= 2 or stats[p][3] else None))
+    return {p: (0 if d == 0 else (1 if stats[p][3] else 2), stats[p][1], stats[p][2],
+                0 if d == 0 else 1)
             for p, d in depth.items() if p in stats}
 
 

@@ -19,6 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from probe.design.sweep.grid import Axis
+from probe.design.workers import forget_in_workers
 from probe.errors import InputError
 from probe.quantities import QUANTITIES
 
@@ -365,6 +366,7 @@ class SweepLock:
         os.ftruncate(fd, 0)
         os.write(fd, f"{os.getpid()}\n".encode())
         self.fd = fd
+        forget_in_workers(fd)           # a forked worker must not hold the lock
 
     def release(self):
         """Remove the lock file (while still holding it) and let go."""
@@ -374,6 +376,7 @@ class SweepLock:
             self.path.unlink(missing_ok=True)
         except OSError:
             pass
+        forget_in_workers(self.fd, keep=False)
         os.close(self.fd)
         self.fd = None
 

@@ -32,7 +32,7 @@ import numpy as np
 
 from probe.design.sweep.evaluators import evaluator_for
 from probe.design.sweep.keys import assign
-from probe.design.workers import worker_context
+from probe.design.workers import in_forked_worker, worker_context
 from probe.errors import InputError, ModelError
 
 
@@ -212,12 +212,17 @@ def _claimed_task(i, task):
     return run_task(task) if _claim(_CLAIMS, i) else None
 
 
-def _worker_init(life, claims):
+def _worker_init(life, claims, life_w=None):
     """In each worker: Ctrl-C goes to the sweep's process (which stops the
-    pool), and the worker ends when that process does."""
+    pool), and the worker ends when that process does.  A worker forked
+    from the sweep's process itself (``life_w``: the pipe's write end it
+    inherited) closes that end and what else only the sweep holds."""
     import signal
     global _CLAIMS
     _CLAIMS = claims
+    if life_w is not None:
+        life_w.close()
+        in_forked_worker()
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     threading.Thread(target=_watch_parent, args=(life,), daemon=True,
                      name="sweep-parent-watch").start()
@@ -238,20 +243,36 @@ class LocalPool:
         self.error = None
         self._closed = False
         self._lock = threading.Lock()
-        self._thread = threading.Thread(target=self._start, daemon=True,
+        started = None
+        if self.ctx.get_start_method() == "fork":
+            # forked here, in this thread, before any other starts: the
+            # first calls fork every worker at once (milliseconds)
+            started = self._submit_first()
+        self._thread = threading.Thread(target=self._start, args=(started,), daemon=True,
                                         name="sweep-pool-start")
         self._thread.start()
 
-    def _start(self):
+    def _submit_first(self):
+        """(executor, the first calls) or the error that stopped the start."""
         from concurrent.futures import ProcessPoolExecutor
 
         ex = None
         try:
+            direct = self.ctx.get_start_method() == "fork"
             ex = ProcessPoolExecutor(max_workers=self.size, mp_context=self.ctx,
                                      initializer=_worker_init,
-                                     initargs=(self._life_r, self.claims))
-            # the first calls start the processes
-            for fut in [ex.submit(os.getpid) for _ in range(self.size)]:
+                                     initargs=(self._life_r, self.claims,
+                                               self._life_w if direct else None))
+            return ex, [ex.submit(os.getpid) for _ in range(self.size)]
+        except Exception as exc:              # the caller computes alone
+            return ex, exc
+
+    def _start(self, started=None):
+        ex, first = started if started is not None else self._submit_first()
+        try:
+            if isinstance(first, Exception):
+                raise first
+            for fut in first:               # the workers are ready
                 fut.result()
         except Exception as exc:              # the caller computes alone
             self.error = exc
