@@ -302,6 +302,38 @@ def test_workers_give_the_same_numbers(tmp_path):
     assert two.meta["evaluation"]["workers"] == 2
 
 
+@pytest.mark.parametrize("forked_here", [True, False])
+def test_workers_by_either_start_give_the_same_file(tmp_path, monkeypatch, forked_here):
+    """Workers forked from this process (Linux) and workers from a fork
+    server (elsewhere, or while other threads run) write the same bytes."""
+    import threading
+    from probe.design import workers
+    if forked_here and not sys.platform.startswith("linux"):
+        pytest.skip("workers are forked from the sweep's process on Linux only")
+    monkeypatch.setattr(workers, "_forking_is_safe", lambda: forked_here)
+    assert workers.worker_context().get_start_method() == ("fork" if forked_here else
+                                                           "forkserver")
+    one = tmp_path / "one.csv"
+    sweep(RING, VARY_RING, out=one)
+    two = sweep(RING, VARY_RING, out=tmp_path / "two.csv", workers=2, chunk_size=3)
+    assert one.read_bytes() == (tmp_path / "two.csv").read_bytes()
+    assert two.meta["evaluation"]["workers"] == 2
+
+
+def test_forking_is_refused_while_another_thread_works():
+    import threading
+    from probe.design import workers
+    stop = threading.Event()
+    other = threading.Thread(target=stop.wait)           # not a daemon: may hold locks
+    other.start()
+    try:
+        assert not workers._forking_is_safe()
+        assert workers.worker_context().get_start_method() != "fork"
+    finally:
+        stop.set()
+        other.join()
+
+
 # ---------------------------------------------------------------------------
 # command line
 # ---------------------------------------------------------------------------
