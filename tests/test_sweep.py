@@ -306,7 +306,6 @@ def test_workers_give_the_same_numbers(tmp_path):
 def test_workers_by_either_start_give_the_same_file(tmp_path, monkeypatch, forked_here):
     """Workers forked from this process (Linux) and workers from a fork
     server (elsewhere, or while other threads run) write the same bytes."""
-    import threading
     from probe.design import workers
     if forked_here and not sys.platform.startswith("linux"):
         pytest.skip("workers are forked from the sweep's process on Linux only")
