@@ -5,6 +5,7 @@ a second run from writing the same partial file while the first runs."""
 from __future__ import annotations
 
 import csv
+import functools
 import glob
 import io
 import json
@@ -119,13 +120,28 @@ def cell_text(x, integer=False):
     return repr(x)
 
 
+@functools.lru_cache(maxsize=16)
+def _cell_kinds(columns):
+    """Per column: None (the warnings column: written last), True (a whole
+    number), False (any number)."""
+    return tuple(None if name == "warnings" else name in INTEGER_COLUMNS for name in columns)
+
+
 def row_text(columns, row, warning):
-    """The cells of one row (the warnings cell last, on one line)."""
+    """The cells of one row (the warnings cell last, on one line): the
+    cells of :func:`cell_text`, formed from the row's Python floats."""
     cells = []
-    for name, x in zip(columns, row):
-        if name == "warnings":
+    values = row.tolist() if isinstance(row, np.ndarray) else [float(x) for x in row]
+    for integer, x in zip(_cell_kinds(tuple(columns)), values):
+        if integer is None:
             continue
-        cells.append(cell_text(x, integer=name in INTEGER_COLUMNS and math.isfinite(x)))
+        x = float(x)
+        if x != x:
+            cells.append("nan")
+        elif x == math.inf or x == -math.inf:
+            cells.append("inf" if x > 0 else "-inf")
+        else:
+            cells.append(str(int(x)) if integer else repr(x))
     cells.append(warning.replace("\n", " "))
     return cells
 
@@ -503,8 +519,12 @@ class PartialFile:
 
     def write(self, index, rows, warnings):
         cols = self.plan.columns
-        for i, row, w in zip(index, rows, warnings):
-            self.fh.write(csv_line(row_text(cols, row, w)))
+        buf = io.StringIO()
+        writer = csv.writer(buf, lineterminator="\n")     # the lines of csv_line
+        for row, w in zip(rows, warnings):
+            writer.writerow(row_text(cols, row, w))
+        self.fh.write(buf.getvalue())
+        for i in index:
             self._remember(int(i))
         self.fh.flush()
 
