@@ -315,7 +315,8 @@ def test_unset_reaches_every_config_and_fails_before_any_output(files, tmp_path)
     r = run("rates", "--json", files["two_level"], files["density"],
             "--unset", "probe.gap", "--set", "probe.model=density", "-o", str(out))
     assert r.exit_code == 2 and not out.exists()
-    assert r.stderr.strip() == "error: probe.gap: not in the scenario, nothing to unset"
+    assert r.stderr.strip() == ("error: probe.gap: not in the scenario, nothing to unset "
+                                f"(in {files['density']})")       # which of the files
 
 
 def test_every_command_with_set_has_unset():
@@ -394,3 +395,17 @@ def test_python_api_takes_removals(tmp_path):
     with pytest.raises(probe.InputError) as exc:
         load_config(BOX, removals=["condensate.size"])
     assert exc.value.key == "condensate.size"
+
+
+@pytest.mark.parametrize("command, good", [
+    ("rates", "box3d_supersonic.toml"), ("transit", "transits/box3d_crossing.toml")])
+def test_a_bad_file_among_several_is_named(tmp_path, command, good):
+    bad = tmp_path / "bad.toml"
+    bad.write_text('[condensate]\ndimension = 3\ndensty = "1e20 m^-3"\n')
+    r = CliRunner().invoke(cli, [command, str(EXAMPLES / good), str(bad)])
+    assert r.exit_code == 2
+    line = r.output.strip()
+    assert line.startswith("error: condensate.densty: unknown key") and "\n" not in line
+    assert line.endswith(f"(in {bad})")
+    alone = CliRunner().invoke(cli, [command, str(bad)])      # one file: nothing added
+    assert alone.exit_code == 2 and "(in " not in alone.output

@@ -466,3 +466,15 @@ def test_a_spline_transit_reads_its_waypoint_file_from_any_folder(tmp_path, monk
     for i, g in enumerate(res.column("probe.gap")):
         ref = load_config(str(spline), [f"probe.gap={float(g)!r} rad/s"]).transit()
         assert res.column("up_probability")[i] == ref.up_probability
+
+
+def test_resume_without_an_interrupted_run_says_so(tmp_path):
+    out = tmp_path / "r.csv"
+    r = CliRunner().invoke(cli, ["sweep", BOX, "--vary", "trajectory.speed=0.5c_s:3c_s:3",
+                                 "--out", str(out), "--resume"])
+    assert r.exit_code == 0, r.output
+    assert f"resumed: no interrupted run was found ({out}.partial)" in r.output
+    plain = CliRunner().invoke(cli, ["sweep", BOX, "--vary", "trajectory.speed=0.5c_s:3c_s:3",
+                                     "--out", str(tmp_path / "p.csv")])
+    assert "resumed" not in plain.output
+    assert out.read_bytes() == (tmp_path / "p.csv").read_bytes()

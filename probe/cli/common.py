@@ -46,6 +46,22 @@ def refusal(key, message):
                                    message))
 
 
+def load_configs(configs, overrides=(), removals=()):
+    """The scenarios of the files ``configs``; with several files, a bad
+    one's message ends with the file's name (``(in FILE)``)."""
+    from probe.scenarios.config import load_config
+
+    scenarios = []
+    for path in configs:
+        try:
+            scenarios.append(load_config(path, overrides, removals=removals))
+        except InputError as exc:
+            if len(configs) < 2:
+                raise
+            raise InputError(exc.key, f"{exc.message} (in {path})") from None
+    return scenarios
+
+
 def fail(exc):
     raise refusal(getattr(exc, "key", None),
                   getattr(exc, "message", None) or str(exc)) from None

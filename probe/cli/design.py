@@ -134,7 +134,7 @@ def sweep_json(result, out=None, plot=None):
             **_table_json(result.columns, result.units, rows), "files": files}
 
 
-def _sweep_summary(result, out, plot):
+def _sweep_summary(result, out, plot, resume=False):
     from probe.design.sweep import sidecar_path
 
     n = result.data.shape[0]
@@ -147,6 +147,9 @@ def _sweep_summary(result, out, plot):
     resumed = result.meta["evaluation"]["points_resumed"]
     if resumed:
         lines.append(f"resumed: {resumed} points were kept from the interrupted run")
+    elif resume:
+        lines.append(f"resumed: no interrupted run was found ({out}.partial), "
+                     "so every point was computed")
     if flagged:
         lines.append(f"warnings at {flagged} of {n} points (see the warnings column)"
                      + (f"; no result at {missing} points" if missing else ""))
@@ -216,7 +219,7 @@ def sweep(config, vary, log, out, as_json, overrides, removals, resume, workers,
     except input_errors() as exc:
         fail(exc)
     click.echo(json_text(sweep_json(result, out, plot)) if as_json
-               else _sweep_summary(result, out, plot))
+               else _sweep_summary(result, out, plot, resume))
 
 
 # ---------------------------------------------------------------------------

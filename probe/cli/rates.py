@@ -18,7 +18,7 @@ from probe import constants as sc
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_derived_rows, cloud_input_rows, cloud_json
 from probe.cli.common import (KIND_EXTRAS, fail, input_errors, json_option, json_value,
-                              num, out_option, outputs_json, q, report, result_rows)
+                              load_configs, num, out_option, outputs_json, q, report, result_rows)
 from probe.cli.outputs import Outputs, json_by_suffix, scenario_inputs
 from probe.cli.progress import Progress
 from probe.cli.planning import attach, planning_blocks, planning_inputs, planning_json
@@ -189,12 +189,10 @@ OUT_KEY = "--output"
 def rates(configs, as_json, overrides, removals, out):
     """Stationary up/down (or emission) rates for each scenario file CONFIG."""
     from probe.design.planning import plan_rates, planning_spec
-    from probe.scenarios.config import load_config
-
     done = []
     try:
         with Outputs() as outputs:
-            scenarios = [load_config(path, overrides, removals=removals) for path in configs]
+            scenarios = load_configs(configs, overrides, removals)
             for s in scenarios:
                 outputs.add_inputs(scenario_inputs(s.source, s.raw))
             outputs.check(out, OUT_KEY)

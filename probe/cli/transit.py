@@ -40,7 +40,7 @@ import click
 
 from probe.cli.app import cli
 from probe.cli.cloud import cloud_json
-from probe.cli.common import (fail, input_errors, json_option, num, out_option,
+from probe.cli.common import (fail, input_errors, json_option, load_configs, num, out_option,
                               outputs_json, q, report, result_rows)
 from probe.cli.outputs import Outputs, json_by_suffix, scenario_inputs
 from probe.cli.progress import Progress
@@ -342,12 +342,9 @@ def _run(outputs, scenarios, spectrum, plot):
 def transit(configs, as_json, out, spectrum, plot, overrides, removals):
     """First-order transition probabilities of finite transits: a spline path
     through waypoints, or a linear or circular path with a switching function."""
-    from probe.scenarios.config import load_config
-
     try:
         with Outputs() as outputs:
-            scenarios = [load_config(path, overrides, removals=removals)
-                         for path in configs]
+            scenarios = load_configs(configs, overrides, removals)
             for scenario in scenarios:
                 check_transit(scenario)
             _check_files(outputs, scenarios, out, spectrum, plot)
