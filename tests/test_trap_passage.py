@@ -207,3 +207,18 @@ def test_crossing_switching_integrates_to_the_crossing_time():
     assert c.integral == pytest.approx(3e-3, rel=1e-12)
     with pytest.raises(InputError):
         Crossing(1e-3, 2e-3, 2e-3)
+
+
+def test_warning_names_each_stretch_of_the_passage():
+    """The share of the passage where a local-density check fails, and each
+    stretch of it (two edges of a cloud are two stretches, not one range)."""
+    from types import SimpleNamespace
+    from probe.engines.passage import _fraction_text
+    res = SimpleNamespace(time=np.linspace(-5e-3, 5e-3, 11))         # 1 ms apart
+    edges = np.abs(res.time) > 3.5e-3                                   # t = +-4, +-5 ms
+    assert _fraction_text(edges, res) == ("over 36.4 % of the passage "
+                                          "(t = -5 .. -4 and 4 .. 5 ms)")
+    one = res.time > -0.5e-3
+    assert _fraction_text(one, res).endswith("(t = 0 .. 5 ms)")
+    many = np.arange(11) % 2 == 0                                       # 6 stretches
+    assert _fraction_text(many, res).endswith("(6 stretches between t = -5 and 5 ms)")

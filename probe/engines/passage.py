@@ -233,13 +233,21 @@ def _pad(x, d):
 
 
 # --- validity of the local-density picture ------------------------------------
-def _fraction_text(mask, res):
-    """'over 12 % of the passage (t = 1.2 .. 3.4 ms)'."""
+def _fraction_text(mask, res, most=3):
+    """'over 12 % of the passage (t = 1.2 .. 3.4 ms)', each stretch of the
+    passage where ``mask`` holds named ('t = -4.5 .. -3.1 ms and 3.1 .. 4.5
+    ms'; beyond ``most`` stretches, their number and where they lie)."""
     t = res.time
     weights = np.gradient(t)
     frac = float(np.sum(weights[mask]) / np.sum(weights))
-    lo, hi = t[mask].min() * 1e3, t[mask].max() * 1e3
-    return f"over {100 * frac:.3g} % of the passage (t = {lo:.4g} .. {hi:.4g} ms)"
+    flags = np.concatenate([[False], np.asarray(mask, bool), [False]])
+    starts = np.flatnonzero(~flags[:-1] & flags[1:])
+    ends = np.flatnonzero(flags[:-1] & ~flags[1:]) - 1
+    if len(starts) > most:
+        return (f"over {100 * frac:.3g} % of the passage ({len(starts)} stretches "
+                f"between t = {t[starts[0]] * 1e3:.4g} and {t[ends[-1]] * 1e3:.4g} ms)")
+    spans = [f"{t[a] * 1e3:.4g} .. {t[b] * 1e3:.4g}" for a, b in zip(starts, ends)]
+    return f"over {100 * frac:.3g} % of the passage (t = {' and '.join(spans)} ms)"
 
 
 def _gradient_warnings(trap, res):
