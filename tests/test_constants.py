@@ -150,3 +150,9 @@ def test_memo_of_another_key_is_not_read(tmp_path, monkeypatch):
     assert cache.Memo("m", lambda: "old").get("x") == 1.0
     assert cache.Memo("m", lambda: "new").get("x") is None
     assert cache.Memo("m", lambda: None).get("x") is None   # no key: nothing kept
+
+
+@pytest.mark.parametrize("written", ["87Rb", "Rb87", "rb-87", "87RB", " 87 rb "])
+def test_isotope_is_shown_as_mass_number_and_symbol(written):
+    assert values.species_name(written) == "87Rb"
+    assert values.species_mass(written) == values.species_mass("87Rb")

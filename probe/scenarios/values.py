@@ -118,6 +118,16 @@ def species_mass(species, key="condensate.species"):
     return mass_u * sc.atomic_mass
 
 
+def species_name(species):
+    """An isotope as the tool writes it: mass number then symbol (``"Rb87"``,
+    ``"rb-87"`` -> ``"87Rb"``); a text that is not an isotope unchanged."""
+    m = _SPECIES.match(species) if isinstance(species, str) else None
+    if not m:
+        return species
+    a_text, sym = (m.group(1), m.group(2)) if m.group(1) else (m.group(4), m.group(3))
+    return f"{int(a_text)}{sym[0].upper()}{sym[1:].lower()}"
+
+
 def _isotope_mass(species, key, sym, a):
     """Mass (u) of isotope ``a`` of element ``sym`` from ``periodictable``."""
     import periodictable
@@ -148,7 +158,7 @@ def mass(body, species_key, mass_key, default=None, default_label=None):
         raise InputError(mass_key.dotted, "give either species or mass, not both")
     if species_key.name in body:
         species = body[species_key.name]
-        return species_mass(species, species_key.dotted), species
+        return species_mass(species, species_key.dotted), species_name(species)
     if mass_key.name in body:
         return quantity(body, mass_key), None
     if default is not None:
