@@ -45,21 +45,28 @@ def first_harmonic(W, wc, sign):
     return np.where(W == 0, np.maximum(mlo, 1), mlo)
 
 
+def _window_edge_q(disp, v, W, sign):
+    """The wavenumber of a family's window edge, per point (arrays): the
+    down window's root_plus, or the up window's upper edge; where the up
+    window is empty, the threshold's q (0 without a gap); not capped."""
+    if sign > 0:
+        return disp.root_plus(v, W)
+    qe = disp.roots_up(v, W)[1]
+    gap = np.isnan(qe)
+    if gap.any():
+        qt = np.zeros(int(np.count_nonzero(gap)))
+        has = W[gap] > 0
+        if has.any():
+            qt[has] = disp.threshold(W[gap][has])[1]
+        qe[gap] = qt
+    return qe
+
+
 def _work_edge(disp, v, W, wc, sign, qcut):
     """The harmonic at the window edge for ``circular_work`` (arrays over
     points): the edge q (root_plus, or the up window's upper edge, or the
     threshold's q), capped at the form factor's cutoff."""
-    if sign > 0:
-        qe = disp.root_plus(v, W)
-    else:
-        qe = disp.roots_up(v, W)[1]
-        gap = np.isnan(qe)
-        if gap.any():
-            qt = np.zeros(int(np.count_nonzero(gap)))
-            has = W[gap] > 0
-            if has.any():
-                qt[has] = disp.threshold(W[gap][has])[1]
-            qe[gap] = qt
+    qe = _window_edge_q(disp, v, W, sign)
     qe = np.where(np.isfinite(qe), np.minimum(qe, qcut), qcut)
     fin = np.isfinite(qe)
     with np.errstate(invalid="ignore", over="ignore"):
@@ -409,19 +416,8 @@ class _HarmonicSums:
     def _edge(self, sign, pts):
         """The harmonic at the family's window edge (where k R ~ |m|), per point."""
         disp, v, W, qcut = self.disp, self.v[pts], self.W[pts], self.qcut
-        if sign > 0:
-            qe = disp.root_plus(v, W)
-            qe = np.where(np.isfinite(qe), qe, qcut)
-        else:
-            _, qd = disp.roots_up(v, W)
-            qe = np.where(np.isfinite(qd), qd, qcut)
-            gap = np.isnan(qd)
-            if gap.any():
-                qt = np.zeros(int(np.count_nonzero(gap)))
-                has = W[gap] > 0
-                if has.any():
-                    qt[has] = disp.threshold(W[gap][has])[1]
-                qe[gap] = np.where(np.isfinite(qt), qt, qcut)
+        qe = _window_edge_q(disp, v, W, sign)
+        qe = np.where(np.isfinite(qe), qe, qcut)
         fin = np.isfinite(qe)
         with np.errstate(invalid="ignore", over="ignore"):
             edge = (disp.omega(np.where(fin, qe, 0.0)) - sign * W) / self.wc[pts]
