@@ -53,7 +53,8 @@ from pathlib import Path
 import numpy as np
 
 from probe import constants as sc
-from probe.cache import CACHE_ENV, cache_dir  # noqa: F401 - CACHE_ENV: the cache's switch
+from probe.cache import CACHE_ENV  # noqa: F401 - the cache's switch, named here too
+from probe.cache import cache_dir, installed_stamp
 from probe.cache import read_cache as _read_cache, write_cache as _write_cache
 from probe.errors import InputError
 
@@ -212,19 +213,15 @@ MEMO_LIMIT = 20000
 
 def memo_key():
     """Name of the file of strings read: a hash of this module's code, of
-    ``CODATA_DEFINITIONS`` and of pint's definitions file and installed
-    version (found without importing pint), and Python's version."""
-    import importlib.util
+    ``CODATA_DEFINITIONS`` and of the installed pint (size and time of its
+    definitions file and two modules, found without importing it:
+    ``probe.cache.installed_stamp``), and Python's version."""
     digest = hashlib.sha256(Path(__file__).read_bytes())
     for line in CODATA_DEFINITIONS:
         digest.update(b"\n" + line.encode())
-    spec = importlib.util.find_spec("pint")
-    if spec is not None and spec.origin:
-        folder = Path(spec.origin).parent
-        digest.update((folder / "default_en.txt").read_bytes())
-        for name in ("__init__.py", "facets/plain/registry.py"):
-            stat = (folder / name).stat()
-            digest.update(f"{name} {stat.st_size} {stat.st_mtime_ns}".encode())
+    stamp = installed_stamp("pint", "__init__.py", "default_en.txt",
+                            "facets/plain/registry.py")
+    digest.update((stamp or "no pint").encode())
     python = "{}{}".format(*sys.version_info[:2])
     return f"strings-{_CACHE_FORMAT}-py{python}-{digest.hexdigest()[:20]}"
 
