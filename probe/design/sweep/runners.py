@@ -8,8 +8,9 @@ the sweep was planned: a worker never reads them from its own disk or
 working folder).
 
 Local workers (``run_local``): ``workers - 1`` processes start in the
-background (forked from a fork server that has imported the engine:
-``probe.design.workers``) while this process computes; the workers take
+background (on Linux forked from this process, elsewhere from a fork
+server that has imported the engine: ``probe.design.workers``) while this
+process computes; the workers take
 tasks from the start of the list, handed to them ahead, this process from
 its end, at last also those handed that no worker has begun (whoever
 begins a task claims it first), so that neither side waits while the other
@@ -243,8 +244,9 @@ class LocalPool:
         self.error = None
         self._closed = False
         self._lock = threading.Lock()
+        self._direct = self.ctx.get_start_method() == "fork"
         started = None
-        if self.ctx.get_start_method() == "fork":
+        if self._direct:
             # forked here, in this thread, before any other starts: the
             # first calls fork every worker at once (milliseconds)
             started = self._submit_first()
@@ -258,11 +260,10 @@ class LocalPool:
 
         ex = None
         try:
-            direct = self.ctx.get_start_method() == "fork"
             ex = ProcessPoolExecutor(max_workers=self.size, mp_context=self.ctx,
                                      initializer=_worker_init,
                                      initargs=(self._life_r, self.claims,
-                                               self._life_w if direct else None))
+                                               self._life_w if self._direct else None))
             return ex, [ex.submit(os.getpid) for _ in range(self.size)]
         except Exception as exc:              # the caller computes alone
             return ex, exc
