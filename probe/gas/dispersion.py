@@ -17,7 +17,10 @@ unbounded, so supersonic windows are finite), ``qs_integral(a, b)`` and
 ``qs_omega_integral(a, b)`` (closed forms of the 3D point-probe window
 integrals, or None), ``phase_divided(q, r)`` (the divided difference of
 the phase velocity free of cancellation, or None) and ``omega_precise(q)``
-(omega and its slope to 40 digits at one point, or None).  A new dispersion is one
+(omega and its slope to 40 digits at one point, or None), and
+``weight_increasing`` (q^(d-1) S(q)/v_g(q) non-decreasing in q for d = 2
+and 3, which lets the circular sums bound a whole family of harmonics by
+its last one).  A new dispersion is one
 subclass and one entry in ``DISPERSIONS``.
 
 Both spectra here are convex with omega(0) = 0, which the window logic in the
@@ -108,6 +111,8 @@ class Dispersion:
     name = "base"
     #: True when omega(q)/q is unbounded (supersonic windows are finite)
     bounded_windows = True
+    #: True when q S(q)/v_g(q) and q^2 S(q)/v_g(q) are non-decreasing in q
+    weight_increasing = False
 
     # --- to be supplied by a subclass -----------------------------------
     def omega(self, q):
@@ -353,6 +358,8 @@ class Bogoliubov(Dispersion):
     """
 
     name = "bogoliubov"
+    #: q S/v_g = q^2/(2 + q^2) and q^2 S/v_g = q^3/(2 + q^2) both increase
+    weight_increasing = True
 
     def omega(self, q):
         q = np.asarray(q, float)
@@ -480,6 +487,8 @@ class Phonon(Dispersion):
 
     name = "phonon"
     bounded_windows = False
+    #: q S/v_g = q^2/2 and q^2 S/v_g = q^3/2 both increase
+    weight_increasing = True
 
     def omega(self, q):
         return np.asarray(q, float) * 1.0

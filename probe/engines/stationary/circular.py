@@ -423,6 +423,40 @@ class _HarmonicSums:
             edge = (disp.omega(np.where(fin, qe, 0.0)) - sign * W) / self.wc[pts]
         return np.where(fin, edge, 1e9)
 
+    def silent_bound(self, pts, mlo, m_edge):
+        """A bound on the whole up family (``w_k = m w_c - W``, harmonics
+        from ``mlo``, edge harmonic ``m_edge``) of each point below the
+        threshold speed: (mask where it applies, its logarithm).  It does
+        not apply at T > 0, to the energy sum, or to spectra without
+        ``weight_increasing``; a family whose bound is below the smallest
+        doubles is not summed.  On the resonant shell z_m = q R/m =
+        v q/(omega(q) + W) <= v/v_th (the threshold speed is the least
+        (omega + W)/q), so Kapteyn's inequality bounds J_m^2 and W_m by
+        g^m with g = rho(v/v_th)^2 < 1; the weights P0 grow with q, so up
+        to the edge harmonic M (where z peaks) P0(q_M) bounds them, and
+        beyond it the remainder bound of ``_remainder`` applies:
+        sum <= P0(q_M) (g^mlo/(1 - g) + g^M g'/(1 - g')), g' = g e^(3/M)."""
+        disp = self.disp
+        if self.gas.T > 0 or self.energy or not disp.weight_increasing:
+            return np.zeros(pts.size, dtype=bool), np.zeros(pts.size)
+        W, v = self.W[pts], self.v[pts]
+        vt = disp.threshold(W)[0]
+        z = v / vt
+        M = np.ceil(np.where(np.isfinite(m_edge), m_edge, 0.0))
+        ok = (z < 1) & (M >= mlo) & (M >= 1) & (m_edge < 1e9)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            log_g = 2 * np.log(kapteyn(np.where(ok, z, 0.5)))
+            qM = disp.inverse(np.where(ok, M * self.wc[pts] - W, 1.0))
+            vg = disp.group_velocity(qM)
+            Sq = disp.structure_factor(qM)
+            P0 = qM * Sq / vg if self.d == 2 else qM * qM * Sq / (math.pi * vg)
+            log_g2 = log_g + 3.0 / np.maximum(M, 1)
+            ok &= (log_g2 < 0) & (P0 > 0) & np.isfinite(P0)
+            first = mlo * log_g - np.log1p(-np.exp(log_g))
+            rest = M * log_g + log_g2 - np.log1p(-np.exp(np.where(ok, log_g2, -1.0)))
+            log_bound = np.log(np.where(ok, P0, 1.0)) + np.logaddexp(first, rest)
+        return ok, np.where(ok, log_bound, math.inf)
+
     def family(self, sign, pts):
         """Sums, remainder bounds and counts of one family of harmonics for
         the points ``pts``: upward from the first (or from m = 0), then the
@@ -434,7 +468,17 @@ class _HarmonicSums:
         mlo = first_harmonic(W, wc, sign)
         up_start = np.maximum(mlo, 0) if sign > 0 else mlo
         up_start = np.where(W > 0, up_start, mlo)
-        tot, bnd, cnt = self.sweep(sign, pts, up_start, +1, None, self._edge(sign, pts))
+        edge = self._edge(sign, pts)
+        ok, log_bound = (self.silent_bound(pts, mlo, edge) if sign < 0
+                         else (np.zeros(pts.size, dtype=bool), None))
+        quiet = ok & (log_bound < math.log(1e-300)) if ok.any() else ok
+        if quiet.any():
+            # every term is below the smallest double: the family is 0
+            loud = ~quiet
+            tot, bnd, cnt = self.sweep(sign, pts[loud], up_start[loud], +1, None, edge[loud])
+            bnd["plain"][pts[quiet]] = np.maximum(np.exp(log_bound[quiet]), 5e-324)
+        else:
+            tot, bnd, cnt = self.sweep(sign, pts, up_start, +1, None, edge)
         neg = up_start > mlo
         if neg.any():
             # negative harmonics: w = W - |m| w_c > 0; they matter down to
