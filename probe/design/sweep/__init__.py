@@ -76,8 +76,8 @@ from probe.design.sweep.display import (COLUMN_KINDS, axis_value_text, column_ki
 from probe.design.sweep.evaluators import (EVALUATORS, PassageEvaluator, RatesEvaluator,
                                            TransitEvaluator, evaluate_point, evaluator_for)
 from probe.design.sweep.files import (PartialFile, SweepResult, cell_text, library_versions,
-                                      read_sweep, sidecar_path, sweep_meta, write_csv,
-                                      write_json)
+                                      meta_libraries, read_sweep, sidecar_path, sweep_meta,
+                                      write_csv, write_json)
 from probe.design.sweep.grid import (MAX_POINTS, Axis, Plan, make_axis, parse_vary,
                                      plan_sweep)
 from probe.design.sweep.keys import (NUMERIC_KEYS, VECTOR_KEYS, assign, check_numeric_key,
@@ -219,7 +219,21 @@ def _stopped(exc, partial):
     return InputError(exc.option, exc.message + where)
 
 
-def _run(tasks, workers, scheduler, collect):
+class _Versions:
+    """The library versions a sweep's sidecar records, looked up once
+    (tens of milliseconds): while local workers compute, else at the end."""
+
+    def __init__(self, scheduler):
+        self.extra = meta_libraries(scheduler)
+        self.value = None
+
+    def __call__(self):
+        if self.value is None:
+            self.value = library_versions(self.extra)
+        return self.value
+
+
+def _run(tasks, workers, scheduler, collect, versions=None):
     """Run the tasks; bad input at a point removes the partial file, an
     interrupt or anything else keeps it (a lost cluster or worker process
     ends in a one-line error saying how to resume)."""
@@ -230,7 +244,7 @@ def _run(tasks, workers, scheduler, collect):
         if scheduler is not None:
             run_dask(tasks, scheduler, collect)
         else:
-            run_local(tasks, workers, collect)
+            run_local(tasks, workers, collect, aside=versions)
     except SweepStopped as exc:
         if partial is not None:
             partial.close()
@@ -254,10 +268,12 @@ def _evaluate(plan, partial, progress, chunk_size, workers, scheduler, command, 
     if progress is not None and collect.done.any():
         progress(int(collect.done.sum()))
     t0 = time.perf_counter()
-    _run(tasks, workers, scheduler, collect)
+    versions = _Versions(scheduler)
+    _run(tasks, workers, scheduler, collect, versions)
     meta = sweep_meta(plan, workers=workers, scheduler=scheduler,
                       elapsed=time.perf_counter() - t0,
-                      resumed=int(plan.size - todo.size), command=command)
+                      resumed=int(plan.size - todo.size), command=command,
+                      libraries=versions())
     if partial is not None:
         with signals.finishing():
             partial.finish(collect.data, collect.warnings, meta)

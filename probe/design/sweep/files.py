@@ -146,6 +146,16 @@ def row_text(columns, row, warning):
     return cells
 
 
+def rows_lines(columns, rows, warnings):
+    """The CSV lines of ``rows`` (each ending in a newline) as one text:
+    the lines of :func:`csv_line` of their cells (:func:`row_text`)."""
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    for row, w in zip(rows, warnings):
+        writer.writerow(row_text(columns, row, w))
+    return buf.getvalue()
+
+
 def rows_text(columns, data, warnings):
     return [row_text(columns, data[i], warnings[i]) for i in range(data.shape[0])]
 
@@ -183,18 +193,40 @@ def write_csv(path, header, rows):
     _write_whole(path, write)
 
 
-def _write_in_order(partial, path, header):
+def _block_spans(blocks, size):
+    """The (start, end) of the blocks of rows (``PartialFile.blocks``) in
+    point order, or None when they cannot be put in order whole (a block
+    not in ascending order, blocks that interleave, or that do not cover
+    the ``size`` characters of the rows)."""
+    if not blocks or None in blocks:
+        return None
+    ordered = sorted(blocks)
+    if any(a[1] >= b[0] for a, b in zip(ordered, ordered[1:])) or \
+            sum(end - start for _, _, start, end in ordered) != size:
+        return None
+    return [(start, end) for _, _, start, end in ordered]
+
+
+def _write_in_order(partial, path, header, blocks=None):
     """The rows of ``partial`` (each point once, as this run wrote them)
     written to ``path`` in point order, atomically: the table of a sweep
-    whose rows came out of order, without formatting them again."""
+    whose rows came out of order, without formatting them again; whole
+    blocks of rows are moved when ``blocks`` (``PartialFile.blocks``) allow
+    it, else the rows one by one."""
     with open(partial, newline="") as fh:        # as it was written
         blob = fh.read()
-    rows = blob[len(header):].split("\n")[:-1]
-    rows.sort(key=lambda line: int(line[:line.index(",")]))
+    body = blob[len(header):]
+    spans = _block_spans(blocks, len(body))
+    if spans is None:
+        rows = body.split("\n")[:-1]
+        rows.sort(key=lambda line: int(line[:line.index(",")]))
+        parts = [r + "\n" for r in rows]
+    else:
+        parts = [body[start:end] for start, end in spans]
 
     def write(fh):
         fh.write(blob[:len(header)])
-        fh.writelines(r + "\n" for r in rows)
+        fh.writelines(parts)
         fh.flush()
         os.fsync(fh.fileno())
     _write_whole(path, write)
@@ -246,19 +278,28 @@ def library_versions(extra=()):
     return out
 
 
+def meta_libraries(scheduler=None):
+    """The libraries whose versions a sweep's sidecar records besides the
+    usual ones (:func:`library_versions`): Dask's, for a cluster."""
+    return ("dask", "distributed") if scheduler is not None else ()
+
+
 def _jsonable_scenario(scenario):
     return json.loads(json.dumps(scenario.describe(), default=_json_default))
 
 
-def sweep_meta(plan, workers=1, scheduler=None, elapsed=None, resumed=0, command=None):
-    """The sidecar record of a sweep."""
+def sweep_meta(plan, workers=1, scheduler=None, elapsed=None, resumed=0, command=None,
+               libraries=None):
+    """The sidecar record of a sweep (``libraries``: the record of
+    :func:`library_versions` for it, when already looked up)."""
     from probe import __version__
 
-    extra = ("dask", "distributed") if scheduler is not None else ()
+    if libraries is None:
+        libraries = library_versions(meta_libraries(scheduler))
     return {
         "tool": "condensate-probe",
         "version": __version__,
-        "libraries": library_versions(extra),
+        "libraries": libraries,
         "platform": platform.platform(),
         "created": time.strftime("%Y-%m-%dT%H:%M:%S%z"),
         "command": command,
@@ -419,6 +460,11 @@ class PartialFile:
         self.ordered = True
         self.last = -1
         self.count = 0
+        # the rows this run wrote, in blocks: (first point, last point,
+        # start, end) with start and end counted in characters after the
+        # header (None: a block whose points are not in ascending order)
+        self.blocks = []
+        self.written = 0
         parent = self.out.parent
         if not parent.is_dir():
             raise InputError("--out", f"directory {os.fspath(parent) or '.'!r} "
@@ -518,14 +564,22 @@ class PartialFile:
                 fh.truncate(good)
 
     def write(self, index, rows, warnings):
-        cols = self.plan.columns
-        buf = io.StringIO()
-        writer = csv.writer(buf, lineterminator="\n")     # the lines of csv_line
-        for row, w in zip(rows, warnings):
-            writer.writerow(row_text(cols, row, w))
-        self.fh.write(buf.getvalue())
-        for i in index:
-            self._remember(int(i))
+        """Write the rows of the points ``index``."""
+        self.write_text(index, rows_lines(self.plan.columns, rows, warnings))
+
+    def write_text(self, index, text):
+        """Write the lines ``text`` (:func:`rows_lines`) of the points
+        ``index``, and remember where they are in the file."""
+        self.fh.write(text)
+        idx = np.asarray(index).tolist()
+        if idx:
+            ascending = all(a < b for a, b in zip(idx, idx[1:]))
+            self.blocks.append((idx[0], idx[-1], self.written, self.written + len(text))
+                               if ascending else None)
+            self.count += len(idx)
+            self.ordered = self.ordered and ascending and idx[0] > self.last
+            self.last = max(self.last, max(idx))
+        self.written += len(text)
         self.fh.flush()
 
     def close(self):
@@ -554,7 +608,7 @@ class PartialFile:
         elif self.ordered and self.count == n and not self.resumed:
             os.replace(self.path, self.out)
         elif self.count == n and not self.resumed:         # from several workers
-            _write_in_order(self.path, self.out, self.header_line)
+            _write_in_order(self.path, self.out, self.header_line, self.blocks)
             self.path.unlink(missing_ok=True)
         else:
             write_csv(self.out, self.plan.header(), rows_text(self.plan.columns, data, warnings))

@@ -132,12 +132,12 @@ def _pieces(plan, chunk):
     may give digits that depend on the array's other points)."""
     everything = np.arange(plan.size)
     sub, group_axes, gkey, order = _groups(plan, everything)
-    axes, start = plan.axes, 0
-    while start < len(order):
-        g = tuple(gkey[order[start]])
-        stop = start
-        while stop < len(order) and tuple(gkey[order[stop]]) == g:
-            stop += 1
+    axes, keys = plan.axes, gkey[order]
+    # where the group changes along the sorted points
+    cuts = np.nonzero(np.any(keys[1:] != keys[:-1], axis=1))[0] + 1
+    bounds = [0, *cuts.tolist(), len(order)] if len(order) else [0]
+    for start, stop in zip(bounds[:-1], bounds[1:]):
+        g = tuple(keys[start])
         sel = order[start:stop]
         group = tuple((axes[k].key, axes[k].text(i)) for k, i in zip(group_axes, g))
         for s in range(0, sel.size, chunk):
@@ -145,7 +145,6 @@ def _pieces(plan, chunk):
             yield group, tuple((a.key, plan.vector.get(a.key), a.relative,
                                 a.values[sub[k][part]]) for k, a in enumerate(axes)), \
                 everything[part]
-        start = stop
 
 
 def make_tasks(plan, indices, chunk):
@@ -230,10 +229,12 @@ def _worker_init(life, claims, life_w=None):
 
 
 class LocalPool:
-    """``size`` worker processes for ``tasks`` tasks, started in the
-    background (starting them takes a fraction of a second or more: the
-    caller computes meanwhile).  ``executor`` is None until they are ready;
-    ``claims`` holds a flag per task, set by the process that computes it."""
+    """``size`` worker processes for ``tasks`` tasks: forked from this
+    process at once (``executor`` set: tasks can be handed to them before
+    this process computes its first), or started in the background from a
+    fork server (a fraction of a second or more: the caller computes
+    meanwhile; ``executor`` is None until they are ready).  ``claims`` holds
+    a flag per task, set by the process that computes it."""
 
     def __init__(self, size, tasks):
         self.ctx = worker_context()
@@ -245,36 +246,47 @@ class LocalPool:
         self._closed = False
         self._lock = threading.Lock()
         self._direct = self.ctx.get_start_method() == "fork"
-        started = None
+        self._thread = None
         if self._direct:
             # forked here, in this thread, before any other starts: the
-            # first calls fork every worker at once (milliseconds)
-            started = self._submit_first()
-        self._thread = threading.Thread(target=self._start, args=(started,), daemon=True,
+            # first call forks every worker at once (milliseconds), and
+            # tasks can be handed to them at once
+            self.executor, self.error = self._submit_first()
+            if self.error is not None and self.executor is not None:
+                self.executor.shutdown(wait=True, cancel_futures=True)
+                self.executor = None
+            return
+        self._thread = threading.Thread(target=self._start, daemon=True,
                                         name="sweep-pool-start")
         self._thread.start()
 
-    def _submit_first(self):
-        """(executor, the first calls) or the error that stopped the start."""
+    def _executor(self):
         from concurrent.futures import ProcessPoolExecutor
 
+        return ProcessPoolExecutor(max_workers=self.size, mp_context=self.ctx,
+                                   initializer=_worker_init,
+                                   initargs=(self._life_r, self.claims,
+                                             self._life_w if self._direct else None))
+
+    def _submit_first(self):
+        """(executor, None) with the workers forked, or (executor or None,
+        the error that stopped the start)."""
         ex = None
         try:
-            ex = ProcessPoolExecutor(max_workers=self.size, mp_context=self.ctx,
-                                     initializer=_worker_init,
-                                     initargs=(self._life_r, self.claims,
-                                               self._life_w if self._direct else None))
-            return ex, [ex.submit(os.getpid) for _ in range(self.size)]
+            ex = self._executor()
+            ex.submit(os.getpid)            # forks every worker now
+            return ex, None
         except Exception as exc:              # the caller computes alone
             return ex, exc
 
-    def _start(self, started=None):
-        ex, first = started if started is not None else self._submit_first()
+    def _start(self):
+        """In a thread: start the workers from the fork server and wait
+        until they are ready."""
+        ex = None
         try:
-            if isinstance(first, Exception):
-                raise first
-            for fut in first:               # the workers are ready
-                fut.result()
+            ex = self._executor()
+            for fut in [ex.submit(os.getpid) for _ in range(self.size)]:
+                fut.result()                # the workers are ready
         except Exception as exc:              # the caller computes alone
             self.error = exc
         with self._lock:
@@ -295,7 +307,8 @@ class LocalPool:
             # pipe; wait for that (a process still reading its start-up data
             # when this one exits would fail noisily)
             self._life_w.close()
-            self._thread.join(60)
+            if self._thread is not None:
+                self._thread.join(60)
         else:
             if not finished:
                 self._life_w.close()             # the workers end now
@@ -346,11 +359,11 @@ class _Shared:
     those handed that no worker has begun.  Whoever begins a task first
     claims it (``pool.claims``); a worker skips a task claimed here."""
 
-    def __init__(self, tasks, pool, handle):
+    def __init__(self, tasks, pool, handle, aside=None):
         self.queue = collections.deque(enumerate(tasks))   # not handed to the pool
         self.handed = collections.deque()                  # (i, task), in order
         self.pending = set()
-        self.pool, self.handle = pool, handle
+        self.pool, self.handle, self.aside = pool, handle, aside
 
     def hand(self):
         """Hand the pool tasks from the start of the list."""
@@ -379,6 +392,9 @@ class _Shared:
     def run(self):
         while self.queue or self.pending:
             self.hand()
+            if self.aside is not None and self.pending:
+                self.aside()                  # while the workers compute
+                self.aside = None
             _take(self.pending, self.handle, block=False)
             task = self.next_here()
             if task is not None:
@@ -387,11 +403,14 @@ class _Shared:
                 _take(self.pending, self.handle, block=True)
 
 
-def run_local(tasks, workers, handle):
+def run_local(tasks, workers, handle, aside=None):
     """Run the tasks here (``workers`` <= 1) or here and in ``workers - 1``
     local processes; every task's result goes to ``handle`` as it finishes.
     The workers take tasks from the start of the list, this process from
-    its end (:class:`_Shared`)."""
+    its end (:class:`_Shared`).  ``aside``: work of this process that needs
+    no result, called once as soon as the workers have tasks (if they
+    start), so that it does not wait until the end, when they would be
+    idle (the caller calls it otherwise)."""
     if workers <= 1 or len(tasks) < 2:
         for t in tasks:
             handle(run_task(t))
@@ -399,7 +418,7 @@ def run_local(tasks, workers, handle):
     pool = LocalPool(workers - 1, len(tasks))
     finished = False
     try:
-        _Shared(tasks, pool, handle).run()
+        _Shared(tasks, pool, handle, aside).run()
         finished = True
     finally:
         pool.stop(finished)
