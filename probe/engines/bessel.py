@@ -75,12 +75,15 @@ def _corrections(t, r, oscillatory):
     ev, od, t2 = np.zeros_like(t), np.zeros_like(t), t * t
     rinv = 1.0 / r
     rk = np.ones_like(r)
+    term = np.empty_like(t)
     for k, coeffs in _U[oscillatory]:
         rk *= rinv
-        term = np.full_like(t2, coeffs[0])
-        for c in coeffs[1:]:
-            term *= t2
+        # Horner in t^2, in place: ((c0 t2 + c1) t2 + c2) ... then times r^-k
+        np.multiply(t2, coeffs[0], out=term)
+        for c in coeffs[1:-1]:
             term += c
+            term *= t2
+        term += coeffs[-1]
         term *= rk
         (od if k % 2 else ev)[...] += term
         if k not in _CHECKS:
@@ -98,6 +101,7 @@ def _corrections(t, r, oscillatory):
         even[idx], odd[idx], last[idx] = ev[done], od[done], size[done]
         act = np.nonzero(keep)[0] if act is None else act[keep]
         ev, od, t2, rinv, rk = ev[keep], od[keep], t2[keep], rinv[keep], rk[keep]
+        term = np.empty_like(t2)
     return even, odd, last
 
 
@@ -107,7 +111,7 @@ def _debye(nu, x, r, out, use, angle=None):
     # the corrections reach 1e-16 only for r >~ 60 and r >~ 4 nu^(2/3) (found
     # by scanning r at nu = 0 ... 1e4 with ten of them; more reach a little
     # closer to the turning point): below these the trial is skipped
-    cand = (r > 30.0) & (15 * nu * nu < r**3)
+    cand = (r > 30.0) & (15 * nu * nu < r * r * r)
     for osc in (True, False):
         sel = cand & ((x > nu) if osc else (x < nu))
         if not np.any(sel):
@@ -166,9 +170,15 @@ def jv_int(m, x):
 
 
 def _envelope(nu, x, r):
-    with np.errstate(divide="ignore"):
-        env = np.minimum(np.sqrt(2 / (np.pi * np.maximum(r, 1e-300))),
-                         np.minimum(1.0, 0.68 * np.cbrt(2 / np.maximum(nu, 1e-300))))
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        env = np.sqrt(2 / (np.pi * np.maximum(r, 1e-300)))
+        # Airy's cap 0.68 (2/nu)^(1/3) (and 1) only where it can be lower
+        # (cube roots are dear): elsewhere min(env, cap) is env itself
+        capped = (env * env * env * nu > 0.68**3 * 2 * (1 - 1e-9)) | (env > 1.0)
+        if capped.any():
+            sub = nu[capped]
+            env[capped] = np.minimum(env[capped], np.minimum(
+                1.0, 0.68 * np.cbrt(2 / np.maximum(sub, 1e-300))))
     return np.where(x > nu, env, 0.0)
 
 

@@ -165,6 +165,20 @@ def circular_work(gas, R, v, W, s, rtol=1e-8):
     return float(harmonics[0]), float(evals[0])
 
 
+_CUBE_ROOTS = np.zeros(0)
+
+
+def _cube_roots(n):
+    """np.cbrt of the harmonics' orders n (integers >= 0 stored as floats),
+    from a table kept for the process (cube roots are dear, and sums over
+    many points meet the same orders again)."""
+    global _CUBE_ROOTS
+    top = int(n.max()) + 1 if n.size else 0
+    if top > _CUBE_ROOTS.size:
+        _CUBE_ROOTS = np.cbrt(np.arange(max(top, 2 * _CUBE_ROOTS.size), dtype=float))
+    return _CUBE_ROOTS[n.astype(np.intp)]
+
+
 def _group_ends(sizes, limit):
     """Split consecutive blocks of ``sizes`` into groups of at most ``limit``
     harmonics (each group at least one block): the group boundaries."""
@@ -215,7 +229,7 @@ class _HarmonicSums:
         n = np.abs(m)
         if self.d == 2:
             J, e, env, r = jv_bounded(m, x)
-            e = e + _ARGUMENT * (r + np.cbrt(n) + 1) * (env + np.abs(J))
+            e = e + _ARGUMENT * (r + _cube_roots(n) + 1) * (env + np.abs(J))
             return J * J, e * (2 * np.abs(J) + e), None
         Wm, e = w3(m, x, with_error=True)
         r = np.sqrt(np.abs((2 * x - 2 * n) * (2 * x + 2 * n)))
