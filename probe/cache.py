@@ -9,8 +9,11 @@ that is missing, unreadable, truncated or of another key is rebuilt.
 
 The folder is ``$PROBE_CACHE_DIR``, else ``$XDG_CACHE_HOME/condensate-probe``,
 else ``~/.cache/condensate-probe``; ``PROBE_CACHE_DIR=`` with an empty value
-turns the cache off.  A folder that cannot be written is left alone: the
-command then works without a cache.
+turns the cache off (``~`` in it is the home folder; a relative path is
+taken from the current folder).  A folder that cannot be written is left
+alone: the command then works without a cache.  Files of the same kind
+under another key (another pint, another version of the project) are
+removed once no run has written them for ``STALE_DAYS`` days.
 """
 from __future__ import annotations
 
@@ -20,13 +23,15 @@ from pathlib import Path
 
 #: environment variable naming the folder of the cache (empty: no cache)
 CACHE_ENV = "PROBE_CACHE_DIR"
+#: a cache file of another key unwritten for this many days is removed
+STALE_DAYS = 30
 
 
 def cache_dir():
     """The cache folder (see the module's text); None when turned off."""
     env = os.environ.get(CACHE_ENV)
     if env is not None:
-        return Path(env) if env.strip() else None
+        return Path(env).expanduser() if env.strip() else None
     base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
     return Path(base) / "condensate-probe"
 
@@ -67,6 +72,23 @@ def write_cache(path, key, content):
                 os.unlink(tmp)
             except OSError:
                 pass
+
+
+def prune_stale(path, prefix, days=None):
+    """Remove the files ``<prefix>*.pickle`` beside ``path`` (other keys of
+    the same kind) that were last written more than ``days`` (default
+    ``STALE_DAYS``) days ago; ``path`` itself is kept.  Files in use by
+    another installation are rewritten by its runs and stay; a file that
+    cannot be removed is left alone."""
+    import time
+    limit = time.time() - 86400.0 * (STALE_DAYS if days is None else days)
+    try:
+        others = [p for p in path.parent.glob(f"{prefix}*.pickle") if p.name != path.name]
+        for other in others:
+            if other.stat().st_mtime < limit:
+                other.unlink()
+    except OSError:
+        pass
 
 
 def installed_stamp(package, *files):

@@ -156,3 +156,31 @@ def test_memo_of_another_key_is_not_read(tmp_path, monkeypatch):
 def test_isotope_is_shown_as_mass_number_and_symbol(written):
     assert values.species_name(written) == "87Rb"
     assert values.species_mass(written) == values.species_mass("87Rb")
+
+
+def test_stale_files_of_other_keys_are_pruned(tmp_path):
+    """Files of the same kind under another key unwritten for STALE_DAYS are
+    removed when a new one is written; recent ones (another installation in
+    use) and other kinds stay."""
+    import os
+    import time
+    old = time.time() - 86400 * (cache.STALE_DAYS + 1)
+    names = {"strings-1-py311-aaa.pickle": old, "strings-1-py311-bbb.pickle": time.time(),
+             "units-1-pint0-py311-ccc.pickle": old}
+    for name, when in names.items():
+        (tmp_path / name).write_bytes(b"x")
+        os.utime(tmp_path / name, (when, when))
+    path = tmp_path / "strings-1-py311-new.pickle"
+    cache.write_cache(path, "k", {})
+    cache.prune_stale(path, "strings-1-")
+    left = sorted(p.name for p in tmp_path.iterdir())
+    assert left == ["strings-1-py311-bbb.pickle", "strings-1-py311-new.pickle",
+                    "units-1-pint0-py311-ccc.pickle"]
+
+
+def test_cache_folder_expands_the_home_folder(monkeypatch, tmp_path):
+    monkeypatch.setenv("HOME", str(tmp_path))
+    monkeypatch.setenv(cache.CACHE_ENV, "~/probe-cache")
+    assert cache.cache_dir() == tmp_path / "probe-cache"
+    monkeypatch.setenv(cache.CACHE_ENV, "")
+    assert cache.cache_dir() is None

@@ -55,7 +55,8 @@ import numpy as np
 from probe import constants as sc
 from probe.cache import CACHE_ENV  # noqa: F401 - the cache's switch, named here too
 from probe.cache import cache_dir, installed_stamp
-from probe.cache import read_cache as _read_cache, write_cache as _write_cache
+from probe.cache import prune_stale as _prune_stale, read_cache as _read_cache, \
+    write_cache as _write_cache
 from probe.errors import InputError
 
 _CODATA = sc.physical_constants
@@ -185,6 +186,7 @@ def build_registry(cache=True):
     definitions = _parse_definitions(reg)
     if folder is not None:
         _write_cache(path, key, definitions)
+        _prune_stale(path, f"units-{_CACHE_FORMAT}-")
     return _filled(reg, definitions)
 
 
@@ -266,6 +268,7 @@ def _save_memo(path, key):
     if len(merged) > MEMO_LIMIT:
         merged = dict(list(merged.items())[-MEMO_LIMIT:])
     _write_cache(path, key, merged)
+    _prune_stale(path, f"strings-{_CACHE_FORMAT}-")
 
 
 def __getattr__(name):
