@@ -319,6 +319,60 @@ def test_workers_by_either_start_give_the_same_file(tmp_path, monkeypatch, forke
     assert two.meta["evaluation"]["workers"] == 2
 
 
+def _worker_refuses(monkeypatch, error):
+    """Workers forked from this process whose every task raises ``error``
+    (after telling this process, which waits for that before computing, so
+    that a worker surely meets one)."""
+    import multiprocessing
+    from probe.design import workers
+    from probe.design.sweep import runners
+    if not sys.platform.startswith("linux"):
+        pytest.skip("workers are forked from the sweep's process on Linux only")
+    monkeypatch.setattr(workers, "_forking_is_safe", lambda: True)
+    here, real = os.getpid(), runners.run_task
+    met = multiprocessing.get_context("fork").Event()
+
+    def run(task):
+        if os.getpid() != here:
+            met.set()
+            raise error
+        assert met.wait(120), "no worker began a task"
+        return real(task)
+    monkeypatch.setattr(runners, "run_task", run)
+
+
+def test_bad_input_met_by_a_worker_ends_the_sweep_as_here(tmp_path, monkeypatch):
+    """An error of the input that a worker meets reaches the caller as it
+    is, and the partial file is removed (as when this process meets it)."""
+    _worker_refuses(monkeypatch, InputError("probe.gap", "refused in a worker"))
+    with pytest.raises(InputError, match="refused in a worker") as err:
+        sweep(RING, VARY_RING, out=tmp_path / "o.csv", workers=2, chunk_size=3)
+    assert err.value.key == "probe.gap"
+    assert sorted(p.name for p in tmp_path.iterdir()) == []
+
+
+def test_a_worker_of_other_columns_stops_the_sweep_keeping_the_rows(tmp_path, monkeypatch):
+    from probe.design.sweep.runners import OtherColumns
+    _worker_refuses(monkeypatch, OtherColumns("a worker computed rows of 3 numbers"))
+    with pytest.raises(InputError, match="a worker computed rows of 3 numbers.*--resume") \
+            as err:
+        sweep(RING, VARY_RING, out=tmp_path / "o.csv", workers=2, chunk_size=3)
+    assert err.value.key == "--workers"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["o.csv.partial",
+                                                          "o.csv.partial.json"]
+
+
+def test_rows_out_of_order_are_put_in_place_by_whole_blocks_or_one_by_one():
+    from probe.design.sweep.files import _block_spans
+    # blocks (first point, last point, start, end) of 30 characters of rows
+    blocks = [(6, 9, 0, 10), (0, 2, 10, 20), (3, 5, 20, 30)]
+    assert _block_spans(blocks, 30) == [(10, 20), (20, 30), (0, 10)]
+    assert _block_spans(blocks, 31) is None                       # rows not in a block
+    assert _block_spans(blocks + [None], 30) is None              # a block out of order
+    assert _block_spans([(0, 4, 0, 10), (3, 5, 10, 20)], 20) is None   # interleaved
+    assert _block_spans([], 0) is None
+
+
 def test_forking_is_refused_while_another_thread_works():
     import threading
     from probe.design import workers

@@ -7,21 +7,22 @@ configuration and the text of every file the scenario reads (read once when
 the sweep was planned: a worker never reads them from its own disk or
 working folder).
 
-Local workers (``run_local``): ``workers - 1`` processes start in the
-background (on Linux forked from this process, elsewhere from a fork
-server that has imported the engine: ``probe.design.workers``) while this
-process computes; the workers take
-tasks from the start of the list, handed to them ahead, this process from
-its end, at last also those handed that no worker has begun (whoever
-begins a task claims it first), so that neither side waits while the other
-has work queued.  Each worker watches a pipe from this process and exits as
-soon as it closes: when this process ends (even killed by SIGKILL) or stops
-the pool (an interrupt).  A Dask cluster (``run_dask``) that stops answering
+Local workers (``run_local``): ``workers - 1`` processes, on Linux forked
+from this process before it computes (milliseconds), elsewhere started in
+the background from a fork server that has imported the engine
+(``probe.design.workers``) while this process computes.  Every process
+holds the whole list of tasks: the workers take them from its start, this
+process from its end, and whoever begins a task claims it first (a flag
+per task in shared memory), so that nobody waits for tasks to be handed
+out and they all end together.  Each worker sends its results down a pipe
+of its own, which this process reads between its tasks (no thread of its
+own does it), and watches a pipe from this process: it exits as soon as
+that closes, when this process ends (even killed by SIGKILL) or stops the
+pool (at the end, or at an interrupt).  A Dask cluster (``run_dask``) that stops answering
 ends the run with :class:`SweepStopped`; the rows already finished stay.
 """
 from __future__ import annotations
 
-import collections
 import contextlib
 import functools
 import json
@@ -191,10 +192,6 @@ def _watch_parent(life):
     os._exit(1)
 
 
-#: in a worker: the pool's claims (one flag per task, shared by all processes)
-_CLAIMS = None
-
-
 def _claim(claims, i):
     """True for the first process that claims task ``i`` (it computes it).
     No lock (a worker killed while holding one would stop the others): two
@@ -206,20 +203,12 @@ def _claim(claims, i):
     return True
 
 
-def _claimed_task(i, task):
-    """In a worker: the result of task ``i``, or None when another process
-    claimed it first."""
-    return run_task(task) if _claim(_CLAIMS, i) else None
-
-
-def _worker_init(life, claims, life_w=None):
+def _worker_init(life, life_w=None):
     """In each worker: Ctrl-C goes to the sweep's process (which stops the
     pool), and the worker ends when that process does.  A worker forked
     from the sweep's process itself (``life_w``: the pipe's write end it
     inherited) closes that end and what else only the sweep holds."""
     import signal
-    global _CLAIMS
-    _CLAIMS = claims
     if life_w is not None:
         life_w.close()
         in_forked_worker()
@@ -228,179 +217,216 @@ def _worker_init(life, claims, life_w=None):
                      name="sweep-parent-watch").start()
 
 
+def _sendable(exc):
+    """(kind, arguments) that make the error again in the sweep's process:
+    the project's errors from their key and message, others from their own
+    arguments when these make them again, else a RuntimeError with the
+    error's kind and text."""
+    import pickle
+
+    kind = type(exc)
+    for args in ((getattr(exc, "key", None), getattr(exc, "message", None)), exc.args):
+        try:
+            again = kind(*args)
+            pickle.loads(pickle.dumps((kind, args)))
+        except Exception:
+            continue
+        if str(again) == str(exc):
+            return kind, tuple(args)
+    return RuntimeError, (f"{kind.__name__}: {exc}",)
+
+
+def _worker_main(tasks, claims, life, results, life_w=None):
+    """A worker: every task no process has claimed, from the start of the
+    list, computed and its ``(i, result)`` sent down ``results``; at the
+    end ``(None, None)``, or ``(None, (kind, arguments))`` of the error
+    that stopped a task (:func:`_sendable`)."""
+    _worker_init(life, life_w)
+    try:
+        for i, task in enumerate(tasks):
+            if _claim(claims, i):
+                results.send((i, run_task(task)))
+    except Exception as exc:
+        results.send((None, _sendable(exc)))
+        return
+    results.send((None, None))
+
+
+class _Worker:
+    """A worker process and the reading end of the pipe of its results."""
+
+    def __init__(self, proc, conn):
+        self.proc, self.conn, self.done = proc, conn, False
+
+
 class LocalPool:
-    """``size`` worker processes for ``tasks`` tasks: forked from this
-    process at once (``executor`` set: tasks can be handed to them before
-    this process computes its first), or started in the background from a
-    fork server (a fraction of a second or more: the caller computes
-    meanwhile; ``executor`` is None until they are ready).  ``claims`` holds
-    a flag per task, set by the process that computes it."""
+    """``size`` worker processes that compute ``tasks`` from the start of
+    the list, each sending its results down a pipe of its own: forked from
+    this process at once, or started in the background from a fork server
+    (a fraction of a second or more: the caller computes meanwhile).
+    ``claims`` holds a flag per task, set by the process that computes it;
+    ``workers`` lists the workers started (:class:`_Worker`)."""
 
     def __init__(self, size, tasks):
         self.ctx = worker_context()
         self.size = size
-        self.claims = self.ctx.Array("b", tasks, lock=False)
+        self.claims = self.ctx.Array("b", len(tasks), lock=False)
         self._life_r, self._life_w = self.ctx.Pipe(duplex=False)
-        self.executor = None
+        self.workers = []
         self.error = None
         self._closed = False
         self._lock = threading.Lock()
         self._direct = self.ctx.get_start_method() == "fork"
         self._thread = None
         if self._direct:
-            # forked here, in this thread, before any other starts: the
-            # first call forks every worker at once (milliseconds), and
-            # tasks can be handed to them at once
-            self.executor, self.error = self._submit_first()
-            if self.error is not None and self.executor is not None:
-                self.executor.shutdown(wait=True, cancel_futures=True)
-                self.executor = None
-            return
-        self._thread = threading.Thread(target=self._start, daemon=True,
-                                        name="sweep-pool-start")
-        self._thread.start()
+            # forked here, in this thread, before any other starts
+            # (milliseconds): they compute before this process does
+            self._start(tasks)
+        else:
+            self._thread = threading.Thread(target=self._start, args=(tasks,),
+                                            daemon=True, name="sweep-pool-start")
+            self._thread.start()
 
-    def _executor(self):
-        from concurrent.futures import ProcessPoolExecutor
-
-        return ProcessPoolExecutor(max_workers=self.size, mp_context=self.ctx,
-                                   initializer=_worker_init,
-                                   initargs=(self._life_r, self.claims,
-                                             self._life_w if self._direct else None))
-
-    def _submit_first(self):
-        """(executor, None) with the workers forked, or (executor or None,
-        the error that stopped the start)."""
-        ex = None
+    def _start(self, tasks):
+        """Start the workers; an error leaves the ones started (if any) and
+        the caller computing."""
         try:
-            ex = self._executor()
-            ex.submit(os.getpid)            # forks every worker now
-            return ex, None
-        except Exception as exc:              # the caller computes alone
-            return ex, exc
-
-    def _start(self):
-        """In a thread: start the workers from the fork server and wait
-        until they are ready."""
-        ex = None
-        try:
-            ex = self._executor()
-            for fut in [ex.submit(os.getpid) for _ in range(self.size)]:
-                fut.result()                # the workers are ready
-        except Exception as exc:              # the caller computes alone
+            for _ in range(self.size):
+                conn, results = self.ctx.Pipe(duplex=False)
+                proc = self.ctx.Process(
+                    target=_worker_main, daemon=True, name="sweep-worker",
+                    args=(tasks, self.claims, self._life_r, results,
+                          self._life_w if self._direct else None))
+                if self._closed:
+                    conn.close()
+                    results.close()
+                    return
+                try:
+                    proc.start()
+                finally:
+                    results.close()
+                with self._lock:
+                    self.workers.append(_Worker(proc, conn))
+        except Exception as exc:              # the caller computes
             self.error = exc
-        with self._lock:
-            if self._closed or self.error is not None:
-                if ex is not None:
-                    ex.shutdown(wait=True, cancel_futures=True)
-            else:
-                self.executor = ex
 
-    def stop(self, finished):
-        """Stop the workers: after their last task when the sweep
-        ``finished``, at once otherwise."""
+    def running(self):
+        """The workers started that have not sent their last message."""
+        with self._lock:
+            return [w for w in self.workers if not w.done]
+
+    def stop(self):
+        """Stop the workers at once (after the last task they are ending
+        anyway); processes still starting end as soon as they read the
+        closed pipe: wait for them (a process still reading its start-up
+        data when this one exits would fail noisily)."""
         with self._lock:
             self._closed = True
-            ex = self.executor
-        if ex is None:
-            # processes still starting end as soon as they read the closed
-            # pipe; wait for that (a process still reading its start-up data
-            # when this one exits would fail noisily)
-            self._life_w.close()
-            if self._thread is not None:
-                self._thread.join(60)
-        else:
-            if not finished:
-                self._life_w.close()             # the workers end now
-            ex.shutdown(wait=True, cancel_futures=not finished)
-            self._life_w.close()
+        self._life_w.close()
+        if self._thread is not None:
+            self._thread.join(60)
+        for w in self.workers:
+            w.proc.join(10)
+            if w.proc.exitcode is None:
+                w.proc.kill()
+                w.proc.join()
+            w.conn.close()
         self._life_r.close()
 
 
-@contextlib.contextmanager
-def _pool_errors():
-    """A pool whose worker died, or whose worker computes other columns,
-    ends the sweep with :class:`SweepStopped`."""
-    from concurrent.futures.process import BrokenProcessPool
-
-    try:
-        yield
-    except BrokenProcessPool:
-        raise SweepStopped("--workers", "a worker process ended before its task "
-                                        "was done (killed?)") from None
-    except OtherColumns as exc:
-        raise SweepStopped("--workers", str(exc)) from None
-
-
-def _take(pending, handle, block):
-    """Hand the finished tasks' results to ``handle`` (waiting for one when
-    ``block``)."""
-    from concurrent.futures import FIRST_COMPLETED, wait
-
-    done = wait(pending, return_when=FIRST_COMPLETED)[0] if block else \
-        [f for f in pending if f.done()]
-    for fut in done:
-        pending.discard(fut)
-        with _pool_errors():
-            result = fut.result()
-        if result is not None:           # None: a task claimed by another process
-            handle(result)
-
-
-#: tasks handed to the pool ahead of its workers, per worker process (enough
-#: that a worker never waits for this process to hand it more)
-AHEAD = 32
+def _died():
+    return SweepStopped("--workers", "a worker process ended before its task was done "
+                                     "(killed?)")
 
 
 class _Shared:
     """The tasks of a sweep shared between this process and the pool: the
-    pool is handed tasks from the start of the list (up to :data:`AHEAD`
-    per worker ahead), this process takes them from the end, at last also
-    those handed that no worker has begun.  Whoever begins a task first
-    claims it (``pool.claims``); a worker skips a task claimed here."""
+    workers take them from the start of the list, this process from its
+    end, until it meets a task claimed by another process; then it waits
+    for the workers' results (which it reads between its own tasks)."""
 
     def __init__(self, tasks, pool, handle, aside=None):
-        self.queue = collections.deque(enumerate(tasks))   # not handed to the pool
-        self.handed = collections.deque()                  # (i, task), in order
-        self.pending = set()
-        self.pool, self.handle, self.aside = pool, handle, aside
+        self.tasks, self.pool, self.handle, self.aside = tasks, pool, handle, aside
+        self.left = set(range(len(tasks)))     # tasks whose result has not come
+        self.next = len(tasks) - 1             # this process's next task
 
-    def hand(self):
-        """Hand the pool tasks from the start of the list."""
-        ex = self.pool.executor
-        if ex is None:
-            return
-        with _pool_errors():
-            while self.queue and len(self.pending) < AHEAD * self.pool.size:
-                i, task = self.queue.popleft()
-                self.pending.add(ex.submit(_claimed_task, i, task))
-                self.handed.append((i, task))
+    def finish(self, i, result):
+        if i in self.left:                     # not when computed twice
+            self.left.discard(i)
+            self.handle(result)
 
     def next_here(self):
-        """The task this process computes next: the last one not handed,
-        else the last one handed that no worker has claimed; None when the
-        workers hold all that is left."""
-        if self.queue:
-            return self.queue.pop()[1]
-        if self.handed:
-            i, task = self.handed.pop()
+        """The task this process computes next, or None when another
+        process claimed it (and every task before it: the workers claim
+        them in order)."""
+        while self.next >= 0:
+            i, self.next = self.next, self.next - 1
+            if i not in self.left:
+                continue
             if _claim(self.pool.claims, i):
-                return task
-            self.handed.clear()   # a worker began it, and every task before it
+                return i
+            self.next = -1
         return None
 
+    def _read(self, w, ended):
+        """Hand the results waiting in the pipe of worker ``w`` to
+        ``handle``; SweepStopped when it ``ended`` (or its pipe closed)
+        without its last message."""
+        error = None
+        try:
+            while not w.done and w.conn.poll():
+                i, result = w.conn.recv()
+                if i is not None:
+                    self.finish(i, result)
+                else:
+                    w.done, error = True, result     # the error of a task, or None
+        except (EOFError, OSError):
+            raise _died() from None
+        if error is not None:
+            kind, args = error
+            with _pool_errors():
+                raise kind(*args)
+        if ended and not w.done:
+            raise _died()
+
+    def receive(self, block):
+        """Hand the workers' results to ``handle`` (waiting for some when
+        ``block``); False when no worker is left to send any."""
+        from multiprocessing.connection import wait
+
+        live = self.pool.running()
+        if not live:
+            return False
+        sentinels = {w.proc.sentinel: w for w in live}
+        ready = set(wait([w.conn for w in live] + list(sentinels),
+                         timeout=None if block else 0))
+        for w in live:
+            if w.conn in ready or w.proc.sentinel in ready:
+                self._read(w, ended=w.proc.sentinel in ready)
+        return True
+
     def run(self):
-        while self.queue or self.pending:
-            self.hand()
-            if self.aside is not None and self.pending:
+        while self.left:
+            if self.aside is not None and self.pool.workers:
                 self.aside()                  # while the workers compute
                 self.aside = None
-            _take(self.pending, self.handle, block=False)
-            task = self.next_here()
-            if task is not None:
-                self.handle(run_task(task))
-            elif self.pending:
-                _take(self.pending, self.handle, block=True)
+            self.receive(block=False)
+            i = self.next_here()
+            if i is not None:
+                self.finish(i, run_task(self.tasks[i]))
+            elif self.left and not self.receive(block=True):
+                for i in sorted(self.left, reverse=True):     # no worker left
+                    self.finish(i, run_task(self.tasks[i]))
+
+
+@contextlib.contextmanager
+def _pool_errors():
+    """A worker that computes other columns ends the sweep with
+    :class:`SweepStopped`."""
+    try:
+        yield
+    except OtherColumns as exc:
+        raise SweepStopped("--workers", str(exc)) from None
 
 
 def run_local(tasks, workers, handle, aside=None):
@@ -408,20 +434,18 @@ def run_local(tasks, workers, handle, aside=None):
     local processes; every task's result goes to ``handle`` as it finishes.
     The workers take tasks from the start of the list, this process from
     its end (:class:`_Shared`).  ``aside``: work of this process that needs
-    no result, called once as soon as the workers have tasks (if they
-    start), so that it does not wait until the end, when they would be
-    idle (the caller calls it otherwise)."""
+    no result, called once as soon as the workers have started (if they
+    do), so that it does not wait until the end, when they would be idle
+    (the caller calls it otherwise)."""
     if workers <= 1 or len(tasks) < 2:
         for t in tasks:
             handle(run_task(t))
         return
-    pool = LocalPool(workers - 1, len(tasks))
-    finished = False
+    pool = LocalPool(workers - 1, tasks)
     try:
         _Shared(tasks, pool, handle, aside).run()
-        finished = True
     finally:
-        pool.stop(finished)
+        pool.stop()
 
 
 # ---------------------------------------------------------------------------
