@@ -47,7 +47,8 @@ def _check(nu, x, refs):
     """Every good value within jv_error of its reference; the worst ratio."""
     nu, x, refs = (np.asarray(v, dtype=float) for v in (nu, x, refs))
     values, good = bt.transition_jv(nu, x)
-    ratio = np.abs(values - refs) / jv_error(nu, x, values)
+    with np.errstate(divide="ignore", invalid="ignore"):     # values not good may be 0
+        ratio = np.abs(values - refs) / jv_error(nu, x, values)
     assert np.all(ratio[good] <= 1.0), list(zip(nu[good][ratio[good] > 1], x[good][ratio[good] > 1]))
     return good, float(ratio[good].max())
 
@@ -157,14 +158,14 @@ def test_random_samples_against_besselj():
 
 
 def test_large_orders_against_the_contour_integral():
-    """Orders 3e3 ... 1e5 against the Schlaefli-Sommerfeld integral, whose
+    """Orders 3e3 ... 1e9 against the Schlaefli-Sommerfeld integral, whose
     evaluation is first checked against mpmath.besselj at orders 300 and 1000."""
     for nu, a in ((300.0, 8.5), (1000.5, -6.0), (1000.0, 1.3)):
         x = _x(nu, a)
         ref = _besselj(nu, x)
         assert abs(j_contour(nu, x) - ref) <= 1e-18 * abs(ref)
-    nu = np.array([3000.0, 8123.5, 2e4, 4e4 + 0.25, 7e4, 1e5, 1e5, 99999.5])
-    a = np.array([8.9, -8.9, -2.3381 / CBRT2, 5.0, -0.7, 0.0, 3.3, -4.4])
+    nu = np.array([3000.0, 8123.5, 2e4, 4e4 + 0.25, 1e5, 99999.5, 1e6 + 0.5, 1e9])
+    a = np.array([8.9, -8.9, -2.3381 / CBRT2, 5.0, 0.0, -4.4, 3.3, -8.5])
     x = _x(nu, a)
     good, _ = _check(nu, x, [j_contour(n, v) for n, v in zip(nu, x)])
     assert good.all()
@@ -206,8 +207,8 @@ def test_each_value_depends_on_its_own_arguments():
 
 
 def test_outside_the_checked_range_is_not_good():
-    nu = np.array([99.0, 1000.0, 1000.0, 0.0, np.nan, 500.0, np.inf])
-    x = np.array([99.0, _x(1000.0, 9.01), _x(1000.0, -9.01), 0.0, 10.0, np.nan, 1.0])
+    nu = np.array([99.0, 1000.0, 1000.0, 0.0, np.nan, 500.0, np.inf, 2e9])
+    x = np.array([99.0, _x(1000.0, 9.01), _x(1000.0, -9.01), 0.0, 10.0, np.nan, 1.0, 2e9])
     assert not bt.transition_jv(nu, x)[1].any()
     v, g = bt.transition_jv(np.array([]), np.array([]))
     assert v.size == 0 and g.size == 0

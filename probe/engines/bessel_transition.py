@@ -38,8 +38,8 @@ max(|s|, 1) (at |s| < 1 some orders vanish with s while the next do not;
 Ai' weighted by sqrt(1 + |s|), which bounds |Ai'/Ai| below the turning
 point and the ratio of their envelopes above it); a value stops summing
 at the first checked order whose bound is below 1e-17 and is accepted
-(``good``) when its last bound is below 1e-16, for orders nu >= NU_MIN and
-|a| <= A_MAX only (the range checked against mpmath in
+(``good``) when its last bound is below 1e-16, for orders NU_MIN <= nu <=
+NU_MAX and |a| <= A_MAX only (the range checked against mpmath in
 tests/test_bessel_transition.py).  Every step is elementwise: a value and
 its decision depend on its own (nu, x) alone.
 """
@@ -50,12 +50,13 @@ from functools import lru_cache
 
 import numpy as np
 
-#: smallest order the expansion is used for
+#: smallest and largest orders the expansion is used for (checked up to 1e9)
 NU_MIN = 100.0
+NU_MAX = 1e9
 #: largest |a| = |x - nu| / nu^(1/3) it is used for: the corrections of
 #: bessel.py's Debye expansions stay above 1e-16 up to |a| ~ 8.3 (nu >= 1e3);
-#: the orders kept here reach 1e-16 up to |a| ~ 3.4 at nu = 100, ~ 5 at
-#: nu = 300, ~ 8.5 at nu = 1e3 and beyond A_MAX at nu >= 3e3
+#: the orders kept here reach 1e-16 up to |a| ~ 3.4 at nu = 100, ~ 5.5 at
+#: nu = 300, ~ 8.8 at nu = 1e3 and A_MAX from nu ~ 1.5e3 on
 A_MAX = 9.0
 #: orders of delta kept at most
 ORDERS = 24
@@ -64,7 +65,7 @@ _STOP = 1e-17
 #: and is accepted when its last term's bound is below this
 _LAST_TERM = 1e-16
 #: orders after which the bounds are checked
-_CHECKS = frozenset(range(4, ORDERS + 1, 2))
+_CHECKS = frozenset(range(6, ORDERS + 1, 2))
 _CBRT2 = 2.0 ** (1.0 / 3.0)
 
 
@@ -74,7 +75,12 @@ def _add(*terms):
     out = {}
     for f, shift, poly in terms:
         for n, c in poly.items():
-            out[n + shift] = out.get(n + shift, 0) + f * c
+            c = c if f == 1 else -c if f == -1 else f * c
+            n += shift
+            if n in out:
+                out[n] += c
+            else:
+                out[n] = c
     return {n: c for n, c in out.items() if c}
 
 
@@ -82,8 +88,8 @@ def _d(poly):
     return {n - 1: n * c for n, c in poly.items() if n}
 
 
-def jnn_series(K):
-    """Exact (A, B), k = 0..K: J_nu(nu) ~ 2^(1/3) nu^(-1/3) [sum A_k delta^k Ai(0)
+def jnn_series(K, ai_prime=True):
+    """Exact (A, B), k = 0..K (B left 0 unless ``ai_prime``): J_nu(nu) ~ 2^(1/3) nu^(-1/3) [sum A_k delta^k Ai(0)
     + sum B_k delta^k Ai'(0)], delta = -2^(-1/3) nu^(-2/3).
 
     From ``J_n(n) = (1/pi) Re int_0^pi exp(i n w) d theta`` with
@@ -102,7 +108,7 @@ def jnn_series(K):
             f[k - 1] = Fraction(6 * (-1) ** (k + 1), fact)
     A, B = [Fraction(0)] * (K + 1), [Fraction(0)] * (K + 1)
     for j in range(K + 1):
-        if j % 3 == 1:
+        if j % 3 == 1 or (j % 3 == 2 and not ai_prime):
             continue
         p, m = 2 * j + 1, j // 3
         alpha = Fraction(-p, 3)
@@ -125,7 +131,7 @@ def jnn_series(K):
 def transition_polynomials(K=ORDERS):
     """Exact P_k, Q_k (k = 0..K) as {power of s: Fraction}, normalised by
     J_nu(nu) (``jnn_series``): P_0 = 1, Q_0 = 0, P_1 = -s/5, Q_1 = -3 s^2/10, ..."""
-    A = jnn_series(K)[0]
+    A = jnn_series(K, ai_prime=False)[0]
     P, Q = [{0: Fraction(1)}], [{}]
     U, V, W, X = [{1: Fraction(1)}], [{}], [{}], [{0: Fraction(1)}]
     empty = {}
@@ -173,11 +179,18 @@ def _table():
     return tuple(out)
 
 
-def _horner(cs, z):
-    acc = np.full_like(z, cs[0])
-    for c in cs[1:]:
-        acc *= z
-        acc += c
+def _horner(cs, z, times=None):
+    """sum_l cs[l] z^(L - l) (highest coefficient first), times ``times``."""
+    if len(cs) == 1:
+        acc = np.full_like(z, cs[0])
+    else:
+        acc = z * cs[0]
+        acc += cs[1]
+        for c in cs[2:]:
+            acc *= z
+            acc += c
+    if times is not None:
+        acc *= times
     return acc
 
 
@@ -187,37 +200,44 @@ def _sums(s, delta):
     P, Q, last = np.empty(n), np.empty(n), np.empty(n)
     idx = np.arange(n)
     p, q, dk = np.ones(n), np.zeros(n), np.ones(n)
-    sp = (np.ones(n), s, s * s)
-    sig = sp[2] * s
+    sig = s * s * s
     # the bounds at max(|s|, 1): at |s| < 1 the orders whose polynomials vanish
     # at s = 0 would understate the following ones
     big = np.maximum(np.abs(s), 1.0)
-    asp = (sp[0], big, big * big)
-    asig, w = asp[2] * big, np.sqrt(1.0 + big)
+    asig, w = big * big * big, np.sqrt(1.0 + big)
     for k, (rp, G, Ga, rq, H, Ha) in enumerate(_table(), 1):
         dk *= delta
-        p += dk * sp[rp] * _horner(G, sig)
-        q += dk * sp[rq] * _horner(H, sig)
+        sp = (None, s, s * s)
+        term = _horner(G, sig, sp[rp])
+        term *= dk
+        p += term
+        term = _horner(H, sig, sp[rq])
+        term *= dk
+        q += term
         if k not in _CHECKS:
             continue
-        size = np.abs(dk) * (asp[rp] * _horner(Ga, asig) + w * asp[rq] * _horner(Ha, asig))
-        stop = size < _STOP if k < ORDERS else np.ones(size.shape, dtype=bool)
+        bp = (None, big, big * big)
+        size = _horner(Ha, asig, bp[rq])
+        size *= w
+        size += _horner(Ga, asig, bp[rp])
+        size *= np.abs(dk)
+        stop = size < _STOP if k < ORDERS else np.ones(n, dtype=bool)
         if not stop.any():
             continue
         P[idx[stop]], Q[idx[stop]], last[idx[stop]] = p[stop], q[stop], size[stop]
         if stop.all():
             break
         keep = ~stop
-        idx, p, q, dk, delta, sig, asig, w = (
-            v[keep] for v in (idx, p, q, dk, delta, sig, asig, w))
-        sp, asp = tuple(v[keep] for v in sp), tuple(v[keep] for v in asp)
+        idx, p, q, dk, delta, s, sig, big, asig, w = (
+            v[keep] for v in (idx, p, q, dk, delta, s, sig, big, asig, w))
+        n = idx.size
     return P, Q, last
 
 
 def transition_jv(nu, x):
     """J_nu(x) for 1-D float arrays nu >= 0 and x >= 0 of equal length, from
     the transition expansion: ``(values, good)``, where ``good`` marks the
-    values given within ``probe.engines.bessel.jv_error`` (nu >= NU_MIN,
+    values given within ``probe.engines.bessel.jv_error`` (NU_MIN <= nu <= NU_MAX,
     |x - nu| <= A_MAX nu^(1/3) and the last term kept below 1e-16 of the
     local scale); the other values are unspecified."""
     nu = np.asarray(nu, dtype=float)
@@ -227,7 +247,7 @@ def transition_jv(nu, x):
     with np.errstate(all="ignore"):
         c = np.cbrt(nu)
         a = (x - nu) / c
-        sel = np.nonzero((nu >= NU_MIN) & (np.abs(a) <= A_MAX))[0]
+        sel = np.nonzero((nu >= NU_MIN) & (nu <= NU_MAX) & (np.abs(a) <= A_MAX))[0]
     if sel.size == 0:
         return values, good
     from scipy.special import airy   # imported when first needed (start-up)
