@@ -93,3 +93,23 @@ def test_declared_weight_increasing_holds(name):
     S, vg = disp.structure_factor(q), disp.group_velocity(q)
     for weight in (q * S / vg, q * q * S / vg):
         assert np.all(np.diff(weight) >= -1e-15 * weight[1:])
+
+
+def test_phonon_up_family_ends_and_matches_mpmath():
+    """Phonon spectrum (omega = q, S = q/2, v_g = 1), 2D point probe, R = 5
+    xi, v = 0.5 c, gap 0.5 c/xi: the shells' q R/m grow towards v without a
+    turning point, so only the bound by v/v_th (v_th = 1) ends the sum (it
+    was refused after 2e6 harmonics).  Against the family summed in mpmath
+    (30 digits, harmonics up to 600: beyond them the terms are below 1e-60
+    of the sum): sum_m (q^2/2) J_m(q R)^2 with q = m v/R - W."""
+    mp.mp.dps = 30
+    R, v, W = 5, mp.mpf("0.5"), mp.mpf("0.5")
+    total = mp.mpf(0)
+    for m in range(int(mp.floor(W * R / v)) + 1, 601):
+        q = m * v / R - W
+        total += q * q / 2 * mp.besselj(m, q * R) ** 2
+    out = circ.circular_kernel(_gas(2, "phonon"), 5, 0.5, 0.5, 0.0, rtol=1e-10)
+    up, err = out["up"]
+    assert abs(up - float(total)) <= err
+    assert err <= 1e-10 * up
+    assert out["harmonics"] < 2000

@@ -19,8 +19,8 @@ integrals, or None), ``phase_divided(q, r)`` (the divided difference of
 the phase velocity free of cancellation, or None) and ``omega_precise(q)``
 (omega and its slope to 40 digits at one point, or None), and
 ``weight_increasing`` (q^(d-1) S(q)/v_g(q) non-decreasing in q for d = 2
-and 3, which lets the circular sums bound a whole family of harmonics by
-its last one).  A new dispersion is one
+and 3, and growing no faster than omega^3, which lets the circular sums
+bound a whole family of harmonics by one of them).  A new dispersion is one
 subclass and one entry in ``DISPERSIONS``.
 
 Both spectra here are convex with omega(0) = 0, which the window logic in the
@@ -112,6 +112,7 @@ class Dispersion:
     #: True when omega(q)/q is unbounded (supersonic windows are finite)
     bounded_windows = True
     #: True when q S(q)/v_g(q) and q^2 S(q)/v_g(q) are non-decreasing in q
+    #: and grow no faster than omega(q)^3
     weight_increasing = False
 
     # --- to be supplied by a subclass -----------------------------------

@@ -217,6 +217,11 @@ class _HarmonicSums:
         self.wc = v / R
         self.qcut = math.sqrt(CUT) / s if s > 0 else math.inf
         self.work = np.zeros(R.size)     # Bessel functions evaluated so far, per point
+        #: v/v_th, the largest q R/m on the up family's shells (inf without a gap)
+        self.zstar = np.full(R.size, math.inf)
+        gapped = W > 0
+        if gapped.any():
+            self.zstar[gapped] = v[gapped] / self.disp.threshold(W[gapped])[0]
         #: bounds of the Bessel functions' errors, per family and sum
         self.bessel = {sign: {k: np.zeros(R.size) for k in _KEYS} for sign in (+1, -1)}
 
@@ -290,6 +295,9 @@ class _HarmonicSums:
         double up to 256 or an eighth of the edge's harmonic (small circles
         need a few dozen harmonics in all); downward blocks end at m_stop."""
         reach = (m_edge - m0) if direction > 0 else (m0 - m_edge)
+        # no edge (an up family whose q R/m grows without a turning point,
+        # marked 1e9): blocks grow from the first one
+        reach = np.where(np.abs(m_edge) >= 1e9, 0.0, reach)
         size = np.where(previous == 0, np.fmax(_FIRST_BLOCK, reach + _FIRST_BLOCK),
                         np.fmin(2 * previous, np.fmax(256, np.abs(m_edge) / 8)))
         size = np.trunc(np.fmin(_LARGEST_BLOCK, size))
@@ -307,17 +315,35 @@ class _HarmonicSums:
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             zM = np.where(M != 0, qM * self.R[pts] / aM, math.inf)
             ok = zM < 1
+            factor = 1.0
             if direction > 0 and sign < 0:
-                ok &= (M >= m_edge) | ~(self.W[pts] > 0)
+                # before the edge z still grows: bound it by its supremum
+                before = (M < m_edge) & (self.W[pts] > 0)
+                early = before & self._early_ok(pts, aM)
+                ok &= ~before | early
+                zM = np.where(early, self.zstar[pts], zM)
+                factor = np.where(early, 8.0, 1.0)
             r = kapteyn(np.where(ok, zM, 0.0)) ** 2
             g = r * np.exp(3.0 / aM) if direction > 0 else r
             ok &= g < 1
-            tail = np.where(ok, P0 * r ** aM * g / (1 - g), 0.0)
+            tail = np.where(ok, factor * P0 * r ** aM * g / (1 - g), 0.0)
         bound = {"plain": tail, "thermal": tail * n_end,
                  "energy": tail * w_end * math.e if self.energy else np.zeros_like(tail)}
         for k in _KEYS:
             ok &= bound[k] <= self.rtol * 0.1 * np.abs(tot[k][pts]) + 1e-300
         return bound, ok
+
+    def _early_ok(self, pts, aM):
+        """Where the up family's remainder beyond harmonic M may be bounded
+        before the edge harmonic (``_remainder``): below the threshold speed
+        (z <= zstar = v/v_th < 1 on every shell) and M >= 2 W/w_c, so that
+        w_m/w_M = (m - W/w_c)/(M - W/w_c) <= 2 m/M; with the weights P0
+        growing at most like w^3 (``weight_increasing``) P0(m) <= 8 P0(M)
+        (m/M)^3 there, which the remainder's factor 8 e^(3 (m - M)/M)
+        covers.  The occupation falls as q grows."""
+        if not self.disp.weight_increasing:
+            return np.zeros(pts.size, dtype=bool)
+        return (self.zstar[pts] < 1) & (aM >= 2 * self.W[pts] / self.wc[pts])
 
     def _stop(self, sign, direction, pts, M, m_stop, m_edge, last, tot, bnd, open_):
         """Which points stop after their block ending at harmonic M (a
@@ -453,9 +479,8 @@ class _HarmonicSums:
         disp = self.disp
         if self.gas.T > 0 or self.energy or not disp.weight_increasing:
             return np.zeros(pts.size, dtype=bool), np.zeros(pts.size)
-        W, v = self.W[pts], self.v[pts]
-        vt = disp.threshold(W)[0]
-        z = v / vt
+        W = self.W[pts]
+        z = self.zstar[pts]
         M = np.ceil(np.where(np.isfinite(m_edge), m_edge, 0.0))
         ok = (z < 1) & (M >= mlo) & (M >= 1) & (m_edge < 1e9)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
