@@ -91,8 +91,12 @@ def test_declared_weight_increasing_holds(name):
         pytest.skip("not declared")
     q = np.geomspace(1e-6, 1e4, 20001)
     S, vg = disp.structure_factor(q), disp.group_velocity(q)
+    w3 = disp.omega(q) ** 3
     for weight in (q * S / vg, q * q * S / vg):
         assert np.all(np.diff(weight) >= -1e-15 * weight[1:])
+        # growing no faster than omega^3: weight / omega^3 does not increase
+        ratio = weight / w3
+        assert np.all(np.diff(ratio) <= 1e-15 * ratio[:-1])
 
 
 def test_phonon_up_family_ends_and_matches_mpmath():
