@@ -1,7 +1,9 @@
 """J_nu(x) near the turning point x ~ nu, from the Airy-type transition
 expansion, with the decision where it reaches double precision.
 
-Where Debye's expansions do not converge (|x - nu| <~ 3 nu^(1/3)), J_nu is
+Near the turning point, where Debye's corrections stay above 1e-16
+(15 nu^2 > r^3 with r = sqrt|x^2 - nu^2|, i.e. |x - nu| <~ 3 nu^(1/3), and in
+bessel.py's check of its last term up to |x - nu| ~ 8.3 nu^(1/3)), J_nu is
 written with ``x = nu + a nu^(1/3)``, ``s = -2^(1/3) a`` and
 ``delta = -2^(-1/3) nu^(-2/3)`` (so that x = nu (1 + s delta)) as
 
