@@ -10,7 +10,9 @@ operations per value.  Their polynomials u_k follow from u_0 = 1 and
 ``u_k(t)/m^k = sum_p c_p t^(p-k) / r^k``, which stays finite at m = 0 (where
 the oscillatory form becomes Hankel's large-argument expansion).  Terms up to
 k = 18 are kept; where the last kept term exceeds 1e-16 (near the turning
-point, or for small r) the value comes from scipy's ``jv`` instead.  The
+point, or for small r) the value comes from the Airy-type transition
+expansion (``bessel_transition``, orders >= 100) where that reaches double
+precision, else from scipy's ``jv``.  The
 route of a value depends on its order and argument alone, never on the other
 values of the call (a sweep's point gives the same digits in any company).
 
@@ -24,6 +26,8 @@ from __future__ import annotations
 from fractions import Fraction
 
 import numpy as np
+
+from probe.engines.bessel_transition import NU_MIN, transition_jv
 
 #: number of Debye corrections kept
 _ORDERS = 18
@@ -155,6 +159,14 @@ def _jv_parts(m, x):
     use = np.zeros(nu.shape, dtype=bool)
     _debye(nu, x, r, out, use, angle)
     rest = ~use
+    if np.any(rest):
+        # near the turning point: the Airy-type transition expansion where
+        # it reaches double precision, scipy's jv elsewhere
+        near = np.nonzero(rest & (nu >= NU_MIN))[0]
+        if near.size:
+            val, good = transition_jv(nu[near], x[near])
+            out[near[good]] = val[good]
+            rest[near[good]] = False
     if np.any(rest):
         from scipy.special import jv   # scipy.special is imported when first needed (start-up)
         out[rest] = jv(nu[rest], x[rest])
