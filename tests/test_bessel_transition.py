@@ -212,3 +212,26 @@ def test_outside_the_checked_range_is_not_good():
     assert not bt.transition_jv(nu, x)[1].any()
     v, g = bt.transition_jv(np.array([]), np.array([]))
     assert v.size == 0 and g.size == 0
+
+
+def test_table_is_kept_in_the_cache_folder(tmp_path):
+    """A first process generates the polynomials and keeps their float table
+    in the cache folder; a second reads it back without generating them, and
+    both give the same table (and the table of a process without a cache)."""
+    import os
+    import subprocess
+    import sys
+    script = ("import sys, pickle; import probe.engines.bessel_transition as bt\n"
+              "if sys.argv[1] == 'read':\n"
+              "    bt.transition_polynomials = None  # generating would fail\n"
+              "sys.stdout.buffer.write(pickle.dumps(bt._table()))\n")
+    env = {**os.environ, "PROBE_CACHE_DIR": str(tmp_path)}
+    made = subprocess.run([sys.executable, "-c", script, "make"], env=env,
+                          capture_output=True, check=True).stdout
+    read = subprocess.run([sys.executable, "-c", script, "read"], env=env,
+                          capture_output=True, check=True).stdout
+    bare = subprocess.run([sys.executable, "-c", script, "make"],
+                          env={**os.environ, "PROBE_CACHE_DIR": ""},
+                          capture_output=True, check=True).stdout
+    assert made == read == bare
+    assert any(p.name.startswith("bessel-transition-") for p in tmp_path.iterdir())

@@ -30,7 +30,8 @@ formula) each power t^(2j) gives one term ``Gamma((2j+1)/3) n^(-(2j+1)/3)``;
 the terms with Gamma(1/3) are the multiples of Ai(0) (the constants of P),
 those with Gamma(2/3) the multiples of Ai'(0), which must equal Q_k(0)
 (a check of both routes).  Everything is generated in exact rational
-arithmetic when first needed and kept (nothing at import time).
+arithmetic when first needed and kept, as floats, in the cache folder
+(``probe.cache``; nothing at import time).
 
 P_k and Q_k hold only the powers s^n with n = k and n = k + 1 (mod 3), so
 each order is a polynomial in s^3 times s^(k mod 3) or s^((k+1) mod 3),
@@ -51,6 +52,8 @@ from fractions import Fraction
 from functools import lru_cache
 
 import numpy as np
+
+from probe.cache import Memo
 
 #: smallest and largest orders the expansion is used for (checked up to 1e9)
 NU_MIN = 100.0
@@ -170,15 +173,32 @@ def _in_cubes(poly, r):
     return cs, tuple(abs(c) for c in cs)
 
 
+def _source_key():
+    """Key of the kept table: this module's size and modification time."""
+    import os
+    st = os.stat(__file__)
+    return f"{ORDERS}:{st.st_size}:{st.st_mtime_ns}"
+
+
+#: the float table, kept in the cache folder (``probe.cache``): generating it
+#: in exact arithmetic takes 50-80 ms, reading it back well under 1 ms
+_KEPT = Memo("bessel-transition-1", _source_key)
+
+
 @lru_cache(maxsize=None)
 def _table():
+    kept = _KEPT.get("table")
+    if isinstance(kept, tuple) and len(kept) == ORDERS:
+        return kept
     P, Q = transition_polynomials(ORDERS)
     out = []
     for k in range(1, ORDERS + 1):
         rp, rq = k % 3, (k + 1) % 3
         assert all(n % 3 == rp for n in P[k]) and all(n % 3 == rq for n in Q[k])
         out.append((rp, *_in_cubes(P[k], rp), rq, *_in_cubes(Q[k], rq)))
-    return tuple(out)
+    out = tuple(out)
+    _KEPT.put("table", out)
+    return out
 
 
 def _horner(cs, z, times=None):
