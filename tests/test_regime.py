@@ -1,10 +1,12 @@
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
 from scipy import constants as sc
 from scipy.special import zeta
 
+from probe.errors import InputError
 from probe.gas.condensate import Condensate
 from probe.detectors import DensityProbe, TwoLevelProbe
 from probe.engines.regime import regime_warnings
@@ -14,6 +16,7 @@ from conftest import NA23_MASS, RB87_MASS
 
 M_RB, M_NA = RB87_MASS, NA23_MASS
 TWO_PI = 2 * math.pi
+EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
 
 def rb3d(**kw):
@@ -184,3 +187,46 @@ def test_effective_temperature_of_a_subnormal_up_rate_is_finite():
                                           up_positive=True)
     want = sc.hbar * gap / (sc.k * (np.log(10.0) - np.log(1e-310)))
     assert teff[0] == pytest.approx(want, rel=1e-12)
+
+
+def test_absurd_density_is_refused_naming_the_density():
+    # n a^3 >= 1 (one atom per scattering-length cube) is no dilute gas at all:
+    # refused naming condensate.density; 1e-3 < n a^3 < 1 stays a warning.
+    a = 5.3e-9
+    with pytest.raises(InputError) as exc:
+        rb3d(density=1.5 / a**3, scattering_length=a)
+    assert exc.value.key == "condensate.density" and "n a^3 = 1.5" in exc.value.message
+    ws = warnings_for(rb3d(density=0.5 / a**3, scattering_length=a), two_level())
+    assert len(matching(ws, "n a^3 = 0.5 exceeds 0.001")) == 1
+    # quasi-2D and quasi-1D: the 3D density at the centre of the transverse
+    # harmonic-oscillator ground state, |phi_0(0)|^2 = 1/(sqrt(pi) l) per frozen
+    # direction with l = sqrt(hbar/(m w)) (textbook ground state)
+    wperp = TWO_PI * 2e3
+    l_perp = math.sqrt(sc.hbar / (M_RB * wperp))
+    for d in (2, 1):
+        at_one = (math.sqrt(math.pi) * l_perp) ** (3 - d) / a**3   # n_d with n_3 a^3 = 1
+        with pytest.raises(InputError) as exc:
+            Condensate(d, M_RB, 1.2 * at_one, a, transverse_frequency=wperp)
+        assert exc.value.key == "condensate.density" and "n a^3 = 1.2," in exc.value.message
+        assert f"n_{d}/(sqrt(pi) l)^{3 - d}" in exc.value.message
+        Condensate(d, M_RB, 0.8 * at_one, a, transverse_frequency=wperp)
+
+
+@pytest.mark.parametrize("density", ["1e14 um^-3", "1e20 nm^-3", "1e20 mm^-3"])
+def test_density_unit_slip_is_blamed_on_the_density(density):
+    # a density in the wrong unit used to be blamed on the gap, the start point,
+    # or only warned about: it is refused first, naming the density
+    from probe.scenarios.config import load_config
+    with pytest.raises(InputError) as exc:
+        load_config(EXAMPLES / "box3d_supersonic.toml",
+                    overrides=[f"condensate.density={density}"])
+    assert exc.value.key == "condensate.density"
+    assert "n a^3 = " in exc.value.message and "check the density's unit" in exc.value.message
+
+
+def test_absurd_atom_number_is_refused_naming_it():
+    from probe.scenarios.config import load_config
+    with pytest.raises(InputError) as exc:
+        load_config(EXAMPLES / "passages" / "push3d_trap.toml",
+                    overrides=["condensate.atom_number=1e24"])
+    assert exc.value.key == "condensate.atom_number" and "peak density" in exc.value.message

@@ -29,6 +29,10 @@ KB = sc.k
 #: Riemann zeta(3/2), the ideal Bose gas's critical density n lambda_T^3 at T_c
 #: (tests/test_constants.py checks it against scipy.special.zeta)
 _ZETA_3_2 = 2.612375348685488343348567567
+#: n a^3 at or above this (one atom per scattering-length cube, with n the 3D
+#: density at the centre) is no dilute gas at all: refused, not warned about
+#: (the regime checks warn from n a^3 > 1e-3 on)
+DENSE_LIMIT = 1.0
 
 
 def _positive(key, value, allow_zero=False):
@@ -49,6 +53,39 @@ def _positive(key, value, allow_zero=False):
         allowed = ">= 0" if allow_zero else "> 0"
         raise InputError(key, f"must be {allowed}, got {v}")
     return v
+
+
+def centre_density_3d(dimension, density, transverse_length):
+    """The 3D density at the centre, m^-3: ``density`` in 3D; in a quasi-2D
+    (quasi-1D) gas n / (sqrt(pi) l)^(3 - d), the density at the centre of
+    the transverse ground state |phi_0(0)|^2 = 1/(sqrt(pi) l) of each frozen
+    direction (oscillator length ``transverse_length`` l)."""
+    if dimension == 3:
+        return density
+    return density / (math.sqrt(math.pi) * transverse_length) ** (3 - dimension)
+
+
+def too_dense(dimension, density, scattering_length, transverse_length=None):
+    """What was computed, in words, when the 3D density at the centre
+    (:func:`centre_density_3d`) holds one atom or more per scattering-length
+    cube (n a^3 >= ``DENSE_LIMIT``: no gas that Bogoliubov theory
+    describes); else None."""
+    try:
+        n3 = centre_density_3d(dimension, density, transverse_length)
+        na3 = n3 * scattering_length**3
+    except (OverflowError, ZeroDivisionError):
+        n3 = na3 = math.inf
+    if na3 < DENSE_LIMIT:
+        return None
+    d = dimension
+    where = ("" if d == 3 else
+             f", with n the 3D density at the centre of the transverse ground state, "
+             f"n_{d}/(sqrt(pi) l)^{3 - d} = {n3:.4g} m^-3 (oscillator length "
+             f"l = {transverse_length * 1e6:.4g} um)")
+    return (f"the density {density:.4g} m^-{d} and the scattering length "
+            f"a = {scattering_length * 1e9:.4g} nm give n a^3 = {na3:.4g}{where}: "
+            f"one atom or more per scattering-length cube (n a^3 >= {DENSE_LIMIT:g}) is "
+            "no dilute gas at all")
 
 
 class Condensate:
@@ -106,7 +143,20 @@ class Condensate:
                     "condensate.dispersion",
                     f"must be one of {sorted(DISPERSIONS)}, got {dispersion!r}")
             self.dispersion = DISPERSIONS[dispersion]()
+        self._check_dilute()
         self._check_scales()
+
+    def _check_dilute(self):
+        """InputError naming ``condensate.density`` when the gas is too
+        dense to be a dilute gas at all (:func:`too_dense`): most often a
+        density written in the wrong unit.  Raised before any other check,
+        which would blame a key derived from this density."""
+        why = too_dense(self.dimension, self.density, self.scattering_length,
+                        self.transverse_length)
+        if why:
+            raise InputError("condensate.density",
+                             f"{why}; check the density's unit (m^-{self.dimension} "
+                             f"in a {self.dimension}D gas)")
 
     def _check_scales(self):
         """InputError unless mu, c, xi and c/xi are finite and positive in
@@ -131,6 +181,11 @@ class Condensate:
                 + ": these inputs are outside the range of double precision")
 
     # --- derived quantities -------------------------------------------------
+    @property
+    def centre_density_3d(self):
+        """The 3D density at the centre, m^-3 (:func:`centre_density_3d`)."""
+        return centre_density_3d(self.dimension, self.density, self.transverse_length)
+
     @property
     def transverse_length(self):
         """Oscillator length sqrt(hbar/(m w_perp)) of the frozen directions, m."""

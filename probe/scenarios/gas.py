@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 
 from probe.errors import InputError
-from probe.gas.condensate import Condensate
+from probe.gas.condensate import Condensate, too_dense
 from probe.gas.dispersion import DISPERSIONS
 from probe.gas.trap import HarmonicTrap
 from probe.scenarios.keys import Key, Part
@@ -113,7 +113,13 @@ def _harmonic_gas(body):
     atoms = quantity(body, ATOM_NUMBER) if ATOM_NUMBER.name in body else None
     # the gas's mass and interaction (its density, unused, is set by the trap)
     shape, species = _uniform_gas({**body, DENSITY.name: f"1 m^-{dim}"}, size=False)
-    centre = HarmonicTrap(shape, frequencies, atom_number=atoms, peak_density=peak).centre
+    trap = HarmonicTrap(shape, frequencies, atom_number=atoms, peak_density=peak)
+    dense = atoms is not None and too_dense(dim, trap.peak_density, shape.scattering_length,
+                                            shape.transverse_length)
+    if dense:       # name the key that was given: the atom number sets the peak
+        raise InputError(ATOM_NUMBER.dotted, f"{atoms:.4g} atoms give the peak density "
+                                             f"{trap.peak_density:.4g} m^-{dim}; {dense}")
+    centre = trap.centre
     return centre, species, HarmonicTrap(centre, frequencies, peak_density=centre.density)
 
 
