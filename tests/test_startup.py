@@ -281,7 +281,7 @@ STRINGS = [("1.2e20 m^-3", "density", 3), ("5e7 1/m", "density", 1), ("5 um", "l
            ("3 a0", "length", None), ("86.909 u", "mass", None), ("50 nK", "temperature", None),
            ("2 ms", "time", None), ("200 Hz", "frequency", None), ("1257 rad/s", "frequency", None),
            ("1e-30 J", "frequency", None), ("160 Hz", "angular_frequency", None),
-           ("1000 1/s", "angular_frequency", None), ("1e-50 J m^3", "coupling", 3),
+           ("1000 rad/s", "angular_frequency", None), ("1e-50 J m^3", "coupling", 3),
            ("2 mm/s", "speed", None), ("1e-8", "dimensionless", None), ("10**3 um", "length", None)]
 
 _READ = """

@@ -12,8 +12,9 @@ decides:
 * ``Hz``, ``kHz``, ``MHz`` ... are ordinary frequencies nu; the angular
   frequency used everywhere in the library is ``2 pi nu``;
 * ``rad/s``, ``krad/s``, ``turn/s``, ``rpm`` ... are angular already;
-* a bare ``1/s`` (``s^-1``) is ambiguous for a ``"frequency"`` (gap or trap
-  frequency) and rejected; for an ``"angular_frequency"`` it is read as rad/s;
+* a bare ``1/s`` (``s^-1``) is ambiguous and rejected, for a ``"frequency"``
+  (gap or trap frequency) and an ``"angular_frequency"`` (a circle's) alike:
+  "40 1/s" could be 40 rad/s or 40 turns per second;
 * an energy (``J``, ``eV``) given for a ``"frequency"`` is ``hbar Omega``.
 
 Speeds may be given in units of the gas's own sound speed, written ``c_s``
@@ -303,7 +304,7 @@ _ALLOWED = {
     "time": "a time (s, ms, us ...)",
     "frequency": ("an ordinary frequency (Hz, kHz, MHz), an angular frequency "
                   "(rad/s, krad/s) or an energy hbar*Omega (J, eV)"),
-    "angular_frequency": ("an angular frequency (rad/s, 1/s) or an ordinary "
+    "angular_frequency": ("an angular frequency (rad/s, krad/s) or an ordinary "
                           "frequency (Hz, kHz)"),
     "dimensionless": "a pure number",
 }
@@ -465,8 +466,6 @@ def _frequency(q, key, value, kind):
         return _TWO_PI * float(q.to("Hz").magnitude)
     if angular:
         return float(q.to("rad/s").magnitude)
-    if kind == "angular_frequency":
-        return float(q.to("1/s").magnitude)
     raise InputError(
         key, f"{value!r} is ambiguous: 1/s could be an ordinary or an angular "
         "frequency; write Hz (ordinary, multiplied by 2 pi) or rad/s (angular)")
