@@ -201,3 +201,32 @@ def test_vector_errors_name_the_component():
         parse_vector([1, 0, 0, 0], "trajectory.direction", "dimensionless")
     with pytest.raises(InputError):
         parse_vector("1 um", "trajectory.start", "length")
+
+
+# --- examples in messages fit the key ----------------------------------------
+def _refusal(dotted, value, **kw):
+    from probe.scenarios.schema import KEYS
+    from probe.scenarios.values import quantity
+    key = KEYS[dotted]
+    with pytest.raises(InputError) as err:
+        quantity({key.name: value}, key, **kw)
+    assert err.value.key == dotted
+    return err.value.message
+
+
+def test_message_examples_fit_the_key():
+    # a direction takes plain numbers: its example is its declared one, no unit
+    for bad in ("1,0,0", "1 um", 3):
+        msg = _refusal("trajectory.direction", bad)
+        assert "[1, 0, 0]" in msg and "um" not in msg.replace(repr(bad), "")
+    # a start point's example carries lengths
+    assert "um" in _refusal("trajectory.start", "1,2,3").split("write")[-1]
+    # an atom number is a plain number of atoms: its declared 2e5, not '1e-8'
+    for bad in ("1e6 atoms", "1e6 m"):
+        msg = _refusal("condensate.atom_number", bad)
+        assert "2e5" in msg and "1e-8" not in msg and "dimensionless must" not in msg
+    assert "a pure number, e.g. 2e5" in _refusal("condensate.atom_number", "1e6 m")
+    # a scattering length's example is its declared typical value
+    assert "e.g. '5.3 nm'" in _refusal("condensate.scattering_length", "5.3e-9")
+    # a density's example follows the gas's dimension, not the declared 3D one
+    assert "e.g. '1e14 m^-2'" in _refusal("condensate.density", "1 K", dimension=2)

@@ -143,7 +143,8 @@ def trap_frequencies(value, dimension):
             raise InputError(key, f"needs one frequency per free direction: "
                                   f"{dimension} in a {dimension}D gas (or one string "
                                   f"for all), got {len(value)}")
-        w = parse_vector(value, key, "frequency", sizes=(dimension,))
+        w = parse_vector(value, key, "frequency", sizes=(dimension,),
+                         declared=TRAP_FREQUENCIES.example)
     else:
         w = np.full(dimension, parse_quantity(value, key, "frequency"))
     if not np.all(w > 0):

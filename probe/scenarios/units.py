@@ -331,13 +331,33 @@ _INT_LITERAL = re.compile(r"(?<![\w.])(?<![eE][+-])(\d[\d_]*)(?![\w.])")
 _DELTA_UNIT = re.compile(r"\bdelta_?deg|\bdelta_?(celsius|fahrenheit)", re.I)
 
 
-def example(kind, dimension=None):
+def example(kind, dimension=None, declared=None):
     """An example value of ``kind`` for messages (``"'5 um'"``); for a
-    density or coupling, the one of a ``dimension``-D gas (default 3D)."""
+    density or coupling, the one of a ``dimension``-D gas (default 3D).
+    ``declared`` is the example of the key being read (TOML text, as in its
+    declaration: ``'"5.3 nm"'``, ``"2e5"``): a typical value of that key,
+    shown instead where the kind's example does not depend on the gas's
+    dimension."""
     ex = _EXAMPLES.get(kind, "")
     if isinstance(ex, dict):
-        ex = ex.get(dimension, ex[3])
+        return ex.get(dimension, ex[3])
+    if declared:
+        text = str(declared).strip()
+        return f"'{text[1:-1]}'" if len(text) > 1 and text[0] == text[-1] == '"' else text
     return ex
+
+
+def vector_example(kind, declared=None):
+    """An example of a vector of ``kind`` for messages: the key's declared
+    example (TOML text: ``[1, 0, 0]``, ``["0 um", "2 um", "0 um"]``), else
+    plain numbers for a ``"dimensionless"`` vector (a direction) or the two
+    forms with a unit of ``kind``."""
+    if declared:
+        return str(declared).strip()
+    if kind == "dimensionless":
+        return "[1, 0, 0]"
+    unit = re.match(r"'\S+ ([^']+)'", example(kind)).group(1)
+    return f'"(1, 0, 0) {unit}" or ["1 {unit}", "0 {unit}", "0 {unit}"]'
 
 
 def _allowed(kind, dimension=None):
@@ -378,42 +398,43 @@ def _plain_number(value, key):
     return number
 
 
-def _parse(value, key, kind, dimension=None):
-    """A pint Quantity from the string ``value``; InputError if impossible."""
+def _parse(value, key, kind, shown):
+    """A pint Quantity from the string ``value``; InputError if impossible
+    (``shown``: the example its messages give)."""
     if isinstance(value, bool):
         raise InputError(key, f"expected a quantity with units, got {value!r}")
     if isinstance(value, (int, float, np.integer, np.floating)):
         if kind == "dimensionless":
             return unit_registry().Quantity(_plain_number(value, key))
         raise InputError(
-            key, f"{value!r} must carry units, e.g. {example(kind, dimension)} "
+            key, f"{value!r} must carry units, e.g. {shown} "
             "(write the value as a string with its unit)")
     if not isinstance(value, str):
         raise InputError(
             key, f"expected a string with units such as "
-            f"{example(kind, dimension)}, got {value!r}")
+            f"{shown}, got {value!r}")
     text = value.strip()
     if not text:
         raise InputError(key, f"is empty; give a value such as "
-                              f"{example(kind, dimension)}")
+                              f"{shown}")
     if len(text) > MAX_TEXT:
         raise InputError(key, f"is {len(text)} characters long (at most "
                               f"{MAX_TEXT}); give a value such as "
-                              f"{example(kind, dimension)}")
+                              f"{shown}")
     if kind == "temperature" and _DELTA_UNIT.search(text):
         raise InputError(
             key, f"{value!r} is a temperature difference; give an absolute "
             "temperature in K, mK, uK or nK")
     if "," in text:
         raise InputError(key, f"{value!r} looks like a list; a single value "
-                              f"such as {example(kind, dimension)} is expected")
+                              f"such as {shown} is expected")
     if any(re.search(rf"\b{u}\b", text) for u in _OFFSET_UNITS):
         raise InputError(
             key, f"{value!r}: offset temperature scales (degC, degF) are not "
             "accepted; give an absolute temperature in K, mK, uK or nK")
     if kind != "dimensionless" and _NUMBER_ONLY.match(text):
         raise InputError(key, f"{value!r} must carry units, e.g. "
-                              f"{example(kind, dimension)}")
+                              f"{shown}")
     pint, ureg = _pint(), unit_registry()
     try:
         q = ureg.parse_expression(_INT_LITERAL.sub(r"\1.0", text))
@@ -430,7 +451,7 @@ def _parse(value, key, kind, dimension=None):
         # truncated input ...): whatever it is, the string is not a quantity
         why = f" ({exc})" if str(exc) else ""
         raise InputError(key, f"cannot read {value!r} as a quantity{why}; "
-                              f"write e.g. {example(kind, dimension)}") from None
+                              f"write e.g. {shown}") from None
     try:
         if not isinstance(q, pint.Quantity):
             q = ureg.Quantity(float(q))
@@ -444,11 +465,11 @@ def _parse(value, key, kind, dimension=None):
     return q
 
 
-def _wrong_dimension(key, value, q, kind, dimension=None):
+def _wrong_dimension(key, value, q, kind, shown, dimension=None):
     return InputError(
         key, f"{value!r} has units of {_units_text(q)} "
-        f"({q.dimensionality}) but {kind} must be {_allowed(kind, dimension)}, "
-        f"e.g. {example(kind, dimension)}")
+        f"({q.dimensionality}) but it must be {_allowed(kind, dimension)}, "
+        f"e.g. {shown}")
 
 
 def _frequency(q, key, value, kind):
@@ -471,7 +492,7 @@ def _frequency(q, key, value, kind):
         "frequency; write Hz (ordinary, multiplied by 2 pi) or rad/s (angular)")
 
 
-def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
+def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None, declared=None):
     """Return ``value`` (a string with units) as an SI float.
 
     Parameters
@@ -484,6 +505,8 @@ def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
         ``dimension`` d; ``"temperature"`` returns K.
     dimension : 1, 2 or 3, required for ``"density"`` and ``"coupling"``
     sound_speed : m/s; required to read a speed written in ``c_s``
+    declared : the key's declared example (TOML text), shown in messages
+        (see :func:`example`)
 
     Raises
     ------
@@ -499,7 +522,8 @@ def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
         return _plain_number(value, key)
     remembered = _remembered(value, kind, dimension)
     if remembered is None:
-        remembered = _read(value, key, kind, dimension)
+        remembered = _read(value, key, kind, dimension,
+                           example(kind, dimension, declared))
         _remember(value, kind, dimension, remembered)
     if isinstance(remembered, _InSoundSpeeds):
         if sound_speed is None:
@@ -509,22 +533,22 @@ def parse_quantity(value, key, kind, *, dimension=None, sound_speed=None):
     return remembered
 
 
-def _read(value, key, kind, dimension):
+def _read(value, key, kind, dimension, shown):
     """``value`` read by pint as an SI float, or as ``_InSoundSpeeds`` (a
-    multiple of the gas's sound speed)."""
-    q = _parse(value, key, kind, dimension)
+    multiple of the gas's sound speed); ``shown``: the example of messages."""
+    q = _parse(value, key, kind, shown)
     dim = q.dimensionality
 
     if kind == "dimensionless":
         if not q.dimensionless:
-            raise _wrong_dimension(key, value, q, kind)
+            raise _wrong_dimension(key, value, q, kind, shown)
         return float(q.to("dimensionless").magnitude)
 
     if kind == "speed":
         if dim == unit_registry().c_s.dimensionality:
             return _InSoundSpeeds(q.to("c_s").magnitude)
         if not q.check("[length]/[time]"):
-            raise _wrong_dimension(key, value, q, kind)
+            raise _wrong_dimension(key, value, q, kind, shown)
         return float(q.to("m/s").magnitude)
 
     if kind in ("frequency", "angular_frequency"):
@@ -532,7 +556,7 @@ def _read(value, key, kind, dimension):
             return _frequency(q, key, value, kind)
         if kind == "frequency" and q.check("[energy]"):
             return float(q.to("J").magnitude) / sc.hbar
-        raise _wrong_dimension(key, value, q, kind)
+        raise _wrong_dimension(key, value, q, kind, shown)
 
     if kind == "density":
         if q.check(f"1/[length]**{dimension}"):
@@ -542,8 +566,8 @@ def _read(value, key, kind, dimension):
                 raise InputError(
                     key, f"{value!r} is a {k}D density (1/length^{k}) but the "
                     f"gas is {dimension}D; give 1/length^{dimension}, e.g. "
-                    f"{example(kind, dimension)}")
-        raise _wrong_dimension(key, value, q, kind, dimension)
+                    f"{shown}")
+        raise _wrong_dimension(key, value, q, kind, shown, dimension)
 
     if kind == "coupling":
         if q.check(f"[energy]*[length]**{dimension}"):
@@ -553,14 +577,14 @@ def _read(value, key, kind, dimension):
                 raise InputError(
                     key, f"{value!r} is a {k}D coupling (energy x length^{k}) "
                     f"but the gas is {dimension}D; give energy x "
-                    f"length^{dimension}, e.g. {example(kind, dimension)}")
-        raise _wrong_dimension(key, value, q, kind, dimension)
+                    f"length^{dimension}, e.g. {shown}")
+        raise _wrong_dimension(key, value, q, kind, shown, dimension)
 
     target = {"length": ("[length]", "m"), "mass": ("[mass]", "kg"),
               "temperature": ("[temperature]", "K"),
               "time": ("[time]", "s")}[kind]
     if not q.check(target[0]):
-        raise _wrong_dimension(key, value, q, kind)
+        raise _wrong_dimension(key, value, q, kind, shown)
     return float(q.to(target[1]).magnitude)
 
 
@@ -568,19 +592,20 @@ _VECTOR_STRING = re.compile(r"^\s*[\(\[]([^()\[\]]*)[\)\]]\s*(.*?)\s*$")
 
 
 def parse_vector(value, key, kind, *, dimension=None, sound_speed=None,
-                 sizes=(1, 2, 3)):
+                 sizes=(1, 2, 3), declared=None):
     """Return a short list of quantities as an SI numpy array.
 
     ``value`` is a list of strings with units (``["1 um", "0 um", "0 um"]``),
     a string with one unit after a parenthesised tuple (``"(1, 0, 0) um"``),
     or, for ``kind="dimensionless"`` (directions, normals), a list of plain
-    numbers (``[1, 0, 0]``).  The number of components must be in ``sizes``.
+    numbers (``[1, 0, 0]``).  The number of components must be in ``sizes``;
+    ``declared`` is the key's declared example (TOML text), shown in messages.
     """
     if isinstance(value, str):
         m = _VECTOR_STRING.match(value)
         if not m:
             raise InputError(key, f"cannot read {value!r} as a vector; write "
-                                  "e.g. \"(1, 0, 0) um\" or [\"1 um\", \"0 um\", \"0 um\"]")
+                                  f"e.g. {vector_example(kind, declared)}")
         parts, unit = m.group(1), m.group(2)
         items = [p.strip() for p in parts.split(",") if p.strip()]
         if not items:
@@ -593,8 +618,8 @@ def parse_vector(value, key, kind, *, dimension=None, sound_speed=None,
     elif isinstance(value, (list, tuple, np.ndarray)):
         components = list(value)
     else:
-        raise InputError(key, f"expected a list such as [\"1 um\", \"0 um\", "
-                              f"\"0 um\"] or [1, 0, 0], got {value!r}")
+        raise InputError(key, f"expected a list such as {vector_example(kind, declared)}, "
+                              f"got {value!r}")
     if len(components) not in sizes:
         allowed = " or ".join(str(s) for s in sizes)
         raise InputError(key, f"must have {allowed} components, got "

@@ -50,9 +50,10 @@ def quantity(body, key, **kwargs):
         return None
     if key.vector:
         _numbers_only(value, key)
-        return parse_vector(value, key.dotted, key.kind, **kwargs)
+        return parse_vector(value, key.dotted, key.kind, declared=key.example, **kwargs)
     kwargs.pop("sizes", None)
-    return with_hint(lambda v: parse_quantity(v, key.dotted, key.kind, **kwargs),
+    return with_hint(lambda v: parse_quantity(v, key.dotted, key.kind,
+                                              declared=key.example, **kwargs),
                      value, key.dotted)
 
 
