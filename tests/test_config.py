@@ -286,6 +286,37 @@ def test_override_applied_when_loading():
     assert s.trajectory.stationary_parameters()["speed"] == pytest.approx(2 * c)
 
 
+def test_override_sets_one_component_as_vary_does():
+    # --set takes the component keys that --vary takes (trajectory.start[1])
+    raw = cfg(trajectory__start=["0 um", "2 um", "0 um"])
+    assert override(raw, "trajectory.start[1]=10 um")["trajectory"]["start"] == [
+        "0 um", "10 um", "0 um"]
+    # absent: the origin, one component per dimension of the gas
+    assert override(BASE, "trajectory.start[1]=10 um")["trajectory"]["start"] == [
+        "0 m", "10 um", "0 m"]
+    # written as one string with a unit
+    out = override(cfg(trajectory__start="(1, 2, 3) um"), "trajectory.start[2]=5 um")
+    assert out["trajectory"]["start"] == ["(1) um", "(2) um", "5 um"]
+    # the path built from it: y = 10 um (impact parameter of a path along x)
+    s = scenario_from_dict(BASE, ["trajectory.start[1]=10 um", "trajectory.start[0]=-3 um"])
+    np.testing.assert_allclose(s.trajectory.position(0.0), [-3e-6, 10e-6, 0.0])
+    for bad, key, text in (("trajectory.start[5]=1 um", "trajectory.start[5]", "[2]"),
+                           ("trajectory.direction[1]=1", "trajectory.direction[1]",
+                            "whole value"),
+                           ("trajectory.strat[1]=1 um", "trajectory.strat", "start")):
+        with pytest.raises(InputError) as err:
+            override(BASE, bad)
+        assert err.value.key == key and text in err.value.message
+
+
+def test_unset_of_one_component_says_what_to_do():
+    from probe.scenarios.config import unset
+    with pytest.raises(InputError) as err:
+        unset(cfg(trajectory__start=["0 um", "2 um", "0 um"]), "trajectory.start[1]")
+    assert err.value.key == "trajectory.start[1]"
+    assert "--unset trajectory.start" in err.value.message and "--set" in err.value.message
+
+
 @pytest.mark.parametrize("assignment, key", [
     ("trajectory.sped=2 c_s", "trajectory.sped"),
     ("trajectori.speed=2 c_s", "trajectori"),

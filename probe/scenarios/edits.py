@@ -9,7 +9,8 @@ import tomllib
 
 from probe.errors import InputError
 from probe.scenarios.planning import UNCERTAINTY
-from probe.scenarios.schema import check_key
+from probe.scenarios.schema import check_key, component_key
+from probe.scenarios.units import vector_components
 
 
 def read_toml(path):
@@ -58,15 +59,36 @@ def override(config, assignment):
                                   f"'trajectory.speed=2 c_s', got {assignment!r}")
     dotted, text = assignment.split("=", 1)
     dotted = dotted.strip()
-    section, key = _section_key(dotted, "--set", "trajectory.speed")
+    component = component_key(dotted)
+    section, key = ((component[0].section, component[0].name) if component else
+                    _section_key(dotted, "--set", "trajectory.speed"))
     if not text.strip():
         raise InputError(dotted, "--set needs a value after '='")
     out = copy.deepcopy(config)
     body = out.setdefault(section, {})
     if not isinstance(body, dict):
         raise InputError(section, f"must be a table [{section}], got {body!r}")
-    body[key] = _toml_value(text)
+    if component:
+        _set_component(body, component, _toml_value(text), out)
+    else:
+        body[key] = _toml_value(text)
     return out
+
+
+def _set_component(body, component, value, config):
+    """Set one component of a vector key in ``body`` (``component``:
+    ``(Key, index)``): of the vector as written (a list, or ``"(0, 2, 0)
+    um"``), or of the origin with a component per dimension of the gas
+    (three in a 3D gas) when the key is absent."""
+    key, index = component
+    if key.name in body:
+        vec = vector_components(body[key.name], key.dotted, key.kind, key.example)
+    else:
+        d = config.get("condensate", {}).get("dimension")
+        vec = ["0 m"] * (d if d in (1, 2, 3) else 3)
+    vec += ["0 m"] * (index + 1 - len(vec))
+    vec[index] = value
+    body[key.name] = vec
 
 
 def _section_key(dotted, option, example):
@@ -97,6 +119,11 @@ def unset(config, dotted):
     if "=" in dotted:
         raise InputError("--unset", f"expected KEY such as 'probe.gap' (no '=value'; "
                                     f"use --set to change a value), got {dotted!r}")
+    component = component_key(dotted)
+    if component:
+        raise InputError(dotted, f"one component cannot be removed; set it (--set "
+                                 f"'{dotted}=0 um') or remove the whole "
+                                 f"{component[0].name} (--unset {component[0].dotted})")
     section, key = _section_key(dotted, "--unset", "probe.gap")
     body = config.get(section)
     if body is not None and not isinstance(body, dict):

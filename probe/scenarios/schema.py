@@ -59,6 +59,29 @@ COMPONENT_KEYS = {f"{key.dotted}[{i}]": key for part in PARTS for key in part.ke
                   if key.vector and key.kind == "length" for i in range(3)}
 NUMERIC_KEYS.update({name: key.kind for name, key in COMPONENT_KEYS.items()})
 
+_COMPONENT = re.compile(r"^(\w+)\.(\w+)\[\s*(\d+)\s*\]$")
+
+
+def component_key(dotted):
+    """``(Key, index)`` of a component key such as ``trajectory.start[1]``
+    (one of ``COMPONENT_KEYS``: what ``--vary`` and ``--set`` accept), None
+    for a name without ``[index]``; InputError for an index that the key
+    has not, or a key whose components are not set one at a time."""
+    m = _COMPONENT.match(dotted.replace(" ", ""))
+    if m is None:
+        return None
+    section, name, index = m.group(1), m.group(2), int(m.group(3))
+    check_key(section, name)
+    name = f"{section}.{name}[{index}]"
+    if name in COMPONENT_KEYS:
+        return COMPONENT_KEYS[name], index
+    own = [k for k in COMPONENT_KEYS if k.startswith(f"{section}.{m.group(2)}[")]
+    raise InputError(name, f"no such component; {section}.{m.group(2)} has {own[0]} to "
+                           f"{own[-1]} ({', '.join(AXES)})" if own else
+                     "its components are not set one at a time; give the whole value "
+                     f"(components of: {', '.join(sorted({k.split('[')[0] for k in COMPONENT_KEYS}))})")
+
+
 #: keys whose values the engines take as arrays (name of the engine argument)
 VECTOR_KEYS = {key.dotted: key.array for key in KEYS.values() if key.array}
 

@@ -591,16 +591,10 @@ def _read(value, key, kind, dimension, shown):
 _VECTOR_STRING = re.compile(r"^\s*[\(\[]([^()\[\]]*)[\)\]]\s*(.*?)\s*$")
 
 
-def parse_vector(value, key, kind, *, dimension=None, sound_speed=None,
-                 sizes=(1, 2, 3), declared=None):
-    """Return a short list of quantities as an SI numpy array.
-
-    ``value`` is a list of strings with units (``["1 um", "0 um", "0 um"]``),
-    a string with one unit after a parenthesised tuple (``"(1, 0, 0) um"``),
-    or, for ``kind="dimensionless"`` (directions, normals), a list of plain
-    numbers (``[1, 0, 0]``).  The number of components must be in ``sizes``;
-    ``declared`` is the key's declared example (TOML text), shown in messages.
-    """
+def vector_components(value, key, kind, declared=None):
+    """The components of a vector as written: the items of a list, or the
+    strings of ``"(1, 0, 0) um"`` (each with the unit); InputError naming
+    ``key`` (with an example, ``declared`` if given) for anything else."""
     if isinstance(value, str):
         m = _VECTOR_STRING.match(value)
         if not m:
@@ -611,15 +605,26 @@ def parse_vector(value, key, kind, *, dimension=None, sound_speed=None,
         if not items:
             raise InputError(key, f"{value!r} has no components")
         if unit:
-            components = [f"({p}) {unit}" if kind != "dimensionless" else
-                          f"({p}) * {unit}" for p in items]
-        else:
-            components = items
-    elif isinstance(value, (list, tuple, np.ndarray)):
-        components = list(value)
-    else:
-        raise InputError(key, f"expected a list such as {vector_example(kind, declared)}, "
-                              f"got {value!r}")
+            return [f"({p}) {unit}" if kind != "dimensionless" else
+                    f"({p}) * {unit}" for p in items]
+        return items
+    if isinstance(value, (list, tuple, np.ndarray)):
+        return list(value)
+    raise InputError(key, f"expected a list such as {vector_example(kind, declared)}, "
+                          f"got {value!r}")
+
+
+def parse_vector(value, key, kind, *, dimension=None, sound_speed=None,
+                 sizes=(1, 2, 3), declared=None):
+    """Return a short list of quantities as an SI numpy array.
+
+    ``value`` is a list of strings with units (``["1 um", "0 um", "0 um"]``),
+    a string with one unit after a parenthesised tuple (``"(1, 0, 0) um"``),
+    or, for ``kind="dimensionless"`` (directions, normals), a list of plain
+    numbers (``[1, 0, 0]``).  The number of components must be in ``sizes``;
+    ``declared`` is the key's declared example (TOML text), shown in messages.
+    """
+    components = vector_components(value, key, kind, declared)
     if len(components) not in sizes:
         allowed = " or ".join(str(s) for s in sizes)
         raise InputError(key, f"must have {allowed} components, got "
