@@ -37,7 +37,7 @@ import numpy as np
 from probe.detectors.base import (HBAR, Channel, InputError, _number,
                                   coupling_from_scattering_length)
 from probe.detectors.two_level import TwoLevelProbe
-from probe.scenarios.keys import Key
+from probe.scenarios.keys import Key, both_given
 
 #: the two states' couplings to the density: scattering lengths (with the
 #: probe's mass for the reduced mass) or the couplings themselves
@@ -64,10 +64,11 @@ def state_couplings(values, condensate):
     lengths = (values.get("coupling_length_a"), values.get("coupling_length_b"))
     kappas = (values.get("coupling_a"), values.get("coupling_b"))
     if any(v is not None for v in lengths) and any(v is not None for v in kappas):
-        raise InputError("probe.coupling_a", "give the two states' scattering lengths "
-                                             "(coupling_length_a, coupling_length_b) or "
-                                             "their couplings (coupling_a, coupling_b), "
-                                             "not both")
+        given = [key for key in STATE_COUPLING_KEYS if values.get(key.name) is not None]
+        raise InputError("probe.coupling_a", both_given(
+            given[:sum(v is not None for v in lengths)],
+            given[sum(v is not None for v in lengths):],
+            " (the two states' scattering lengths, or their couplings)"))
     if all(v is not None for v in kappas):
         return kappas[0], kappas[1], None
     if all(v is not None for v in lengths):

@@ -15,7 +15,7 @@ from probe import constants as sc
 
 from probe.detectors import PROBE_MODELS, ProbeModel, coupling_from_scattering_length
 from probe.errors import InputError
-from probe.scenarios.keys import Key, Part
+from probe.scenarios.keys import Key, Part, both_given
 from probe.scenarios.units import example
 from probe.scenarios.values import choice, mass, not_applicable, quantity, read
 
@@ -89,8 +89,8 @@ def _width(body, probe_mass):
     if tweezer.name not in body:
         return quantity(body, _COMMON["width"])
     if "width" in body:
-        raise InputError(tweezer.dotted, "give either width or tweezer_frequency "
-                                         "(which sets the width), not both")
+        raise InputError(tweezer.dotted, both_given(_COMMON["width"], tweezer,
+                                                    " (which sets the width)"))
     w = quantity(body, tweezer)
     if not w > 0:
         raise InputError(tweezer.dotted, f"must be > 0, got {w!r} rad/s")
@@ -107,9 +107,9 @@ def _common_values(body, condensate, gas_species):
     width = None if tweezer else quantity(body, _COMMON["width"])
     length, coupling = _COMMON["coupling_length"], _COMMON["coupling"]
     if coupling.name in body and length.name in body:
-        raise InputError(coupling.dotted,
-                         "give either coupling (energy x length^d) or "
-                         "coupling_length (probe-boson scattering length), not both")
+        raise InputError(coupling.dotted, both_given(
+            length, coupling, " (probe-boson scattering length, or kappa itself: "
+                              "energy x length^d)"))
     if coupling.name in body:
         if not tweezer:
             not_applicable(body, _S, {"mass", "species"},

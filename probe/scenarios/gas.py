@@ -17,7 +17,7 @@ from probe.errors import InputError
 from probe.gas.condensate import Condensate, too_dense
 from probe.gas.dispersion import DISPERSIONS
 from probe.gas.trap import HarmonicTrap
-from probe.scenarios.keys import Key, Part
+from probe.scenarios.keys import Key, Part, unset_hint
 from probe.scenarios.units import parse_quantity, parse_vector
 from probe.scenarios.values import choice, mass, not_applicable, quantity, require
 
@@ -104,11 +104,12 @@ def _harmonic_gas(body):
     dim = _dimension(body)
     require(body, TRAP_FREQUENCIES)
     frequencies = trap_frequencies(body[TRAP_FREQUENCIES.name], dim)
-    if DENSITY.name in body and ATOM_NUMBER.name in body or \
-            DENSITY.name not in body and ATOM_NUMBER.name not in body:
+    both = DENSITY.name in body and ATOM_NUMBER.name in body
+    if both or DENSITY.name not in body and ATOM_NUMBER.name not in body:
         raise InputError(ATOM_NUMBER.dotted, "give either atom_number or density (the "
                                              "peak density) for a harmonic trap, not "
-                                             "both and not neither")
+                                             "both and not neither"
+                         + (unset_hint(ATOM_NUMBER, DENSITY) if both else ""))
     peak = quantity(body, DENSITY, dimension=dim) if DENSITY.name in body else None
     atoms = quantity(body, ATOM_NUMBER) if ATOM_NUMBER.name in body else None
     # the gas's mass and interaction (its density, unused, is set by the trap)

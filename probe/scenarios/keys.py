@@ -76,3 +76,31 @@ def suggest(word, choices):
     """``"did you mean 'x'? "`` for the closest of ``choices``, or ``""``."""
     close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.5)
     return f"did you mean '{close[0]}'? " if close else ""
+
+
+def _group(keys):
+    return (keys,) if isinstance(keys, Key) else tuple(keys)
+
+
+def _names(keys):
+    return " and ".join(key.name for key in _group(keys))
+
+
+def unset_hint(first, second):
+    """How to drop one of two alternatives given together (``first`` and
+    ``second``: Keys, or tuples of Keys given together), from the file or
+    from the command line: ``"; remove one from the file, or add --unset
+    probe.tweezer_frequency (keeps width) or --unset probe.width (keeps
+    tweezer_frequency)"``."""
+    def unset(keys):
+        return " ".join(f"--unset {key.dotted}" for key in _group(keys))
+    return (f"; remove one from the file, or add {unset(second)} (keeps "
+            f"{_names(first)}) or {unset(first)} (keeps {_names(second)}) on the "
+            "command line")
+
+
+def both_given(first, second, what=""):
+    """The message for two alternatives of one section given together
+    (``what``: a note after their names), with :func:`unset_hint`."""
+    return (f"give either {_names(first)} or {_names(second)}{what}, not both"
+            + unset_hint(first, second))

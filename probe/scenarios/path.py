@@ -22,7 +22,7 @@ from trajectories import Circular, Linear, TrajectoryError
 
 from probe.errors import InputError
 from probe.scenarios import spline, switching
-from probe.scenarios.keys import Key, Part
+from probe.scenarios.keys import Key, Part, unset_hint
 from probe.scenarios.limits import MAX_DISTANCE_OVER_XI, MAX_SPEED_OVER_C
 from probe.scenarios.values import choice, not_applicable, quantity, require
 
@@ -171,7 +171,8 @@ def build_circular(body, condensate, source=None):
     if (SPEED.name in body) == (ANGULAR_FREQUENCY.name in body):
         raise InputError(SPEED.dotted,
                          "give exactly one of speed (e.g. \"0.5 c_s\") and "
-                         "angular_frequency (e.g. \"100 rad/s\")")
+                         "angular_frequency (e.g. \"100 rad/s\")"
+                         + (unset_hint(SPEED, ANGULAR_FREQUENCY) if SPEED.name in body else ""))
     speed = omega = None
     if SPEED.name in body:
         speed = _speed(body, condensate.sound_speed)

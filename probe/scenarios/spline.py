@@ -18,7 +18,7 @@ import numpy as np
 from trajectories import TrajectoryError
 
 from probe.errors import InputError
-from probe.scenarios.keys import Key, suggest
+from probe.scenarios.keys import Key, suggest, unset_hint
 from probe.scenarios.limits import (MAX_ACCELERATION, MAX_DISTANCE_OVER_XI, MAX_SPEED_OVER_C,
                                     MAX_TIME_OVER_TU, fmt_time, scales)
 from probe.scenarios.units import parse_quantity
@@ -224,7 +224,8 @@ def build_spline(body, condensate, source=None):
                          "give exactly one of waypoints (an inline table of columns, "
                          "e.g. waypoints = " + WAYPOINTS.example + ") and "
                          "file (a CSV file such as \"path.csv\" with header "
-                         "'t [ms], x [um], y [um]')")
+                         "'t [ms], x [um], y [um]')"
+                         + (unset_hint(WAYPOINTS, FILE) if FILE.name in body else ""))
     order = body.get(ORDER.name, ORDER.default)
     max_speed = quantity(body, MAX_SPEED, sound_speed=condensate.sound_speed)
     if max_speed is not None and not max_speed > 0:

@@ -11,7 +11,7 @@ import numpy as np
 from probe import constants as sc
 from probe.cache import Memo, installed_stamp
 from probe.errors import InputError
-from probe.scenarios.keys import suggest
+from probe.scenarios.keys import both_given, suggest
 from probe.scenarios.spelling import with_hint
 from probe.scenarios.units import parse_quantity, parse_vector
 
@@ -156,7 +156,7 @@ def mass(body, species_key, mass_key, default=None, default_label=None):
     (and its label) when both are absent and a default is given."""
     section = species_key.section
     if species_key.name in body and mass_key.name in body:
-        raise InputError(mass_key.dotted, "give either species or mass, not both")
+        raise InputError(mass_key.dotted, both_given(species_key, mass_key))
     if species_key.name in body:
         species = body[species_key.name]
         return species_mass(species, species_key.dotted), species_name(species)
