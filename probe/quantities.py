@@ -100,6 +100,12 @@ KIND_NOUNS = {"rate": "rate"}
 ROLES = ("output", "motion", "derived", "grid", "gas", "passage")
 
 
+def counted(n, noun, plural=None):
+    """``n`` and ``noun`` in the number that ``n`` asks for: ``"1 point"``,
+    ``"3 points"`` (``plural``: default ``noun + "s"``)."""
+    return f"{n} {noun if n == 1 else plural or noun + 's'}"
+
+
 def si_unit(kind, dimension=3):
     """The SI unit (a pint-readable string) of ``kind`` in a gas of
     ``dimension`` (densities m^-d, couplings J m^d)."""

@@ -409,3 +409,14 @@ def test_a_bad_file_among_several_is_named(tmp_path, command, good):
     assert line.endswith(f"(in {bad})")
     alone = CliRunner().invoke(cli, [command, str(bad)])      # one file: nothing added
     assert alone.exit_code == 2 and "(in " not in alone.output
+
+
+def test_counts_in_messages_agree_with_their_number(tmp_path):
+    from probe.quantities import counted
+    assert counted(1, "point") == "1 point" and counted(0, "point") == "0 points"
+    assert counted(3, "point was", "points were") == "3 points were"
+    # a one-point sweep says "1 point", not "1 points"
+    out = tmp_path / "one.csv"
+    r = run("sweep", BOX, "--vary", "trajectory.speed=1.6c_s:1.6c_s:1", "--out", str(out))
+    assert r.exit_code == 0, r.output
+    assert "(1 point," in r.output and "1 points" not in r.output

@@ -110,8 +110,8 @@ def test_csv_file_is_read_relative_to_the_config_folder(tmp_path, monkeypatch):
     t = np.linspace(-1e-3, 6e-3, 50)
     np.testing.assert_allclose(from_file.position(t), inline.position(t), rtol=1e-12,
                                atol=1e-18)
-    # max_speed far below the path's speed: the spline warns
-    assert from_file.warnings and "above the limit" in from_file.warnings[0]
+    # max_speed far below the path's speed: the spline warns, naming the key
+    assert from_file.warnings and "above trajectory.max_speed" in from_file.warnings[0]
     assert cfg.exists()
 
 
@@ -551,3 +551,18 @@ def test_spectrum_of_a_model_without_emitted_phonons_is_refused(tmp_path):
     assert "error: --spectrum: the ramsey model has no emitted-phonon spectrum to write" \
         in r.output
     assert list(tmp_path.iterdir()) == []
+
+
+def test_spline_speed_warning_names_the_key_and_gives_ms():
+    # the warning names trajectory.max_speed, gives times in ms (the path spans
+    # 20 ms) and the largest speed as the trajectory's own scan finds it
+    stir = Path(__file__).resolve().parents[1] / "examples" / "transits" / "stir2d_spline.toml"
+    sc_ = load_config(stir, overrides=["trajectory.max_speed=1 c_s"])
+    (warning,) = sc_.trajectory.warnings
+    assert warning.startswith("trajectory.max_speed: ") and " ms" in warning
+    assert " s," not in warning and " s (" not in warning
+    vmax = sc_.trajectory.max_speed()        # trajectories' own scan (refined)
+    assert f"reaches {vmax:.4g} m/s" in warning
+    c = sc_.condensate.sound_speed
+    assert f"({vmax / c:.4g} c_s)" in warning
+    assert load_config(stir, overrides=["trajectory.max_speed=2 c_s"]).trajectory.warnings == []

@@ -18,6 +18,7 @@ from probe.cli.common import (EXIT_INPUT, fail, input_errors, json_option, json_
 from probe.cli.outputs import Outputs, json_by_suffix, scenario_inputs
 from probe.cli.progress import Progress
 from probe.errors import InputError
+from probe.quantities import counted
 
 _VARY_HELP = ("Grid over a numeric key, START and STOP with units, e.g. "
               "'trajectory.speed=0.5c_s:3c_s:101' or "
@@ -142,17 +143,19 @@ def _sweep_summary(result, out, plot, resume=False):
     missing = sum(1 for w in result.warnings if w.startswith("no result"))
     grid = f"{' x '.join(str(s) for s in result.shape)} = {n}" if len(result.shape) > 1 \
         else f"{n}"
-    lines = [f"wrote {out} ({grid} points, {len(result.columns)} columns) "
-             f"and {sidecar_path(out)}"]
+    lines = [f"wrote {out} ({counted(n, 'point') if len(result.shape) == 1 else grid + ' points'}"
+             f", {counted(len(result.columns), 'column')}) and {sidecar_path(out)}"]
     resumed = result.meta["evaluation"]["points_resumed"]
     if resumed:
-        lines.append(f"resumed: {resumed} points were kept from the interrupted run")
+        lines.append(f"resumed: {counted(resumed, 'point was', 'points were')} kept from "
+                     "the interrupted run")
     elif resume:
         lines.append(f"resumed: no interrupted run was found ({out}.partial), "
                      "so every point was computed")
     if flagged:
-        lines.append(f"warnings at {flagged} of {n} points (see the warnings column)"
-                     + (f"; no result at {missing} points" if missing else ""))
+        lines.append(f"warnings at {flagged} of {counted(n, 'point')} (see the warnings "
+                     "column)" + (f"; no result at {counted(missing, 'point')}"
+                                  if missing else ""))
     if plot is not None:
         lines.append(f"wrote {plot}")
     return "\n".join(lines)

@@ -40,7 +40,7 @@ from probe.design.gapscan import sweep_over_gaps
 from probe.design.sweep import (axis_value_text, cell_text, format_value, plan_sweep,
                                 raw_config, sweep, write_csv)
 from probe.design.sweep.evaluators import model_parameters
-from probe.quantities import headline, kind_of, si_unit
+from probe.quantities import counted, headline, kind_of, si_unit
 from probe.scenarios.planning import without_planning
 
 COMPARISONS = ("probe", "dispersion", "width", "temperature")
@@ -159,7 +159,7 @@ class Comparison:
     def summary(self, max_rows=11):
         """Printed summary: the models, the differences and a short table."""
         lines = []
-        grid = ", ".join(f"{a.key} = {a.start} .. {a.stop} ({a.size} points"
+        grid = ", ".join(f"{a.key} = {a.start} .. {a.stop} ({counted(a.size, 'point')}"
                          f"{', log' if a.log else ''})" for a in self.axes)
         lines.append(f"Model comparison over {grid}")
         lines.append(f"  configured: {self.base.label}")
@@ -428,12 +428,14 @@ def _statements(cmp):
         bad = st != "ok"
         if bad.any():
             word = "diverges" if (st == "diverges").any() else "has no result"
-            out.append(f"{v.label}: {v.main} {word} at {int(bad.sum())} of {n} points "
+            out.append(f"{v.label}: {v.main} {word} at {int(bad.sum())} of "
+                       f"{counted(n, 'point')} "
                        f"({_extent(cmp, bad)}): {v.reason()}")
         bst = np.array(base.status())
         if (bst != "ok").any() and not bad.all():
-            out.append(f"configured model has no result at {int((bst != 'ok').sum())} "
-                       f"points where the {v.label} has one")
+            out.append(f"configured model has no result at "
+                       f"{counted(int((bst != 'ok').sum()), 'point')} where the {v.label} "
+                       "has one")
         shared = [q for q in v.quantities if q in base.quantities]
         for q in shared:
             a, b = base.result.column(q), v.result.column(q)
@@ -445,17 +447,17 @@ def _statements(cmp):
             only_base = ok & (a > 0) & (b == 0)
             only_var = ok & (b > 0) & (a == 0)
             if only_base.any():
-                out.append(f"{v.label}: {q} vanishes at {int(only_base.sum())} points "
+                out.append(f"{v.label}: {q} vanishes at {counted(int(only_base.sum()), 'point')} "
                            f"where the configured model's is nonzero ({_extent(cmp, only_base)})")
             if only_var.any():
-                out.append(f"{v.label}: {q} is nonzero at {int(only_var.sum())} points "
+                out.append(f"{v.label}: {q} is nonzero at {counted(int(only_var.sum()), 'point')} "
                            f"where the configured model's vanishes ({_extent(cmp, only_var)})")
             big = rel > tol
             both = int(ok.sum())
-            where = "every point" if both == n else f"the {both} points where both are finite"
+            where = "every point" if both == n else f"the {counted(both, 'point')} where both are finite"
             if big.any():
                 out.append(f"{v.label}: {q} differs by more than {tol:.0%} at "
-                           f"{int(big.sum())} of {both} points with both finite "
+                           f"{int(big.sum())} of {counted(both, 'point')} with both finite "
                            f"({_extent(cmp, big)}); {_largest(cmp, v, q, a, b, ok)}")
             elif ok.any() and np.all((a[ok] == 0) & (b[ok] == 0)):
                 out.append(f"{v.label}: {q} vanishes in both models at {where}")
@@ -499,8 +501,8 @@ def _support_statement(cmp, base, qb, v, qv):
     a, b = base.result.column(qb), v.result.column(qv)
     na = int(np.sum(np.isfinite(a) & (a > 0)))
     nb = int(np.sum(np.isfinite(b) & (b > 0)))
-    text = (f"{v.label}: {qv} is nonzero at {nb} points, the configured "
-            f"{qb} at {na} points")
+    text = (f"{v.label}: {qv} is nonzero at {counted(nb, 'point')}, the configured "
+            f"{qb} at {counted(na, 'point')}")
     if len(cmp.axes) == 1:
         oa, ob = _onset(cmp, base, qb), _onset(cmp, v, qv)
         text += (f"; onset of {qb}: {oa or 'none on the grid'}, of {qv}: "

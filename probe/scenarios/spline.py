@@ -190,6 +190,28 @@ def _check_waypoint_range(times, pos, condensate, where):
                               f"{MAX_SPEED_OVER_C:g} c_s (c_s = {c:.4g} m/s in this gas)")
 
 
+def speed_notes(spline, max_speed, condensate):
+    """The warning, naming ``trajectory.max_speed``, where the spline (which
+    can overshoot between waypoints) is faster than ``max_speed`` (m/s;
+    None: no limit): its largest speed and when, the times in the unit of
+    the path's span."""
+    if max_speed is None:
+        return []
+    c = condensate.sound_speed
+    t0, t1 = spline.time_span
+    t = np.union1d(np.linspace(t0, t1, 8193), spline.times)
+    speeds = spline.speed(t)
+    i = int(np.argmax(speeds))
+    if not speeds[i] > max_speed:
+        return []
+    over = np.flatnonzero(speeds > max_speed)
+    like = max(abs(t0), abs(t1))
+    return [f"{MAX_SPEED.dotted}: the spline's speed reaches {speeds[i]:.4g} m/s "
+            f"({speeds[i] / c:.4g} c_s) at t = {fmt_time(t[i], like)}, above "
+            f"{MAX_SPEED.dotted} = {max_speed:.4g} m/s ({max_speed / c:.4g} c_s), from "
+            f"t = {fmt_time(t[over[0]], like)} to {fmt_time(t[over[-1]], like)}"]
+
+
 def _check_spline_motion(spline, condensate, key, pre):
     """InputError unless the speed and acceleration along the spline (which
     can overshoot between waypoints) stay within the range handled."""
@@ -246,10 +268,11 @@ def build_spline(body, condensate, source=None):
     _check_waypoint_range(times, pos, condensate, where)
     from trajectories import Spline   # here: splines need scipy.interpolate
     try:
-        spline = Spline(times, pos, order=order, max_speed=max_speed)
+        spline = Spline(times, pos, order=order)
     except TrajectoryError as exc:
         raise _trajectory_error(exc, file=info.get("file")) from None
     _check_spline_motion(spline, condensate, motion_key, motion_pre)
+    spline.warnings = speed_notes(spline, max_speed, condensate)
     info["waypoints"] = int(times.size)
     spline.config_info = info
     return spline
