@@ -230,3 +230,20 @@ def test_absurd_atom_number_is_refused_naming_it():
         load_config(EXAMPLES / "passages" / "push3d_trap.toml",
                     overrides=["condensate.atom_number=1e24"])
     assert exc.value.key == "condensate.atom_number" and "peak density" in exc.value.message
+
+
+def test_readme_limits_state_the_2d_weak_coupling_check():
+    # g_2 m / hbar^2 = sqrt(8 pi) a / l_z (Petrov, Holzmann, Shlyapnikov 2000),
+    # l_z = sqrt(hbar/(m w_z)); the README's example: 87Rb at 2 kHz gives 0.110
+    from probe.engines.regime.limits import GAS_PARAMETER_2D_LIMIT
+    a, wz = 5.3e-9, TWO_PI * 2e3
+    closed = math.sqrt(8 * math.pi) * a / math.sqrt(sc.hbar / (M_RB * wz))
+    cond = Condensate(2, M_RB, 1e14, a, transverse_frequency=wz)
+    assert cond.gas_parameter == pytest.approx(closed, rel=1e-12)
+    assert f"{closed:.3f}" == "0.110" and closed > GAS_PARAMETER_2D_LIMIT
+    assert len(matching(warnings_for(cond, two_level(1.0)), "g_2 m / hbar^2 = 0.1102")) == 1
+    readme = (EXAMPLES.parent / "README.md").read_text(encoding="utf-8")
+    limits = readme.split("### Limits of the model", 1)[1].split("**Safety.**", 1)[0]
+    assert "g_2 m/ħ² = √(8π) a/l_z ≪ 1 in 2D" in limits
+    assert f"warned above {GAS_PARAMETER_2D_LIMIT:g}" in limits and "gives 0.110" in limits
+    assert "Petrov, Holzmann & Shlyapnikov" in limits
