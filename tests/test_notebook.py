@@ -120,3 +120,18 @@ def test_sweep_out_nc_without_xarray_is_refused_before_computing(tmp_path):
     assert r.stderr.strip().startswith("error: --out:") and "xarray" in r.stderr
     assert len(r.stderr.strip().splitlines()) == 1
     assert sorted(p.name for p in tmp_path.iterdir()) == ["block"]
+
+
+def test_speed_swept_in_c_s_is_selected_in_c_s_as_the_readme_says(grid):
+    # the coordinate of a speed swept in c_s is in c_s (its units attribute):
+    # .sel picks by that number; the README's to_xarray paragraph says so
+    pytest.importorskip("xarray")
+    from pathlib import Path
+    ds = grid.to_xarray()
+    assert ds["trajectory.speed"].attrs["units"] == "c_s"
+    picked = ds["up_rate"].sel({"trajectory.speed": 0.8}, method="nearest")
+    np.testing.assert_array_equal(picked.values, grid.grid("up_rate")[1, :])
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    text = " ".join(readme.split("SweepResult.to_xarray()", 1)[1].split("## ", 1)[0].split())
+    assert "a speed swept in `c_s`, which stays in multiples of c_s" in text
+    assert "its `units` attribute says `c_s`" in text
