@@ -192,6 +192,29 @@ def test_a_dressed_detector_follows_the_local_mean_field_shift():
                                rtol=1e-12)
 
 
+def test_outside_the_cloud_rates_are_zero_and_gas_quantities_undefined():
+    """Samples beyond the Thomas-Fermi radius have no gas: the rates are 0
+    (nothing to scatter from), while the gap in the gas, the threshold speed
+    and the effective temperature, which only a gas defines, are NaN (not 0:
+    a zero gap or a zero threshold speed would be a wrong claim)."""
+    trap = HarmonicTrap(rb3d(), TWO_PI * np.array([50.0, 50.0, 50.0]), atom_number=2e5)
+    v = 1.5 * trap.centre.sound_speed
+    path = Linear(v, (1, 0, 0), (0, 0, 0))
+    t_in, t_out = path.times_within(trap.radii)
+    times = np.linspace(1.2 * t_in, 1.2 * t_out, 61)
+    res = passage(trap, _two_level(), path, times)
+    outside = res.density == 0
+    assert outside.any() and (~outside).any()
+    for name in ("up_rate", "down_rate"):
+        assert np.all(getattr(res, name)[outside] == 0)
+    for name in ("gap", "up_threshold_speed", "effective_temperature"):
+        values = getattr(res, name, None)
+        if values is None:
+            continue
+        assert np.all(np.isnan(values[outside]))
+        assert np.all(np.isfinite(values[~outside & (res.up_rate + res.down_rate > 0)]))
+
+
 def test_a_path_that_misses_the_cloud_says_how_far_it_passes():
     trap = HarmonicTrap(rb3d(), TWO_PI * np.array([50.0, 50.0, 50.0]), atom_number=2e5)
     path = Linear(1e-3, (1, 0, 0), (0, 1.5 * trap.radii[1], 0))

@@ -31,6 +31,7 @@ from probe import constants as sc
 from probe.engines.stationary import MAX_SPEED_OVER_C, inertial_rates
 from probe.engines.stationary.local import local_inertial_rates
 from probe.errors import InputError
+from probe.quantities import QUANTITIES
 
 HBAR = sc.hbar
 KB = sc.k
@@ -46,6 +47,8 @@ GRADIENT_LIMIT = 0.1
 RATE_CHANGE_LIMIT = 0.1
 #: the 3D gas is a condensate well below T_c (as for the uniform gas)
 TEMPERATURE_OVER_TC_LIMIT = 0.5
+#: kinds of local output that are 0 where there is no gas (nothing happens)
+_ZERO_WITHOUT_GAS = frozenset(("rate", "force", "power"))
 
 
 @dataclass
@@ -136,7 +139,7 @@ def local_rates(trap, probe_at, positions, speeds, rate_function=None, rtol=1e-8
     :class:`RateResult` per sample, replaces them (circular motion).
     Outside the cloud (density 0), and in the sliver of the edge where the
     probe outruns the local sound speed by more than the engine's range,
-    every rate is 0.  Returns (density, sound speed, {output: array},
+    every rate (force, power) is 0 and the other outputs are NaN.  Returns (density, sound speed, {output: array},
     warnings of the uniform-gas engine at the densest sample)."""
     n = trap.density(positions)
     c = np.zeros(len(n))
@@ -155,7 +158,11 @@ def local_rates(trap, probe_at, positions, speeds, rate_function=None, rtol=1e-8
     else:
         rows = [_row(rate_function(g, p, float(speeds[i])), p) for i, g, p in
                 zip(idx, gases, probes)]
-    values = {name: np.zeros(len(n)) for name in rows[0]}
+    # where no rate was computed (no gas, or the probe past the engine's
+    # range) the rates, forces and powers are 0; what only a gas defines
+    # (a gap in the gas, a threshold speed, a temperature) is not a number
+    values = {name: np.zeros(len(n)) if QUANTITIES[name].kind in _ZERO_WITHOUT_GAS
+              else np.full(len(n), np.nan) for name in rows[0]}
     for i, row in zip(idx, rows):
         for name, value in row.items():
             values[name][i] = value
