@@ -18,8 +18,10 @@ Per run it prints the wall time, how busy the machine's cores were
 meanwhile (/proc/stat) and how much of that was this sweep (its processes'
 CPU time, /proc/PID/stat, split into the sweep's own process, the helper
 processes below it (a fork server, if any) and the workers) and how
-much other programs, with the load average, and how long the processes
-waited for a core (/proc/PID/schedstat).  At the end: the median wall
+much other programs (on a virtual machine, the time its host kept the
+cores, steal, counts as theirs and is shown apart: the same work then
+takes a varying CPU time), with the load average, and how long the
+processes waited for a core (/proc/PID/schedstat).  At the end: the median wall
 times and their ratio, and, since other programs on a shared machine slow
 the 2-worker run most, two estimates of a quiet machine's ratio: from the
 wall times less the time the sweep's own process waited for a core (it
@@ -49,16 +51,25 @@ RING = str(Path(__file__).resolve().parent.parent / "examples" / "ring2d_circula
 
 
 def _busy():
-    """Busy CPU seconds of the whole machine so far (all processes, from
-    /proc/stat; None elsewhere): compared with the wall time it shows how
-    much of the cores other programs took during a run."""
+    """(busy, stolen) CPU seconds of the whole machine so far, from
+    /proc/stat (None elsewhere): busy counts all processes and the time a
+    virtual machine's host kept its cores (steal), so that compared with
+    the wall time it shows how much of the cores others took during a
+    run; stolen is that host's share alone."""
     try:
         with open("/proc/stat") as fh:
             fields = [int(x) for x in fh.readline().split()[1:]]
     except (OSError, ValueError):
         return None
     idle = fields[3] + (fields[4] if len(fields) > 4 else 0)
-    return (sum(fields[:8]) - idle) / os.sysconf("SC_CLK_TCK")
+    tick = os.sysconf("SC_CLK_TCK")
+    return (sum(fields[:8]) - idle) / tick, (fields[7] if len(fields) > 7 else 0) / tick
+
+
+def _since(b0):
+    """(busy, stolen) seconds since ``b0`` (:func:`_busy`), or (None, None)."""
+    b1 = _busy()
+    return (None, None) if b0 is None or b1 is None else (b1[0] - b0[0], b1[1] - b0[1])
 
 
 def _stat(pid):
@@ -153,10 +164,11 @@ def _one(n, workers, out):
     res = sweep(RING, vary, log=("trajectory.radius",), out=out, workers=workers,
                 progress=own)
     wall = time.perf_counter() - t0
-    busy = None if b0 is None else _busy() - b0
+    busy, stolen = _since(b0)
     split, worker, waits = own.split()
     harm = res.column("harmonics")
-    print(json.dumps({"wall": wall, "busy": busy, "split": split, "worker": worker,
+    print(json.dumps({"wall": wall, "busy": busy, "stolen": stolen, "split": split,
+                      "worker": worker,
                       "waits": waits,
                       "load": [load, os.getloadavg()[0]],
                       "sha": hashlib.sha256(Path(out).read_bytes()).hexdigest(),
@@ -185,11 +197,12 @@ def _run_cli(n, workers, out):
         own()
         time.sleep(0.02)
     wall = time.perf_counter() - t0
-    busy = None if b0 is None else _busy() - b0
+    busy, stolen = _since(b0)
     if proc.returncode != 0:
         raise SystemExit(proc.stderr.read().decode())
     split, worker, waits = own.split()
-    return {"wall": wall, "busy": busy, "split": split, "worker": worker, "waits": waits,
+    return {"wall": wall, "busy": busy, "stolen": stolen, "split": split, "worker": worker,
+            "waits": waits,
             "load": [load, os.getloadavg()[0]],
             "sha": hashlib.sha256(Path(out).read_bytes()).hexdigest(), "harmonics": None}
 
@@ -217,7 +230,9 @@ def _line(label, r, n):
     if r["busy"] is not None:
         others = max(0.0, r["busy"] - own)
         text += (f"; cores busy {100 * r['busy'] / (cores * wall):.0f} % of {cores}, "
-                 f"other programs {others / wall:.2f} cores on average")
+                 f"other programs {others / wall:.2f} cores on average"
+                 + (f" (of which the host's steal {r['stolen'] / wall:.2f})"
+                    if r.get("stolen") else ""))
     return text
 
 
@@ -241,10 +256,12 @@ def _summary(ones, twos):
     others = [x for x in map(_others, ones + twos) if x is not None]
     if others:
         quiet = max(others) < 0.1
+        steal = max((r.get("stolen") or 0.0) / r["wall"] for r in ones + twos)
         print(f"other programs kept {min(others):.2f} to {max(others):.2f} cores busy during "
-              "the runs: " + ("a quiet machine" if quiet else
-                              "a shared machine; the wall-clock ratio of a quiet one needs "
-                              "all near 0 (the other ratios estimate it)"))
+              "the runs" + (f" (the host's steal up to {steal:.2f})" if steal else "") + ": "
+              + ("a quiet machine" if quiet else
+                 "a shared machine; the wall-clock ratio of a quiet one needs "
+                 "all near 0 (the other ratios estimate it)"))
 
 
 def main():
