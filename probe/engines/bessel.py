@@ -11,8 +11,9 @@ operations per value.  Their polynomials u_k follow from u_0 = 1 and
 the oscillatory form becomes Hankel's large-argument expansion).  Terms up to
 k = 18 are kept; where the last kept term exceeds 1e-16 (near the turning
 point, or for small r) the value comes from the Airy-type transition
-expansion (``bessel_transition``, orders >= 100) where that reaches double
-precision, else from scipy's ``jv``.  The
+expansion (``bessel_transition``, orders >= 100, for groups of values
+large enough to repay its fixed cost: ``jv_bounded``) where that reaches
+double precision, else from scipy's ``jv``.  The
 route of a value depends on its order and argument alone, never on the other
 values of the call (a sweep's point gives the same digits in any company).
 
@@ -29,6 +30,10 @@ import numpy as np
 
 from probe.engines.bessel_transition import NU_MIN, transition_jv
 
+#: values near the turning point in one group from which the transition
+#: expansion is used (its fixed cost, about 1 ms a call, against about 3 us
+#: a value for scipy's jv)
+TRANSITION_BATCH = 512
 #: number of Debye corrections kept
 _ORDERS = 18
 #: accept the expansion where its last kept term is below this
@@ -148,8 +153,9 @@ def _angle(nu, x, r):
     return out
 
 
-def _jv_parts(m, x):
-    """J_m(x) (flat), |m|, r = sqrt|x^2 - m^2| and ``_angle``."""
+def _jv_parts(m, x, groups=None):
+    """J_m(x) (flat), |m|, r = sqrt|x^2 - m^2| and ``_angle``.  ``groups``
+    (an integer label per value, or None): see ``jv_bounded``."""
     m, x = np.broadcast_arrays(np.asarray(m, float), np.asarray(x, float))
     m, x = m.ravel(), x.ravel()
     nu = np.abs(m)
@@ -159,10 +165,17 @@ def _jv_parts(m, x):
     use = np.zeros(nu.shape, dtype=bool)
     _debye(nu, x, r, out, use, angle)
     rest = ~use
-    if np.any(rest):
-        # near the turning point: the Airy-type transition expansion where
-        # it reaches double precision, scipy's jv elsewhere
+    if groups is not None and np.any(rest):
+        # near the turning point, in a group with many such values: the
+        # Airy-type transition expansion where it reaches double precision
+        # (its fixed cost pays only for many values), scipy's jv elsewhere
         near = np.nonzero(rest & (nu >= NU_MIN))[0]
+        if near.size >= TRANSITION_BATCH:
+            label = np.asarray(groups).ravel()[near]
+            count = np.bincount(label)
+            near = near[count[label] >= TRANSITION_BATCH]
+        else:
+            near = near[:0]
         if near.size:
             val, good = transition_jv(nu[near], x[near])
             out[near[good]] = val[good]
@@ -222,11 +235,16 @@ def jv_error(m, x, value):
     return np.where(absval > 0, rel * absval, 0.0) + rel * _envelope(nu, x, r)
 
 
-def jv_bounded(m, x):
+def jv_bounded(m, x, groups=None):
     """J_m(x), the bound ``jv_error`` of its error, the envelope and
-    r = sqrt|x^2 - m^2|, from one pass over the arrays."""
+    r = sqrt|x^2 - m^2|, from one pass over the arrays.  ``groups``: a
+    non-negative integer label per value (e.g. the block of harmonics it
+    belongs to); the values near the turning point of a group that has at
+    least TRANSITION_BATCH of them come from the transition expansion, the
+    others from scipy's jv, so that a value's route depends on its group
+    alone, never on the rest of the call (without labels: scipy's jv)."""
     shape = np.broadcast_shapes(np.shape(m), np.shape(x))
-    J, nu, x, r, angle = _jv_parts(m, x)
+    J, nu, x, r, angle = _jv_parts(m, x, groups)
     env = _envelope(nu, x, r)
     err = _relative(nu, x, r, angle) * (np.abs(J) + env)
     return tuple(a.reshape(shape) for a in (J, err, env, r))

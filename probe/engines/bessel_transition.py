@@ -174,10 +174,11 @@ def _in_cubes(poly, r):
 
 
 def _source_key():
-    """Key of the kept table: this module's size and modification time."""
-    import os
-    st = os.stat(__file__)
-    return f"{ORDERS}:{st.st_size}:{st.st_mtime_ns}"
+    """Key of the kept table: a checksum of this module's text (the same
+    in every copy of the same code)."""
+    import zlib
+    with open(__file__, "rb") as fh:
+        return f"{ORDERS}:{zlib.crc32(fh.read()):08x}"
 
 
 #: the float table, kept in the cache folder (``probe.cache``): generating it

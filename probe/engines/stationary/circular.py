@@ -45,10 +45,12 @@ def first_harmonic(W, wc, sign):
     return np.where(W == 0, np.maximum(mlo, 1), mlo)
 
 
-def _window_edge_q(disp, v, W, sign):
+def _window_edge_q(disp, v, W, sign, speeds=None):
     """The wavenumber of a family's window edge, per point (arrays): the
     down window's root_plus, or the up window's upper edge; where the up
-    window is empty, the threshold's q (0 without a gap); not capped."""
+    window is empty, the threshold's q (0 without a gap); not capped.
+    ``speeds`` (an array like v), if given, receives the threshold speed
+    where the up window is empty and a gap is given (left alone elsewhere)."""
     if sign > 0:
         return disp.root_plus(v, W)
     qe = disp.roots_up(v, W)[1]
@@ -57,7 +59,9 @@ def _window_edge_q(disp, v, W, sign):
         qt = np.zeros(int(np.count_nonzero(gap)))
         has = W[gap] > 0
         if has.any():
-            qt[has] = disp.threshold(W[gap][has])[1]
+            vt, qt[has] = disp.threshold(W[gap][has])
+            if speeds is not None:
+                speeds[np.nonzero(gap)[0][has]] = vt
         qe[gap] = qt
     return qe
 
@@ -217,23 +221,21 @@ class _HarmonicSums:
         self.wc = v / R
         self.qcut = math.sqrt(CUT) / s if s > 0 else math.inf
         self.work = np.zeros(R.size)     # Bessel functions evaluated so far, per point
-        #: v/v_th, the largest q R/m on the up family's shells (inf without a gap)
+        #: v/v_th, the largest q R/m on the up family's shells, where it is
+        #: below 1 (inf elsewhere; set with the up family's edge, ``_edge``)
         self.zstar = np.full(R.size, math.inf)
-        gapped = W > 0
-        if gapped.any():
-            self.zstar[gapped] = v[gapped] / self.disp.threshold(W[gapped])[0]
         #: bounds of the Bessel functions' errors, per family and sum
         self.bessel = {sign: {k: np.zeros(R.size) for k in _KEYS} for sign in (+1, -1)}
 
-    def weights(self, m, x):
+    def weights(self, m, x, groups=None):
         """J_m(x)^2 (2D) or W_m(x) (3D), bounds on their errors (those of the
         Bessel functions and the effect of the argument's rounding: x = q R to
         _ARGUMENT relative, dJ/dx ~ (r + m^(1/3)) (envelope + |J|)/x with
         r = sqrt|x^2 - m^2|; dW/dx = (J_2m(2x) - W)/x) and the Bessel
-        functions each cost."""
+        functions each cost (``groups``: labels for ``jv_bounded``)."""
         n = np.abs(m)
         if self.d == 2:
-            J, e, env, r = jv_bounded(m, x)
+            J, e, env, r = jv_bounded(m, x, groups)
             e = e + _ARGUMENT * (r + _cube_roots(n) + 1) * (env + np.abs(J))
             return J * J, e * (2 * np.abs(J) + e), None
         Wm, e = w3(m, x, with_error=True)
@@ -273,7 +275,10 @@ class _HarmonicSums:
         pts[i] from starts[i], ``sh`` their ``shells``) of one family, with
         the bounds of their Bessel functions' errors added into
         ``self.bessel``."""
-        B, eB, cost = self.weights(m, sh["q"] * self.R[own])
+        # each block its own group: its route near the turning point is the
+        # same whatever other points share the call
+        block = np.repeat(np.arange(sizes.size), sizes)
+        B, eB, cost = self.weights(m, sh["q"] * self.R[own], block)
         self._count_work(pts, starts, sizes, cost)
         pf, w, n_th = sh["pf"], sh["w"], sh["n_th"]
         base = pf * B
@@ -456,7 +461,11 @@ class _HarmonicSums:
     def _edge(self, sign, pts):
         """The harmonic at the family's window edge (where k R ~ |m|), per point."""
         disp, v, W, qcut = self.disp, self.v[pts], self.W[pts], self.qcut
-        qe = _window_edge_q(disp, v, W, sign)
+        vt = np.full(pts.size, math.inf)
+        qe = _window_edge_q(disp, v, W, sign, vt)
+        if sign < 0:
+            # (a threshold speed only where the up window is empty)
+            self.zstar[pts] = np.where(np.isfinite(vt), v / vt, math.inf)
         qe = np.where(np.isfinite(qe), qe, qcut)
         fin = np.isfinite(qe)
         with np.errstate(invalid="ignore", over="ignore"):
