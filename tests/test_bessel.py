@@ -48,3 +48,34 @@ def test_debye_near_the_turning_point_against_mpmath():
             ref = float(mp.besselj(int(n), mp.mpf(float(xi)), maxprec=20000))
             err = float(jv_error(np.array([n]), np.array([xi]), np.array([got]))[0])
             assert abs(got - ref) <= err, (n, xi, got, ref, err)
+
+
+def test_route_near_the_turning_point_depends_on_the_group_alone():
+    """Values near the turning point (where Debye's corrections stay above
+    1e-16) come from the transition expansion only in a group with at least
+    TRANSITION_BATCH of them, else from scipy's jv; a group's values are the
+    same bits alone or beside other groups (a sweep's point gives the same
+    digits in any company), and both routes agree with each other to the
+    error bound."""
+    from scipy.special import jv
+
+    from probe.engines.bessel import TRANSITION_BATCH, jv_bounded
+    from probe.engines.bessel_transition import transition_jv
+    rng = np.random.default_rng(7)
+    nu_big = np.round(rng.uniform(2e3, 3e4, TRANSITION_BATCH + 40))
+    x_big = nu_big + rng.uniform(-6, 6, nu_big.size) * np.cbrt(nu_big)
+    nu_few = np.round(rng.uniform(2e3, 3e4, 30))
+    x_few = nu_few + rng.uniform(-6, 6, nu_few.size) * np.cbrt(nu_few)
+    big = jv_bounded(nu_big, x_big, np.zeros(nu_big.size, dtype=int))
+    few = jv_bounded(nu_few, x_few, np.zeros(nu_few.size, dtype=int))
+    both = jv_bounded(np.concatenate([nu_few, nu_big]), np.concatenate([x_few, x_big]),
+                      np.repeat([0, 1], [nu_few.size, nu_big.size]))
+    for alone, n0, n1 in ((few, 0, nu_few.size), (big, nu_few.size, None)):
+        for a, b in zip(alone, both):
+            assert np.array_equal(a, b[n0:n1])
+    val, good = transition_jv(nu_big, x_big)
+    assert good.all()
+    assert np.array_equal(big[0], val)                  # the transition route
+    assert np.array_equal(few[0], jv(nu_few, x_few))    # scipy's
+    ref = jv(nu_big, x_big)
+    assert np.all(np.abs(big[0] - ref) <= big[1] + jv_error(nu_big, x_big, ref))
