@@ -532,3 +532,17 @@ def test_resume_without_an_interrupted_run_says_so(tmp_path):
                                      "--out", str(tmp_path / "p.csv")])
     assert "resumed" not in plain.output
     assert out.read_bytes() == (tmp_path / "p.csv").read_bytes()
+
+
+def test_a_component_swept_keeps_the_others_as_written():
+    """--vary trajectory.start[0] on a start written as one string keeps its
+    other components (the vector as written, the same reading as --set);
+    an absent start begins at the origin with a component per dimension."""
+    from probe.design.sweep.keys import assign
+    raw = {"condensate": {"dimension": 3}, "trajectory": {"start": "(3, 2, 1) um"}}
+    out = assign(raw, {"trajectory.start[0]": "5 um"})
+    assert out["trajectory"]["start"] == ["5 um", "(2) um", "(1) um"]
+    assert raw["trajectory"]["start"] == "(3, 2, 1) um"
+    out = assign({"condensate": {"dimension": 2}, "trajectory": {}},
+                 {"trajectory.start[1]": "4 um"}, dimension=2)
+    assert out["trajectory"]["start"] == ["0 m", "4 um"]

@@ -69,22 +69,25 @@ def override(config, assignment):
     if not isinstance(body, dict):
         raise InputError(section, f"must be a table [{section}], got {body!r}")
     if component:
-        _set_component(body, component, _toml_value(text), out)
+        set_component(body, component, _toml_value(text),
+                      out.get("condensate", {}).get("dimension"))
     else:
         body[key] = _toml_value(text)
     return out
 
 
-def _set_component(body, component, value, config):
+def set_component(body, component, value, dimension):
     """Set one component of a vector key in ``body`` (``component``:
-    ``(Key, index)``): of the vector as written (a list, or ``"(0, 2, 0)
-    um"``), or of the origin with a component per dimension of the gas
-    (three in a 3D gas) when the key is absent."""
+    ``(Key, index)``, ``schema.component_key``): of the vector as written (a
+    list, or ``"(0, 2, 0) um"``), or of the origin with a component per
+    dimension of the gas (``dimension``; three if not 1, 2 or 3) when the
+    key is absent.  ``--set`` and the sweeps' ``--vary`` both set
+    components here."""
     key, index = component
     if key.name in body:
         vec = vector_components(body[key.name], key.dotted, key.kind, key.example)
     else:
-        d = config.get("condensate", {}).get("dimension")
+        d = dimension
         vec = ["0 m"] * (d if d in (1, 2, 3) else 3)
     vec += ["0 m"] * (index + 1 - len(vec))
     vec[index] = value

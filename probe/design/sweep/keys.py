@@ -10,7 +10,8 @@ import numpy as np
 
 from probe.errors import InputError
 from probe.quantities import si_unit
-from probe.scenarios.schema import NUMERIC_KEYS, VECTOR_KEYS
+from probe.scenarios.edits import set_component
+from probe.scenarios.schema import NUMERIC_KEYS, VECTOR_KEYS, component_key
 
 
 def _suggest(word, choices):
@@ -47,17 +48,6 @@ def component_of(key):
         if index.isdigit():
             return base, int(index)
     return key, None
-
-
-def _set_component(body, name, index, value, dimension):
-    """Set component ``index`` of the vector entry ``name`` (created at the
-    origin, with as many components as the gas's dimension, if absent)."""
-    vec = body.get(name)
-    vec = list(vec) if isinstance(vec, (list, tuple)) else ["0 m"] * max(dimension, index + 1)
-    while len(vec) <= index:
-        vec.append("0 m")
-    vec[index] = value
-    body[name] = vec
 
 
 def is_relative_speed(text):
@@ -103,11 +93,12 @@ def assign(raw, values, dimension=None):
             raise InputError(section, f"must be a table [{section}], got {body!r}")
         if isinstance(value, (float, int, np.floating, np.integer)) and not isinstance(value, bool):
             value = value_text(key, value, dimension=d)
-        vector, index = component_of(key)
-        if index is None:
+        component = component_key(key)
+        if component is None:
             body[name] = value
         else:
-            _set_component(body, vector.split(".")[1], index, value, d)
+            # of the vector as written in the file (a list or "(0, 2, 0) um")
+            set_component(body, component, value, d)
     return out
 
 
