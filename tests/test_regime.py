@@ -247,3 +247,21 @@ def test_readme_limits_state_the_2d_weak_coupling_check():
     assert "g_2 m/ħ² = √(8π) a/l_z ≪ 1 in 2D" in limits
     assert f"warned above {GAS_PARAMETER_2D_LIMIT:g}" in limits and "gives 0.110" in limits
     assert "Petrov, Holzmann & Shlyapnikov" in limits
+
+
+def test_two_level_probe_scattering_length_is_checked_against_xi():
+    """A two-level probe given by its probe-boson scattering length
+    (coupling_length) gets the same Born-regime check as the dressed and
+    Ramsey probes: |a| above 0.1 xi (common practice) is warned; a few nm
+    is not; an explicit coupling has no length to check."""
+    from probe.scenarios.config import rates_from_config
+    example = Path(__file__).resolve().parents[1] / "examples" / "box3d_supersonic.toml"
+
+    def warned(*overrides, removals=()):
+        result = rates_from_config(str(example), list(overrides), list(removals))
+        return [w for w in result.warnings if "scattering length" in w]
+    assert warned() == []
+    big = warned('probe.coupling_length="300 nm"')
+    assert len(big) == 1 and "300 nm" in big[0] and "healing length" in big[0]
+    assert warned('probe.coupling="1e-50 J m^3"',
+                  removals=("probe.coupling_length", "probe.species")) == []

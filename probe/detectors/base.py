@@ -92,6 +92,29 @@ def coupling_from_scattering_length(a_pb, boson_mass, probe_mass, condensate,
 
 
 
+#: |a| above this fraction of the healing length leaves the linear (Born)
+#: coupling to the density (common practice: 0.1)
+LENGTH_OVER_XI_LIMIT = 0.1
+
+
+def scattering_length_warnings(probe, condensate):
+    """Scattering lengths (``probe.scattering_lengths``, kept by a probe
+    built from them: ``coupling_length``, or a dressed or Ramsey probe's
+    states) not small against the healing length: the probe's coupling to
+    the density is then no longer linear (Born approximation)."""
+    lengths = getattr(probe, "scattering_lengths", None)
+    if not lengths:
+        return []
+    xi = condensate.healing_length
+    big = max(abs(a) for a in lengths)
+    if big <= LENGTH_OVER_XI_LIMIT * xi:
+        return []
+    return [f"an impurity-boson scattering length ({big * 1e9:.4g} nm) is not small "
+            f"against the healing length ({xi * 1e9:.4g} nm; limit "
+            f"{LENGTH_OVER_XI_LIMIT} xi): the coupling to the density is beyond the "
+            "linear (Born) picture the model assumes"]
+
+
 @dataclass(frozen=True)
 class Channel:
     """One golden-rule integral the engines evaluate for a probe model.
@@ -241,8 +264,10 @@ class ProbeModel:
         raise NotImplementedError
 
     def regime_warnings(self, condensate, result):
-        """Validity checks that belong to this model (sentences)."""
-        return []
+        """Validity checks that belong to this model (sentences): here, for
+        every model built from scattering lengths, that they are small
+        against the healing length (``scattering_length_warnings``)."""
+        return scattering_length_warnings(self, condensate)
 
     def rate_output_warnings(self, condensate, result):
         """Notes on this model's stationary outputs (sentences), placed after

@@ -209,7 +209,6 @@ class DressedProbe(TwoLevelProbe):
     def regime_warnings(self, condensate, result):
         out = super().regime_warnings(condensate, result)
         out += _suppression_warnings(self)
-        out += scattering_length_warnings(self, condensate)
         return out
 
     def reference_detectors(self, dimension):
@@ -252,9 +251,6 @@ class DressedProbe(TwoLevelProbe):
 #: below this sin^2(theta) the drive is far from the in-gas resonance and the
 #: transition coupling is strongly suppressed (common practice: a factor 10)
 SUPPRESSION_LIMIT = 0.1
-#: |a| above this fraction of the healing length leaves the linear (Born)
-#: coupling to the density (common practice: 0.1)
-LENGTH_OVER_XI_LIMIT = 0.1
 
 
 def _suppression_warnings(probe):
@@ -270,22 +266,6 @@ def _suppression_warnings(probe):
             f"is suppressed to sin(theta) = {p['sin_theta']:.3g} of |kappa_b - kappa_a|/2 "
             f"and the up and down rates by sin^2(theta) = {sin2:.3g}; a detuning of "
             f"{p['mean_field_shift'] / two_pi:.4g} Hz drives on the in-gas resonance"]
-
-
-def scattering_length_warnings(probe, condensate):
-    """Scattering lengths not small against the healing length: the probe's
-    coupling to the density is then no longer linear (Born approximation)."""
-    lengths = getattr(probe, "scattering_lengths", None)
-    if not lengths:
-        return []
-    xi = condensate.healing_length
-    big = max(abs(a) for a in lengths)
-    if big <= LENGTH_OVER_XI_LIMIT * xi:
-        return []
-    return [f"an impurity-boson scattering length ({big * 1e9:.4g} nm) is not small "
-            f"against the healing length ({xi * 1e9:.4g} nm; limit "
-            f"{LENGTH_OVER_XI_LIMIT} xi): the coupling to the density is beyond the "
-            "linear (Born) picture the model assumes"]
 
 
 def _coupling_unit(dimension):

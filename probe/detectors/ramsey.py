@@ -26,8 +26,7 @@ import math
 
 from probe.detectors.base import (HBAR, Channel, InputError, ProbeModel, _number,
                                   coupling_from_scattering_length)
-from probe.detectors.dressed import (STATE_COUPLING_KEYS, scattering_length_warnings,
-                                     state_couplings, state_rows)
+from probe.detectors.dressed import STATE_COUPLING_KEYS, state_couplings, state_rows
 
 
 class RamseyProbe(ProbeModel):
@@ -114,9 +113,6 @@ class RamseyProbe(ProbeModel):
         probe = cls(ka, kb, condensate.density, width)
         probe.scattering_lengths = (float(length_a), float(length_b))
         return probe
-
-    def regime_warnings(self, condensate, result):
-        return scattering_length_warnings(self, condensate)
 
     def in_gas(self, condensate):
         """The detector in a gas of density ``condensate.density`` (which sets

@@ -47,6 +47,9 @@ def build_probe(body, condensate, gas_species=None):
         values[key.name] = read(body, key, dimension=condensate.dimension,
                                 sound_speed=condensate.sound_speed)
     probe = model.from_config(values, condensate)
+    if values.get("scattering_lengths") and not getattr(probe, "scattering_lengths", None):
+        # kept for the model's check that it is small against xi
+        probe.scattering_lengths = values["scattering_lengths"]
     return probe, values["mass"], values["species"]
 
 
@@ -106,6 +109,7 @@ def _common_values(body, condensate, gas_species):
     tweezer = _COMMON["tweezer_frequency"].name in body
     width = None if tweezer else quantity(body, _COMMON["width"])
     length, coupling = _COMMON["coupling_length"], _COMMON["coupling"]
+    lengths = None                  # the probe-boson scattering length, if given
     if coupling.name in body and length.name in body:
         raise InputError(coupling.dotted, both_given(
             length, coupling, " (probe-boson scattering length, or kappa itself: "
@@ -125,9 +129,10 @@ def _common_values(body, condensate, gas_species):
         width = _width(body, probe_mass) if tweezer else width
         kappa = coupling_from_scattering_length(a_pb, condensate.mass, probe_mass,
                                                 condensate, width)
+        lengths = (a_pb,)
     else:
         raise InputError(length.dotted,
                          f"missing; add e.g. {length.name} = {length.example} or "
                          f"{coupling.name} = {example(coupling.kind, d)}")
     return {"coupling": kappa, "width": width, "mass": probe_mass,
-            "species": probe_species}
+            "species": probe_species, "scattering_lengths": lengths}
