@@ -256,6 +256,14 @@ class _HarmonicSums:
                 f"after {self.work[i]:.3g} Bessel-function evaluations, the limit; "
                 + TOO_MANY_HARMONICS)
 
+    def weight(self, q):
+        """P0, a harmonic's weight without J^2 or W_m (nor form factor or
+        occupation) on the shell q: q S/v_g in 2D, q^2 S/(pi v_g) in 3D."""
+        disp = self.disp
+        vg = disp.group_velocity(q)
+        Sq = disp.structure_factor(q)
+        return q * Sq / vg if self.d == 2 else q * q * Sq / (math.pi * vg)
+
     def shells(self, m, sign, own):
         """What harmonics ``m`` (of the points ``own``, one per harmonic) of
         one family need besides their Bessel functions: the resonant w and q,
@@ -263,9 +271,7 @@ class _HarmonicSums:
         gas, disp = self.gas, self.disp
         w = sign * self.W[own] + m * self.wc[own]
         q = disp.inverse(w)
-        vg = disp.group_velocity(q)
-        Sq = disp.structure_factor(q)
-        P0 = q * Sq / vg if self.d == 2 else q * q * Sq / (math.pi * vg)
+        P0 = self.weight(q)
         pf = P0 * gas.form(q, self.s) if self.s > 0 else P0
         n_th = gas.occupation(q) if gas.T > 0 else np.zeros_like(q)
         return {"w": w, "q": q, "P0": P0, "pf": pf, "n_th": n_th}
@@ -494,10 +500,7 @@ class _HarmonicSums:
         ok = (z < 1) & (M >= mlo) & (M >= 1) & (m_edge < 1e9)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             log_g = 2 * np.log(kapteyn(np.where(ok, z, 0.5)))
-            qM = disp.inverse(np.where(ok, M * self.wc[pts] - W, 1.0))
-            vg = disp.group_velocity(qM)
-            Sq = disp.structure_factor(qM)
-            P0 = qM * Sq / vg if self.d == 2 else qM * qM * Sq / (math.pi * vg)
+            P0 = self.weight(disp.inverse(np.where(ok, M * self.wc[pts] - W, 1.0)))
             log_g2 = log_g + 3.0 / np.maximum(M, 1)
             ok &= (log_g2 < 0) & (P0 > 0) & np.isfinite(P0)
             first = mlo * log_g - np.log1p(-np.exp(log_g))
