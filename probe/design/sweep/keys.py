@@ -3,7 +3,6 @@ configuration dict (values written back with their SI unit)."""
 from __future__ import annotations
 
 import copy
-import difflib
 import os
 
 import numpy as np
@@ -11,12 +10,8 @@ import numpy as np
 from probe.errors import InputError
 from probe.quantities import si_unit
 from probe.scenarios.edits import set_component
+from probe.scenarios.keys import suggest
 from probe.scenarios.schema import NUMERIC_KEYS, VECTOR_KEYS, component_key
-
-
-def _suggest(word, choices):
-    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.5)
-    return f"did you mean '{close[0]}'? " if close else ""
 
 
 def check_numeric_key(key, option="--vary"):
@@ -29,10 +24,10 @@ def check_numeric_key(key, option="--vary"):
     section, name = key.split(".")
     name = component_of(key)[0].split(".")[1]
     if section not in SCHEMA:
-        raise InputError(key, f"unknown section; {_suggest(section, SCHEMA)}"
+        raise InputError(key, f"unknown section; {suggest(section, SCHEMA)}"
                               f"allowed: {', '.join(SCHEMA)}")
     if name not in SCHEMA[section]:
-        raise InputError(key, f"unknown key; {_suggest(name, SCHEMA[section])}"
+        raise InputError(key, f"unknown key; {suggest(name, SCHEMA[section])}"
                               f"allowed: {', '.join(SCHEMA[section])}")
     if key not in NUMERIC_KEYS:
         raise InputError(key, "is not a numeric key and cannot be varied; "
