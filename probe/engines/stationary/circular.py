@@ -17,6 +17,7 @@ import numpy as np
 from probe.engines.bessel import envelope, jv_bounded
 from probe.engines.stationary.harmonics import kapteyn, w3, w3_terms
 from probe.engines.stationary.limits import CUT, EPS, MAX_HARMONICS
+from probe.engines.stationary.poisson import MIN_SPAN, poisson_run
 from probe.errors import ModelError
 
 TOO_MANY_HARMONICS = (
@@ -78,11 +79,13 @@ def _work_edge(disp, v, W, wc, sign, qcut):
     return np.where(fin, edge, math.inf)
 
 
-def _last_harmonic(disp, R, W, wc, sign, qcut, rtol, lo):
+def _last_harmonic(disp, R, W, wc, sign, qcut, rtol, lo, resolution=0.0):
     """First harmonic m >= lo (per point and family: ``sign`` an array) at
     which the sum stops (beyond the cutoff, or Kapteyn's bound of the
-    remainder below 0.1 rtol): doubling, then bisection on integers.  inf
-    where it is beyond 1e15."""
+    remainder below 0.1 rtol): doubling, then bisection on integers (or
+    until the bracket is below ``resolution`` times its top: the harmonic
+    returned is then one where the sum stops, not the first).  inf where it
+    is beyond 1e15."""
     def stops(m, i):
         q = disp.inverse(sign[i] * W[i] + m * wc[i])
         z = q * R[i] / np.maximum(m, 1)
@@ -98,13 +101,13 @@ def _last_harmonic(disp, R, W, wc, sign, qcut, rtol, lo):
         hi[act] *= 2
         act = act[hi[act] <= 1e15]
     a_, b_ = np.array(lo, dtype=float), hi
-    act = np.nonzero((b_ - a_ > 1) & (b_ <= 1e15))[0]
+    act = np.nonzero((b_ - a_ > np.maximum(1, resolution * b_)) & (b_ <= 1e15))[0]
     while act.size:
         mid = np.floor((a_[act] + b_[act]) / 2)
         ok = stops(mid, act)
         b_[act[ok]] = mid[ok]
         a_[act[~ok]] = mid[~ok]
-        act = act[b_[act] - a_[act] > 1]
+        act = act[b_[act] - a_[act] > np.maximum(1, resolution * b_[act])]
     return np.where(b_ > 1e15, math.inf, b_)
 
 
@@ -508,6 +511,73 @@ class _HarmonicSums:
             log_bound = np.log(np.where(ok, P0, 1.0)) + np.logaddexp(first, rest)
         return ok, np.where(ok, log_bound, math.inf)
 
+    def poisson(self, sign, pts, up_start, edge, mlo=None):
+        """Sum the long runs of family ``sign`` (2D, at least
+        ``poisson.MIN_SPAN`` harmonics) by Poisson summation
+        (``poisson_run``): upward from up_start to where Kapteyn's bound on
+        the remainder is far below the tolerance, or (``mlo`` given) the
+        negative harmonics mlo ... up_start - 1.  Their sums, error bounds
+        and counts are left in ``self.long_runs``.  Returns which of ``pts``
+        were summed so (the others are summed term by term)."""
+        n = self.R.size
+        self.long_runs = ({k: np.zeros(n) for k in _KEYS}, {k: np.zeros(n) for k in _KEYS},
+                          np.zeros(n, dtype=np.intp))
+        done = np.zeros(pts.size, dtype=bool)
+        if self.d != 2 or pts.size == 0:
+            return done
+        if mlo is not None:
+            cand = np.nonzero(up_start - mlo > MIN_SPAN)[0]
+            first, last = mlo[cand], up_start[cand] - 1
+        else:
+            # a cheap first look: where the run's bulk ends, the edge harmonic
+            # or (no edge: every shell radiates) the form factor's cut
+            with np.errstate(invalid="ignore", over="ignore"):
+                cut = (self.disp.omega(self.qcut) - sign * self.W[pts]) / self.wc[pts] \
+                    if math.isfinite(self.qcut) else np.full(pts.size, math.inf)
+            bulk = np.where(edge < 1e9, edge, cut)
+            cand = np.nonzero(np.isfinite(bulk) & (bulk - up_start >= MIN_SPAN / 2))[0]
+            p = pts[cand]
+            first = up_start[cand]
+            lo = np.maximum(np.ceil(np.where(edge[cand] < 1e9, edge[cand], first)), first)
+            last = _last_harmonic(self.disp, self.R[p], self.W[p], self.wc[p],
+                                  np.full(p.size, float(sign)), self.qcut, 1e-6 * self.rtol,
+                                  lo, 0.01) if p.size else first
+        tot, bnd, cnt = self.long_runs
+        for j, c in enumerate(cand):
+            i, A, B = pts[c], float(first[j]), float(last[j])
+            if not (math.isfinite(B) and MIN_SPAN <= B - A < self.max_harmonics):
+                continue
+            out = poisson_run(self, sign, i, A, B)
+            if out is None:
+                continue
+            sums, errs, bessel, evaluations = out
+            bound = {k: 0.0 for k in _KEYS}
+            if mlo is None:
+                # what lies beyond B: Kapteyn's bound, as for a sweep
+                here = {k: np.zeros(n) for k in _KEYS}
+                for k in sums:
+                    here[k][i] = sums[k]
+                sh = self.shells(np.array([B]), sign, np.array([i]))
+                if sh["q"][0] > self.qcut:
+                    # the form factor is below exp(-80) from here on (as in _stop)
+                    beyond, ok = {k: np.zeros(1) for k in _KEYS}, np.ones(1, dtype=bool)
+                else:
+                    beyond, ok = self._remainder(sign, +1, np.array([i]), np.array([B]),
+                        np.array([edge[c]]),
+                        tuple(sh[k] for k in ("q", "P0", "n_th", "w")), here)
+                if not ok[0]:
+                    continue
+                bound = {k: float(beyond[k][0]) for k in _KEYS}
+            self._count_work(np.array([i]), np.zeros(1, dtype=np.intp),
+                             np.array([evaluations]), None)
+            for k in sums:
+                tot[k][i] = sums[k]
+                bnd[k][i] = errs[k] + bound[k]
+                self.bessel[sign][k][i] += bessel[k]
+            cnt[i] = int(B - A + 1)
+            done[c] = True
+        return done
+
     def family(self, sign, pts):
         """Sums, remainder bounds and counts of one family of harmonics for
         the points ``pts``: upward from the first (or from m = 0), then the
@@ -523,13 +593,18 @@ class _HarmonicSums:
         ok, log_bound = (self.silent_bound(pts, mlo, edge) if sign < 0
                          else (np.zeros(pts.size, dtype=bool), None))
         quiet = ok & (log_bound < math.log(1e-300)) if ok.any() else ok
+        # every term below the smallest double (quiet): the family is 0; a
+        # long run in 2D: Poisson summation (``poisson``) where it applies
+        loud = np.nonzero(~quiet)[0]
+        direct = ~quiet
+        direct[loud] = ~self.poisson(sign, pts[loud], up_start[loud], edge[loud])
+        tot, bnd, cnt = self.sweep(sign, pts[direct], up_start[direct], +1, None, edge[direct])
+        for k in _KEYS:
+            tot[k] += self.long_runs[0][k]
+            bnd[k] += self.long_runs[1][k]
+        cnt = cnt + self.long_runs[2]
         if quiet.any():
-            # every term is below the smallest double: the family is 0
-            loud = ~quiet
-            tot, bnd, cnt = self.sweep(sign, pts[loud], up_start[loud], +1, None, edge[loud])
             bnd["plain"][pts[quiet]] = np.maximum(np.exp(log_bound[quiet]), 5e-324)
-        else:
-            tot, bnd, cnt = self.sweep(sign, pts, up_start, +1, None, edge)
         neg = up_start > mlo
         if neg.any():
             # negative harmonics: w = W - |m| w_c > 0; they matter down to
@@ -537,11 +612,14 @@ class _HarmonicSums:
             sub = pts[neg]
             qa = self.disp.root_minus(self.v[sub], self.W[sub])
             m_edge_neg = -(self.W[sub] - self.disp.omega(qa)) / self.wc[sub]
-            t2, b2, c2 = self.sweep(sign, sub, up_start[neg] - 1, -1, mlo[neg], m_edge_neg)
+            long_ = self.poisson(sign, sub, up_start[neg], m_edge_neg, mlo[neg])
+            rest = ~long_
+            t2, b2, c2 = self.sweep(sign, sub[rest], up_start[neg][rest] - 1, -1, mlo[neg][rest],
+                                    m_edge_neg[rest])
             for k in _KEYS:
-                tot[k] += t2[k]
-                bnd[k] += b2[k]
-            cnt = cnt + c2
+                tot[k] += t2[k] + self.long_runs[0][k]
+                bnd[k] += b2[k] + self.long_runs[1][k]
+            cnt = cnt + c2 + self.long_runs[2]
         return tot, bnd, cnt
 
 
