@@ -201,36 +201,41 @@ class _Run:
             raise _GiveUp
         return {k: (w * val, w * err) for k, w in weights.items()}
 
-    def integral(self, integrand, window, panels):
+    def integral(self, integrand, window, panels, extra=None):
         """Sum over ``panels`` (a, b) of the integral of integrand * window:
         (values, quadrature error estimates, integrated error bounds, largest
         |integrand|) per key, panels split until the estimate is below
-        0.01 rtol of the run's share (or below the Bessel errors' bound)."""
+        0.01 rtol of the run's share (or below the Bessel errors' bound);
+        and the integrand at the points ``extra``, evaluated with the first
+        round (one call: the values near a turning point share its route)."""
         x20, w20 = _rule(20)
         x16, w16 = _rule(16)
         lo = np.array([p[0] for p in panels])
         hi = np.array([p[1] for p in panels])
-        tot = {k: 0.0 for k in self.keys}
-        qerr = {k: 0.0 for k in self.keys}
-        berr = {k: 0.0 for k in self.keys}
-        peak = {k: 0.0 for k in self.keys}
+        tot, qerr, berr, peak = ({k: 0.0 for k in self.keys} for _ in range(4))
+        extra = np.zeros(0) if extra is None else extra
+        at_extra = None
         for _ in range(_ROUNDS):
             if lo.size == 0:
-                return tot, qerr, berr, peak
+                if at_extra is None:
+                    at_extra = integrand(extra) if extra.size else {}
+                return tot, qerr, berr, peak, at_extra
             mid, half = (lo + hi) / 2, (hi - lo) / 2
             t20 = (mid[:, None] + half[:, None] * x20).ravel()
             t16 = (mid[:, None] + half[:, None] * x16).ravel()
             t = np.concatenate((t20, t16))
+            n20, n = t20.size, t.size
             win = window(t)
-            vals = integrand(t)
-            n20 = t20.size
+            vals = integrand(t if at_extra is not None else np.concatenate((t, extra)))
+            if at_extra is None:
+                at_extra = {k: (f[n:], e[n:]) for k, (f, e) in vals.items()}
             q20, q16, b20 = {}, {}, {}
             for k, (f, e) in vals.items():
-                f = f * win
-                peak[k] = max(peak[k], float(np.max(np.abs(f))) if f.size else 0.0)
+                f = f[:n] * win
+                peak[k] = max(peak[k], float(np.max(np.abs(f))))
                 q20[k] = (f[:n20].reshape(-1, 20) @ w20) * half
                 q16[k] = (f[n20:].reshape(-1, 16) @ w16) * half
-                b20[k] = ((e * win)[:n20].reshape(-1, 20) @ w20) * half
+                b20[k] = ((e[:n20] * win[:n20]).reshape(-1, 20) @ w20) * half
             est = np.abs(q20["plain"] - q16["plain"])
             scale = abs(tot["plain"]) + abs(float(np.sum(q20["plain"])))
             limit = 1e-2 * self.hs.rtol * scale * (hi - lo) / max(self.B - self.A, 1.0)
@@ -238,8 +243,8 @@ class _Run:
             # does not help: their rounding is noise from node to node)
             floor = np.maximum(64 * EPS * np.abs(q20["plain"]), 2 * np.abs(b20["plain"]))
             bad = est > np.maximum(limit, floor)
+            good = ~bad
             for k in self.keys:
-                good = ~bad
                 tot[k] += float(np.sum(q20[k][good]))
                 qerr[k] += float(np.sum(np.abs(q20[k][good] - q16[k][good])))
                 berr[k] += float(np.sum(np.abs(b20[k][good])))
@@ -395,25 +400,25 @@ def _poisson(run):
     dens = _edge_density(_slow_density(run, smp), smp.t, F + S)
     parts.append((run.full, psi_s, _panels(_subtract([(a, b) for a, b, _, _ in S], _cores(F)),
                                            dens, smp.t)))
+    # the rest term by term (evaluated with the slow parts): the integers
+    # outside every core
+    ranges = _subtract([(run.A - 0.5, run.B + 0.5)], _cores(F) + _cores(S))
+    m = np.concatenate([np.arange(math.ceil(a), math.floor(b) + 1, dtype=float)
+                        for a, b in ranges]) if ranges else np.zeros(0)
+    m = m[(m >= run.A) & (m <= run.B)]
+    w_d = 1 - psi_f(m) - psi_s(m)
+    m, w_d = m[w_d > _CUT], w_d[w_d > _CUT]
     for integrand, window, panels in parts:
-        val, qe, be, peak = run.integral(integrand, window, panels)
+        val, qe, be, peak, at_m = run.integral(integrand, window, panels,
+                                               m if integrand == run.full else None)
         peaks.append(peak)
         for k in keys:
             total[k] += val[k]
             qerr[k] += qe[k]
             berr[k] += be[k]
-    # the rest term by term: the integers outside every core
-    ranges = _subtract([(run.A - 0.5, run.B + 0.5)], _cores(F) + _cores(S))
-    m = np.concatenate([np.arange(math.ceil(a), math.floor(b) + 1, dtype=float)
-                        for a, b in ranges]) if ranges else np.zeros(0)
-    m = m[(m >= run.A) & (m <= run.B)]
-    if m.size:
-        w_d = 1 - psi_f(m) - psi_s(m)
-        keep = w_d > _CUT
-        m, w_d = m[keep], w_d[keep]
-        for k, (f, e) in run.full(m).items():
-            total[k] += float(np.sum(f * w_d))
-            berr[k] += float(np.sum(e * w_d))
+    for k, (f, e) in at_m.items():
+        total[k] += float(np.sum(f * w_d))
+        berr[k] += float(np.sum(e * w_d))
     if head["plain"] > 1e-3 * run.hs.rtol * abs(total["plain"]):
         raise _GiveUp
     # the dropped terms of Poisson's formula: each window edge's transform at
