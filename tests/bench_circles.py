@@ -9,7 +9,8 @@ of each process, so that other work on the machine weighs less):
   2. 3D at R = 1e5 xi through circular_rates (not refused), time and memory;
   3. 2D per-point time at R = 1 and 10 xi (100 speeds 0.3 ... 2.5 c in one
      call) against a plain scipy harmonic sum of the same rates, and at
-     R = 1e4 xi (v = 0.5, 0.9, 1.5, 2.5 c).
+     R = 1e4 xi (v = 0.5, 0.9, 1.5, 2.5 c); at R = 1e4 and 1e5 xi the long runs
+     summed by Poisson's formula against every harmonic summed.
 
 Run: python tests/bench_circles.py [--previous=COMMIT] [--part=N] (default: the
 commit before the O(1) spherical average, 49102d0; --part=3 runs part 3 alone,
@@ -120,7 +121,10 @@ def two_d_rows():
     probe = TwoLevelProbe(0.3 * w0, kappa)
     gas = kernel_gas(cond, probe)
     pref = (kappa / sc.hbar) ** 2 * cond.density / xi ** 2 / w0
+    # warm: imports, tables and caches that a first call fills (scipy.special,
+    # the transition expansion's table, quadrature rules), at other speeds
     circular_rates(cond, probe, 10 * xi, 0.5 * c)
+    circular_rates(cond, probe, 1e4 * xi, np.array([0.7, 1.7]) * c)
     rows = []
     for R, speeds in ((1.0, np.linspace(0.3, 2.5, 100)), (10.0, np.linspace(0.3, 2.5, 100)),
                       (1e4, np.array([0.5, 0.9, 1.5, 2.5]))):
@@ -132,6 +136,42 @@ def two_d_rows():
         scipy_time = (time.process_time() - t) / speeds.size
         diff = max(abs(r.down_rate[i] / (plain[i][0] * pref) - 1) for i in range(speeds.size))
         rows.append((R, engine, scipy_time, diff))
+    return rows
+
+
+def poisson_rows():
+    """2D, gap 0.3 c/xi, v = 0.5, 0.9, 1.5, 2.5 c at R = 1e4 and 1e5 xi:
+    circular_rates with the long runs summed by Poisson's formula (the
+    default) against the same engine summing every harmonic (the switch
+    ``circular.MIN_SPAN`` raised), per point, CPU time; the largest
+    difference relative to the error bounds."""
+    import time
+
+    import numpy as np
+    sys.path.insert(0, str(ROOT))
+    sys.path.insert(0, str(ROOT / "tests"))
+    from conftest import rb_gas
+    from probe.detectors import TwoLevelProbe
+    from probe.engines.stationary import circular, circular_rates
+    cond = rb_gas(2)
+    c, xi, w0 = cond.sound_speed, cond.healing_length, cond.frequency_unit
+    probe = TwoLevelProbe(0.3 * w0, 1e-40)
+    speeds = np.array([0.5, 0.9, 1.5, 2.5]) * c
+    circular_rates(cond, probe, 1e4 * xi, np.array([0.7, 1.7]) * c)      # warm, as above
+    span, rows = circular.MIN_SPAN, []
+    for R in (1e4, 1e5):
+        out = []
+        for limit in (span, 10**12):
+            circular.MIN_SPAN = limit
+            t = time.process_time()
+            r = circular_rates(cond, probe, R * xi, speeds)
+            out.append(((time.process_time() - t) / speeds.size, r))
+        circular.MIN_SPAN = span
+        (fast, a), (slow, b) = out
+        worst = max(float(np.max(np.abs(x.down_rate - y.down_rate)
+                                 / (x.down_rate_error + y.down_rate_error)))
+                    for x, y in ((a, b),))
+        rows.append((R, fast, slow, worst))
     return rows
 
 
@@ -177,6 +217,11 @@ def part_2d():
             plain = float(np.median([run[i][2] for run in runs]))
             print(f"   R = {row[0]:g} xi: engine {engine * 1e3:.2f} ms, plain scipy sum "
                   f"{plain * 1e3:.2f} ms (ratio plain/engine {plain / engine:.2f})")
+    print("   long runs by Poisson's summation formula against every harmonic summed "
+          "(same engine), v = 0.5, 0.9, 1.5, 2.5 c:")
+    for R, fast, slow, worst in poisson_rows():
+        print(f"   R = {R:g} xi: {fast * 1e3:.2f} ms against {slow * 1e3:.2f} ms per point "
+              f"({slow / fast:.2f}x); largest difference {worst:.1e} of the summed error bounds")
     print(f"   load average {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
 
 
