@@ -516,15 +516,15 @@ class _HarmonicSums:
         ``poisson.MIN_SPAN`` harmonics) by Poisson summation
         (``poisson_run``): upward from up_start to where Kapteyn's bound on
         the remainder is far below the tolerance, or (``mlo`` given) the
-        negative harmonics mlo ... up_start - 1.  Their sums, error bounds
-        and counts are left in ``self.long_runs``.  Returns which of ``pts``
-        were summed so (the others are summed term by term)."""
+        negative harmonics mlo ... up_start - 1.  Returns which of ``pts``
+        were summed so (the others are summed term by term) and their sums,
+        error bounds and counts (indexed like the points of the kernel)."""
         n = self.R.size
-        self.long_runs = ({k: np.zeros(n) for k in _KEYS}, {k: np.zeros(n) for k in _KEYS},
-                          np.zeros(n, dtype=np.intp))
+        runs = ({k: np.zeros(n) for k in _KEYS}, {k: np.zeros(n) for k in _KEYS},
+                np.zeros(n, dtype=np.intp))
         done = np.zeros(pts.size, dtype=bool)
         if self.d != 2 or pts.size == 0:
-            return done
+            return done, runs
         if mlo is not None:
             cand = np.nonzero(up_start - mlo > MIN_SPAN)[0]
             first, last = mlo[cand], up_start[cand] - 1
@@ -542,7 +542,7 @@ class _HarmonicSums:
             last = _last_harmonic(self.disp, self.R[p], self.W[p], self.wc[p],
                                   np.full(p.size, float(sign)), self.qcut, 1e-6 * self.rtol,
                                   lo, 0.01) if p.size else first
-        tot, bnd, cnt = self.long_runs
+        tot, bnd, cnt = runs
         for j, c in enumerate(cand):
             i, A, B = pts[c], float(first[j]), float(last[j])
             if not (math.isfinite(B) and MIN_SPAN <= B - A < self.max_harmonics):
@@ -562,9 +562,9 @@ class _HarmonicSums:
                     # the form factor is below exp(-80) from here on (as in _stop)
                     beyond, ok = {k: np.zeros(1) for k in _KEYS}, np.ones(1, dtype=bool)
                 else:
+                    last_ = tuple(sh[k] for k in ("q", "P0", "n_th", "w"))
                     beyond, ok = self._remainder(sign, +1, np.array([i]), np.array([B]),
-                        np.array([edge[c]]),
-                        tuple(sh[k] for k in ("q", "P0", "n_th", "w")), here)
+                                                 np.array([edge[c]]), last_, here)
                 if not ok[0]:
                     continue
                 bound = {k: float(beyond[k][0]) for k in _KEYS}
@@ -576,7 +576,7 @@ class _HarmonicSums:
                 self.bessel[sign][k][i] += bessel[k]
             cnt[i] = int(B - A + 1)
             done[c] = True
-        return done
+        return done, runs
 
     def family(self, sign, pts):
         """Sums, remainder bounds and counts of one family of harmonics for
@@ -597,12 +597,13 @@ class _HarmonicSums:
         # long run in 2D: Poisson summation (``poisson``) where it applies
         loud = np.nonzero(~quiet)[0]
         direct = ~quiet
-        direct[loud] = ~self.poisson(sign, pts[loud], up_start[loud], edge[loud])
+        long_, runs = self.poisson(sign, pts[loud], up_start[loud], edge[loud])
+        direct[loud] = ~long_
         tot, bnd, cnt = self.sweep(sign, pts[direct], up_start[direct], +1, None, edge[direct])
         for k in _KEYS:
-            tot[k] += self.long_runs[0][k]
-            bnd[k] += self.long_runs[1][k]
-        cnt = cnt + self.long_runs[2]
+            tot[k] += runs[0][k]
+            bnd[k] += runs[1][k]
+        cnt = cnt + runs[2]
         if quiet.any():
             bnd["plain"][pts[quiet]] = np.maximum(np.exp(log_bound[quiet]), 5e-324)
         neg = up_start > mlo
@@ -612,14 +613,14 @@ class _HarmonicSums:
             sub = pts[neg]
             qa = self.disp.root_minus(self.v[sub], self.W[sub])
             m_edge_neg = -(self.W[sub] - self.disp.omega(qa)) / self.wc[sub]
-            long_ = self.poisson(sign, sub, up_start[neg], m_edge_neg, mlo[neg])
+            long_, runs = self.poisson(sign, sub, up_start[neg], m_edge_neg, mlo[neg])
             rest = ~long_
             t2, b2, c2 = self.sweep(sign, sub[rest], up_start[neg][rest] - 1, -1, mlo[neg][rest],
                                     m_edge_neg[rest])
             for k in _KEYS:
-                tot[k] += t2[k] + self.long_runs[0][k]
-                bnd[k] += b2[k] + self.long_runs[1][k]
-            cnt = cnt + c2 + self.long_runs[2]
+                tot[k] += t2[k] + runs[0][k]
+                bnd[k] += b2[k] + runs[1][k]
+            cnt = cnt + c2 + runs[2]
         return tot, bnd, cnt
 
 
