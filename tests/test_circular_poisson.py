@@ -75,7 +75,7 @@ CASES = [
 
 @pytest.mark.parametrize("R, v, W, T, s, disp", CASES)
 def test_poisson_route_agrees_with_the_terms(R, v, W, T, s, disp, monkeypatch):
-    assert _uses_poisson(R, v, W, T, s, disp) < 0.5
+    assert _uses_poisson(R, v, W, T, s, disp) < 0.75
     fast = _kernels(R, v, W, T, s, disp)
     slow = _kernels(R, v, W, T, s, disp, long_runs=False, monkeypatch=monkeypatch)
     seen = 0
@@ -91,6 +91,39 @@ def test_poisson_route_agrees_with_the_terms(R, v, W, T, s, disp, monkeypatch):
         # of Bessel phases of size ~ R)
         assert ea <= max(1e-10 * abs(a), 2 * eb) + 1e-300, (key, ea / a, eb / b)
     assert seen >= 2
+
+
+# cases from a random campaign (seeded) that once failed: a near-sonic phonon
+# run whose quadrature estimate was 3.5x short at rtol 1e-6; a cold gas whose
+# thermal sum was not resolved when only the plain sum split the panels; a
+# subsonic run without a window that summed 1.5e6 harmonics instead of a few
+# thousand
+CAMPAIGN = [
+    (5419.744184266896, 1.0080330288183343, 0.0018105916641060786, 0.0, 1.7518793446360037,
+     "phonon", 1e-6),
+    (10812.644810514686, 5.159083625379422, 0.0, 0.01517710570215601, 0.3325536475731174,
+     "phonon", 1e-12),
+    (4501.387211026078, 4.043617023547208, 0.0, 0.016948986996275374, 1.8816765657470547,
+     "bogoliubov", 1e-12),
+    (19577.911065698063, 0.7020275114477226, 0.0, 0.9039128478118456, 0.8770018240846706,
+     "bogoliubov", 1e-6),
+]
+
+
+@pytest.mark.parametrize("R, v, W, T, s, disp, rtol", CAMPAIGN)
+def test_campaign_cases(R, v, W, T, s, disp, rtol, monkeypatch):
+    fast = _kernels(R, v, W, T, s, disp, rtol=rtol)
+    slow = _kernels(R, v, W, T, s, disp, rtol=rtol, long_runs=False, monkeypatch=monkeypatch)
+    for key in _KEYS:
+        a, ea = fast[key][0][0], fast[key][1][0]
+        b, eb = slow[key][0][0], slow[key][1][0]
+        if math.isnan(b):
+            continue
+        assert abs(a - b) <= ea + eb, (key, a, b, ea, eb)
+        assert ea <= max(rtol * abs(a), 2 * eb) + 1e-300, (key, ea / a, eb / b)
+    # the run without a window is not tried: its count is the terms' own
+    if v < 1:
+        assert fast["harmonics"][0] == slow["harmonics"][0]
 
 
 def _plain_sum(R, v, W, sign):

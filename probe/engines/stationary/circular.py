@@ -535,7 +535,16 @@ class _HarmonicSums:
                 cut = (self.disp.omega(self.qcut) - sign * self.W[pts]) / self.wc[pts] \
                     if math.isfinite(self.qcut) else np.full(pts.size, math.inf)
             bulk = np.where(edge < 1e9, edge, cut)
-            cand = np.nonzero(np.isfinite(bulk) & (bulk - up_start >= MIN_SPAN / 2))[0]
+            # only runs with a window of resonant shells above the turning
+            # point (a finite edge, or none because every shell radiates):
+            # without one every term is below the turning point and the
+            # terms stop at Kapteyn's bound long before MIN_SPAN
+            v, W = self.v[pts], self.W[pts]
+            with np.errstate(invalid="ignore"):
+                window = (self.disp.root_plus(v, W) if sign > 0
+                          else self.disp.roots_up(v, W)[1])
+            cand = np.nonzero(~np.isnan(window) & np.isfinite(bulk)
+                              & (bulk - up_start >= MIN_SPAN / 2))[0]
             p = pts[cand]
             first = up_start[cand]
             lo = np.maximum(np.ceil(np.where(edge[cand] < 1e9, edge[cand], first)), first)
